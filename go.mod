@@ -1,0 +1,3 @@
+module github.com/pertinent/pertinent
+
+go 1.26.8
