@@ -1,0 +1,97 @@
+// Command pertinent runs the pertinent server and its administrative commands.
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+	"sort"
+	"syscall"
+)
+
+// command is one subcommand: it parses its own flags from args.
+type command struct {
+	run   func(ctx context.Context, args []string, stdout, stderr io.Writer) error
+	brief string
+}
+
+var commands = map[string]command{
+	"serve":   {runServe, "serve the web application"},
+	"demo":    {runDemo, "create or reuse a demo database with an invented collection, and serve it"},
+	"migrate": {runMigrate, "apply pending database migrations"},
+	"user":    {runUser, "manage accounts: add, list, disable, enable, set-password"},
+}
+
+func main() {
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	if err := run(ctx, os.Args[1:], os.Stdout, os.Stderr); err != nil {
+		if !errors.Is(err, flag.ErrHelp) {
+			fmt.Fprintln(os.Stderr, "pertinent:", err)
+		}
+		os.Exit(2)
+	}
+}
+
+func run(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
+		usage(stderr)
+		if len(args) == 0 {
+			return errors.New("no command given")
+		}
+		return nil
+	}
+	c, ok := commands[args[0]]
+	if !ok {
+		usage(stderr)
+		return fmt.Errorf("unknown command %q", args[0])
+	}
+	return c.run(ctx, args[1:], stdout, stderr)
+}
+
+func usage(w io.Writer) {
+	fmt.Fprintln(w, "usage: pertinent <command> [flags]\n\ncommands:")
+	names := make([]string, 0, len(commands))
+	for n := range commands {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	for _, n := range names {
+		fmt.Fprintf(w, "  %-10s %s\n", n, commands[n].brief)
+	}
+	fmt.Fprintln(w, "\nRun 'pertinent <command> -h' for a command's flags.")
+}
+
+// env returns the environment variable's value, or def when it is unset, so every flag can
+// fall back to a PERTINENT_* variable.
+func env(name, def string) string {
+	if v, ok := os.LookupEnv(name); ok {
+		return v
+	}
+	return def
+}
+
+func envBool(name string, def bool) bool {
+	switch env(name, "") {
+	case "1", "true", "yes", "on":
+		return true
+	case "0", "false", "no", "off":
+		return false
+	}
+	return def
+}
+
+// dbFlag adds the --db flag shared by every command that opens the database.
+func dbFlag(fs *flag.FlagSet, def string) *string {
+	return fs.String("db", env("PERTINENT_DB", def), "SQLite database file (env PERTINENT_DB)")
+}
+
+func newFlags(name string, stderr io.Writer) *flag.FlagSet {
+	fs := flag.NewFlagSet(name, flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	return fs
+}

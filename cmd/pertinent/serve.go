@@ -1,0 +1,100 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"log/slog"
+	"net"
+	"net/http"
+	"time"
+
+	"github.com/pertinent/pertinent/store"
+	"github.com/pertinent/pertinent/web"
+)
+
+// serverFlags are the flags of every command that serves the site.
+type serverFlags struct {
+	addr     *string
+	db       *string
+	secure   *bool
+	logLevel *string
+}
+
+func addServerFlags(fs *flag.FlagSet, defaultDB string) serverFlags {
+	return serverFlags{
+		addr:     fs.String("addr", env("PERTINENT_ADDR", "127.0.0.1:8080"), "address to listen on (env PERTINENT_ADDR)"),
+		db:       dbFlag(fs, defaultDB),
+		secure:   fs.Bool("secure-cookies", envBool("PERTINENT_SECURE_COOKIES", false), "mark session cookies Secure, for use behind a TLS-terminating proxy (env PERTINENT_SECURE_COOKIES)"),
+		logLevel: fs.String("log-level", env("PERTINENT_LOG_LEVEL", "info"), "debug, info, warn or error (env PERTINENT_LOG_LEVEL)"),
+	}
+}
+
+func (f serverFlags) logger(w io.Writer) (*slog.Logger, error) {
+	var level slog.Level
+	if err := level.UnmarshalText([]byte(*f.logLevel)); err != nil {
+		return nil, fmt.Errorf("--log-level: %w", err)
+	}
+	return slog.New(slog.NewTextHandler(w, &slog.HandlerOptions{Level: level})), nil
+}
+
+func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("serve", stderr)
+	f := addServerFlags(fs, "pertinent.db")
+	if err := fs.Parse(args); err != nil {
+		return err
+	}
+	log, err := f.logger(stderr)
+	if err != nil {
+		return err
+	}
+	st, err := store.Open(ctx, *f.db)
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	return serve(ctx, st, f, log, func(addr string) {
+		fmt.Fprintf(stdout, "pertinent is serving %s at http://%s/\n", *f.db, addr)
+	})
+}
+
+// serve runs the site until ctx ends, then lets in-flight requests finish before returning.
+func serve(ctx context.Context, st *store.Store, f serverFlags, log *slog.Logger, ready func(addr string)) error {
+	h, err := web.New(ctx, st, web.Options{SecureCookies: *f.secure, Logger: log})
+	if err != nil {
+		return err
+	}
+	ln, err := net.Listen("tcp", *f.addr)
+	if err != nil {
+		return err
+	}
+	srv := &http.Server{
+		Handler:           h,
+		ReadHeaderTimeout: 10 * time.Second,
+		ReadTimeout:       60 * time.Second,
+		WriteTimeout:      60 * time.Second,
+		IdleTimeout:       120 * time.Second,
+		ErrorLog:          slog.NewLogLogger(log.Handler(), slog.LevelWarn),
+	}
+	errc := make(chan error, 1)
+	go func() { errc <- srv.Serve(ln) }()
+	ready(ln.Addr().String())
+	select {
+	case err := <-errc:
+		return err
+	case <-ctx.Done():
+	}
+	log.Info("shutting down: finishing requests in flight")
+	shutCtx, cancel := context.WithTimeout(context.Background(), 15*time.Second)
+	defer cancel()
+	if err := srv.Shutdown(shutCtx); err != nil {
+		return err
+	}
+	if err := <-errc; !errors.Is(err, http.ErrServerClosed) {
+		return err
+	}
+	log.Info("stopped")
+	return nil
+}

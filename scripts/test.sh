@@ -1,0 +1,23 @@
+#!/usr/bin/env bash
+# Installs what the tests need on a fresh Debian machine (reference libraries for the
+# statistics checks, the sqlite3 shell, headless Chromium for browser tests), fetches the Go
+# modules, then runs every test. Safe to run again: installed packages are skipped.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+packages=(python3-sklearn python3-statsmodels python3-scipy sqlite3 chromium)
+missing=()
+for p in "${packages[@]}"; do
+  dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")
+done
+if ((${#missing[@]})); then
+  echo "installing: ${missing[*]}"
+  sudo=""
+  [ "$(id -u)" -eq 0 ] || sudo="sudo"
+  $sudo apt-get update -qq
+  DEBIAN_FRONTEND=noninteractive $sudo apt-get install -y -qq --no-install-recommends "${missing[@]}" >/dev/null
+fi
+
+go mod download
+go vet ./...
+go test ./... "$@"

@@ -1,0 +1,179 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"time"
+)
+
+// CannotJudgeReasons are the reasons an assessor may give instead of a grade.
+var CannotJudgeReasons = []string{"broken", "language", "disturbing", "other"}
+
+func validReason(r string) bool {
+	for _, x := range CannotJudgeReasons {
+		if r == x {
+			return true
+		}
+	}
+	return false
+}
+
+// Submission is an assessor's answer for a pair: a grade, or a reason it cannot be judged.
+type Submission struct {
+	PairID      int64
+	UserID      int64
+	Grade       *int
+	CannotJudge string
+	Note        string
+	TimeSpentMs int // measured on the page; 0 lets the store measure from the lease
+}
+
+// Judgment is a stored judgment.
+type Judgment struct {
+	ID          int64
+	PairID      int64
+	UserID      int64
+	Grade       *int
+	CannotJudge string
+	Note        string
+	TimeSpentMs int
+	Supersedes  int64
+	Current     bool
+	Withdrawn   bool
+	CreatedAt   time.Time
+}
+
+// Submit records a judgment. A second answer by the same assessor supersedes the first
+// (kept in history); a pair that already has all the judgments it needs refuses newcomers.
+func (s *Store) Submit(ctx context.Context, sub Submission) (Judgment, error) {
+	if (sub.Grade == nil) == (sub.CannotJudge == "") {
+		return Judgment{}, errorf(CodeInvalid, "give either a grade or a reason the pair cannot be judged")
+	}
+	if sub.CannotJudge != "" && !validReason(sub.CannotJudge) {
+		return Judgment{}, errorf(CodeInvalid, "unknown reason: "+sub.CannotJudge)
+	}
+	if len(sub.Note) > 4000 {
+		return Judgment{}, errorf(CodeInvalid, "a note may have at most 4000 characters")
+	}
+	var j Judgment
+	err := s.write(ctx, func(tx *sql.Tx) error {
+		var needed, judged, levels int
+		var archived, member bool
+		var gold sql.NullInt64
+		var leasedAt sql.NullString
+		err := tx.QueryRowContext(ctx, `SELECT p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
+				(SELECT COUNT(*) FROM scale_levels l WHERE l.project_id = p.id),
+				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = p.id AND m.user_id = ?2 AND m.role = 'assessor'),
+				(SELECT leased_at FROM leases WHERE pair_id = x.id AND user_id = ?2)
+			FROM pairs x JOIN projects p ON p.id = x.project_id WHERE x.id = ?1`, sub.PairID, sub.UserID).
+			Scan(&needed, &judged, &gold, &archived, &levels, &member, &leasedAt)
+		if errors.Is(err, sql.ErrNoRows) {
+			return ErrNotFound
+		}
+		if err != nil {
+			return err
+		}
+		if !member {
+			return errorf(CodeDenied, "only the project's assessors can judge its pairs")
+		}
+		if archived {
+			return errorf(CodeConflict, "the project is archived: it takes no more judgments")
+		}
+		if sub.Grade != nil && (*sub.Grade < 0 || *sub.Grade >= levels) {
+			return errorf(CodeInvalid, "the grade is not on this project's scale")
+		}
+		if sub.TimeSpentMs <= 0 && leasedAt.Valid {
+			sub.TimeSpentMs = int(time.Since(parseTime(leasedAt.String)).Milliseconds())
+		}
+		prev, err := currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
+		if err != nil {
+			return err
+		}
+		if prev == 0 && !gold.Valid && judged >= needed {
+			return errorf(CodeConflict, "this pair has all the judgments it needs")
+		}
+		at := now()
+		j, err = insertJudgment(ctx, tx, sub, at)
+		if err != nil {
+			return err
+		}
+		_, err = tx.ExecContext(ctx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID)
+		return err
+	})
+	return j, err
+}
+
+func currentJudgmentID(ctx context.Context, tx *sql.Tx, pairID, userID int64) (int64, error) {
+	var id int64
+	err := tx.QueryRowContext(ctx, `SELECT id FROM judgments WHERE pair_id = ? AND user_id = ? AND current = 1`, pairID, userID).Scan(&id)
+	if errors.Is(err, sql.ErrNoRows) {
+		return 0, nil
+	}
+	return id, err
+}
+
+// insertJudgment appends a judgment as the user's current one for the pair, retiring the
+// previous current row and keeping the pair's count of judgments in step.
+func insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) (Judgment, error) {
+	prev, err := currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
+	if err != nil {
+		return Judgment{}, err
+	}
+	if prev != 0 {
+		if _, err := tx.ExecContext(ctx, `UPDATE judgments SET current = 0 WHERE id = ?`, prev); err != nil {
+			return Judgment{}, err
+		}
+	}
+	var grade, reason any
+	if sub.Grade != nil {
+		grade = *sub.Grade
+	} else {
+		reason = sub.CannotJudge
+	}
+	var id int64
+	err = tx.QueryRowContext(ctx, `INSERT INTO judgments(pair_id, user_id, grade, cannot_judge, note, time_spent_ms, guideline_id, supersedes, created_at)
+		VALUES (?1, ?2, ?3, ?4, ?5, ?6,
+			(SELECT MAX(g.id) FROM guideline_revisions g JOIN pairs x ON x.project_id = g.project_id WHERE x.id = ?1),
+			?7, ?8) RETURNING id`,
+		sub.PairID, sub.UserID, grade, reason, sub.Note, max(sub.TimeSpentMs, 0), nullID(prev), at).Scan(&id)
+	if err != nil {
+		return Judgment{}, err
+	}
+	if prev == 0 {
+		if _, err := tx.ExecContext(ctx, `UPDATE pairs SET judged = judged + 1 WHERE id = ?`, sub.PairID); err != nil {
+			return Judgment{}, err
+		}
+	}
+	return Judgment{ID: id, PairID: sub.PairID, UserID: sub.UserID, Grade: sub.Grade, CannotJudge: sub.CannotJudge,
+		Note: sub.Note, TimeSpentMs: max(sub.TimeSpentMs, 0), Supersedes: prev, Current: true, CreatedAt: parseTime(at)}, nil
+}
+
+// JudgmentHistory returns every judgment one user made of one pair, oldest first. It never
+// returns another user's judgments.
+func (s *Store) JudgmentHistory(ctx context.Context, pairID, userID int64) ([]Judgment, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT id, pair_id, user_id, grade, COALESCE(cannot_judge, ''), note, time_spent_ms,
+			COALESCE(supersedes, 0), current, withdrawn_at IS NOT NULL, created_at
+		FROM judgments WHERE pair_id = ? AND user_id = ? ORDER BY id`, pairID, userID)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []Judgment
+	for rows.Next() {
+		var j Judgment
+		var grade sql.NullInt64
+		var at string
+		if err := rows.Scan(&j.ID, &j.PairID, &j.UserID, &grade, &j.CannotJudge, &j.Note, &j.TimeSpentMs,
+			&j.Supersedes, &j.Current, &j.Withdrawn, &at); err != nil {
+			return nil, err
+		}
+		if grade.Valid {
+			g := int(grade.Int64)
+			j.Grade = &g
+		}
+		j.CreatedAt = parseTime(at)
+		out = append(out, j)
+	}
+	return out, rows.Err()
+}

@@ -1,0 +1,109 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+	"io/fs"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/pertinent/pertinent/migrations"
+)
+
+// Migration is one numbered schema file.
+type Migration struct {
+	Version int
+	Name    string
+	SQL     string
+}
+
+// Migrations lists the embedded migrations in version order.
+func Migrations() ([]Migration, error) {
+	names, err := fs.Glob(migrations.Files, "*.sql")
+	if err != nil {
+		return nil, err
+	}
+	sort.Strings(names)
+	var out []Migration
+	for _, name := range names {
+		num, _, ok := strings.Cut(name, "_")
+		v, err := strconv.Atoi(num)
+		if !ok || err != nil {
+			return nil, fmt.Errorf("store: migration %q is not named NNNN_words.sql", name)
+		}
+		body, err := fs.ReadFile(migrations.Files, name)
+		if err != nil {
+			return nil, err
+		}
+		if len(out) > 0 && out[len(out)-1].Version == v {
+			return nil, fmt.Errorf("store: two migrations numbered %d", v)
+		}
+		out = append(out, Migration{Version: v, Name: name, SQL: string(body)})
+	}
+	return out, nil
+}
+
+// Migrate applies every migration newer than the recorded version, each in its own
+// transaction together with its row in schema_migrations, so a failure leaves the file at
+// the last good version.
+func (s *Store) Migrate(ctx context.Context) error {
+	if _, err := s.w.ExecContext(ctx, `CREATE TABLE IF NOT EXISTS schema_migrations (
+		version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL)`); err != nil {
+		return fmt.Errorf("store: migrate: %w", err)
+	}
+	current, err := s.SchemaVersion(ctx)
+	if err != nil {
+		return err
+	}
+	all, err := Migrations()
+	if err != nil {
+		return err
+	}
+	for _, m := range all {
+		if m.Version <= current {
+			continue
+		}
+		err := s.write(ctx, func(tx *sql.Tx) error {
+			if _, err := tx.ExecContext(ctx, m.SQL); err != nil {
+				return err
+			}
+			_, err := tx.ExecContext(ctx, `INSERT INTO schema_migrations(version, name, applied_at) VALUES (?, ?, ?)`,
+				m.Version, m.Name, now())
+			return err
+		})
+		if err != nil {
+			return fmt.Errorf("store: migration %s: %w", m.Name, err)
+		}
+	}
+	return nil
+}
+
+// SchemaVersion is the newest applied migration, 0 for an empty file.
+func (s *Store) SchemaVersion(ctx context.Context) (int, error) {
+	var v sql.NullInt64
+	err := s.w.QueryRowContext(ctx, `SELECT MAX(version) FROM schema_migrations`).Scan(&v)
+	if err != nil {
+		return 0, fmt.Errorf("store: schema version: %w", err)
+	}
+	return int(v.Int64), nil
+}
+
+// Tables lists the user tables of the database, for checks of the schema.
+func (s *Store) Tables(ctx context.Context) ([]string, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT name FROM sqlite_schema WHERE type = 'table' AND name NOT LIKE 'sqlite_%' ORDER BY name`)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []string
+	for rows.Next() {
+		var n string
+		if err := rows.Scan(&n); err != nil {
+			return nil, err
+		}
+		out = append(out, n)
+	}
+	return out, rows.Err()
+}

@@ -1,0 +1,124 @@
+// Package web serves pertinent's pages: chi routes, middleware, html/template pages and the
+// embedded static files. Handlers parse the request, call the store, and render; they hold no
+// SQL and no statistics.
+package web
+
+import (
+	"context"
+	"embed"
+	"fmt"
+	"io/fs"
+	"log/slog"
+	"net/http"
+	"time"
+
+	"github.com/go-chi/chi/v5"
+	"github.com/go-chi/chi/v5/middleware"
+	"github.com/gorilla/sessions"
+
+	"github.com/pertinent/pertinent/store"
+)
+
+//go:embed templates static
+var assets embed.FS
+
+// Options configure a Server.
+type Options struct {
+	// SecureCookies marks the session cookie Secure. Set it when a proxy in front terminates
+	// TLS; a request that arrives over TLS gets Secure cookies regardless.
+	SecureCookies bool
+	// SessionTTL is how long a sign-in lasts; zero means 12 hours.
+	SessionTTL time.Duration
+	Logger     *slog.Logger
+}
+
+// Server is the HTTP side of pertinent.
+type Server struct {
+	store    *store.Store
+	log      *slog.Logger
+	opts     Options
+	pages    *pages
+	cookies  *sessions.CookieStore
+	throttle *throttle
+	router   chi.Router
+}
+
+// New builds a Server over an open store.
+func New(ctx context.Context, st *store.Store, opts Options) (*Server, error) {
+	if opts.Logger == nil {
+		opts.Logger = slog.Default()
+	}
+	if opts.SessionTTL == 0 {
+		opts.SessionTTL = 12 * time.Hour
+	}
+	hashKey, blockKey, err := st.SessionKeys(ctx)
+	if err != nil {
+		return nil, fmt.Errorf("web: session keys: %w", err)
+	}
+	p, err := loadPages()
+	if err != nil {
+		return nil, err
+	}
+	cs := sessions.NewCookieStore(hashKey, blockKey)
+	cs.Options = &sessions.Options{Path: "/", MaxAge: int(opts.SessionTTL.Seconds()), HttpOnly: true, SameSite: http.SameSiteLaxMode}
+	s := &Server{store: st, log: opts.Logger, opts: opts, pages: p, cookies: cs, throttle: newThrottle()}
+	s.router = s.routes()
+	return s, nil
+}
+
+// ServeHTTP makes Server an http.Handler.
+func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) { s.router.ServeHTTP(w, r) }
+
+// Router exposes the routes, so tests can walk every registered route.
+func (s *Server) Router() chi.Router { return s.router }
+
+func (s *Server) routes() chi.Router {
+	r := chi.NewRouter()
+	r.Use(middleware.RealIP, s.logRequests, middleware.Recoverer, securityHeaders)
+	r.Use(http.NewCrossOriginProtection().Handler)
+	r.Use(s.loadUser)
+
+	static, _ := fs.Sub(assets, "static")
+	r.Handle("/static/*", http.StripPrefix("/static/", cacheStatic(http.FileServerFS(static))))
+	r.Get("/healthz", s.healthz)
+	r.Get("/signin", s.signinPage)
+	r.Post("/signin", s.signin)
+
+	r.Group(func(r chi.Router) {
+		r.Use(s.requireUser)
+		r.Post("/signout", s.signout)
+		r.Get("/", s.home)
+		r.Route("/projects/{project}", func(r chi.Router) {
+			r.Use(s.loadProject)
+			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/judge", s.judgePage)
+			r.With(s.requireProjectRole(store.RoleAssessor)).Post("/judge", s.judgeSubmit)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/overview", s.overview)
+		})
+		r.Route("/admin", func(r chi.Router) {
+			r.Use(s.requireAdmin)
+			r.Get("/users", s.usersPage)
+		})
+	})
+	r.NotFound(func(w http.ResponseWriter, r *http.Request) { s.fail(w, r, http.StatusNotFound, "There is no page here.") })
+	return r
+}
+
+func (s *Server) healthz(w http.ResponseWriter, r *http.Request) {
+	ctx, cancel := context.WithTimeout(r.Context(), 2*time.Second)
+	defer cancel()
+	w.Header().Set("Content-Type", "text/plain; charset=utf-8")
+	if err := s.store.Ping(ctx); err != nil {
+		s.log.ErrorContext(ctx, "health check failed", "err", err)
+		w.WriteHeader(http.StatusServiceUnavailable)
+		fmt.Fprintln(w, "database unavailable")
+		return
+	}
+	fmt.Fprintln(w, "ok")
+}
+
+func cacheStatic(h http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		w.Header().Set("Cache-Control", "public, max-age=3600")
+		h.ServeHTTP(w, r)
+	})
+}
