@@ -2,8 +2,8 @@ package web
 
 import (
 	"context"
-	"io"
 	"fmt"
+	"io"
 	"net/http"
 	"net/url"
 	"regexp"

@@ -99,7 +99,9 @@ func (s *Server) routes() chi.Router {
 			r.Get("/users", s.usersPage)
 		})
 	})
-	r.NotFound(func(w http.ResponseWriter, r *http.Request) { s.fail(w, r, http.StatusNotFound, "There is no page here.") })
+	r.NotFound(func(w http.ResponseWriter, r *http.Request) {
+		s.fail(w, r, http.StatusNotFound, "There is no page here.")
+	})
 	return r
 }
 
