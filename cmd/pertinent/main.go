@@ -24,6 +24,7 @@ var commands = map[string]command{
 	"demo":    {runDemo, "create or reuse a demo database with an invented collection, and serve it"},
 	"migrate": {runMigrate, "apply pending database migrations"},
 	"user":    {runUser, "manage accounts: add, list, disable, enable, set-password"},
+	"backup":  {runBackup, "copy a live database to a new file, consistently"},
 }
 
 func main() {
