@@ -1,0 +1,131 @@
+package store
+
+import (
+	"go/ast"
+	"go/parser"
+	"go/token"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// sqlMethods take an SQL text as their first argument after the context (or first, without).
+var sqlMethods = map[string]int{
+	"ExecContext": 1, "QueryContext": 1, "QueryRowContext": 1, "PrepareContext": 1,
+	"Exec": 0, "Query": 0, "QueryRow": 0, "Prepare": 0,
+}
+
+// sqlReceiver recognises the handles SQL is run on by the names this code base gives them:
+// a transaction tx, a database db or conn, and the store's writer s.w and readers s.r.
+// Prepared statements are not matched: their SQL was checked where they were prepared.
+func sqlReceiver(x ast.Expr) bool {
+	switch x := x.(type) {
+	case *ast.Ident:
+		return x.Name == "tx" || x.Name == "db" || x.Name == "conn"
+	case *ast.SelectorExpr:
+		return x.Sel.Name == "w" || x.Sel.Name == "r" || x.Sel.Name == "db"
+	}
+	return false
+}
+
+// trustedSQL are the non-constant SQL texts allowed: the migration files embedded in the binary.
+var trustedSQL = map[string]bool{"m.SQL": true}
+
+func exprText(e ast.Expr) string {
+	if s, ok := e.(*ast.SelectorExpr); ok {
+		if id, ok := s.X.(*ast.Ident); ok {
+			return id.Name + "." + s.Sel.Name
+		}
+	}
+	return ""
+}
+
+// TestSQLIsNeverBuiltFromValues fails when any non-test Go file of the module passes SQL that
+// is not a constant: string literals, package constants, and + of those. Values must travel as
+// parameters, so no input can change a statement's meaning.
+func TestSQLIsNeverBuiltFromValues(t *testing.T) {
+	root, err := filepath.Abs("..")
+	if err != nil {
+		t.Fatal(err)
+	}
+	fset := token.NewFileSet()
+	pkgs := map[string][]*ast.File{}
+	err = filepath.WalkDir(root, func(path string, d os.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		if d.IsDir() && (strings.HasPrefix(d.Name(), ".") || d.Name() == "testdata") && path != root {
+			return filepath.SkipDir
+		}
+		if d.IsDir() || !strings.HasSuffix(path, ".go") || strings.HasSuffix(path, "_test.go") {
+			return nil
+		}
+		f, err := parser.ParseFile(fset, path, nil, 0)
+		if err != nil {
+			return err
+		}
+		pkgs[filepath.Dir(path)] = append(pkgs[filepath.Dir(path)], f)
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	checked := 0
+	for _, files := range pkgs {
+		consts := map[string]bool{}
+		for _, f := range files {
+			for _, decl := range f.Decls {
+				if g, ok := decl.(*ast.GenDecl); ok && g.Tok == token.CONST {
+					for _, spec := range g.Specs {
+						for _, n := range spec.(*ast.ValueSpec).Names {
+							consts[n.Name] = true
+						}
+					}
+				}
+			}
+		}
+		var constant func(e ast.Expr) bool
+		constant = func(e ast.Expr) bool {
+			switch e := e.(type) {
+			case *ast.BasicLit:
+				return e.Kind == token.STRING
+			case *ast.Ident:
+				return consts[e.Name]
+			case *ast.ParenExpr:
+				return constant(e.X)
+			case *ast.BinaryExpr:
+				return e.Op == token.ADD && constant(e.X) && constant(e.Y)
+			}
+			return false
+		}
+		for _, f := range files {
+			ast.Inspect(f, func(n ast.Node) bool {
+				call, ok := n.(*ast.CallExpr)
+				if !ok {
+					return true
+				}
+				sel, ok := call.Fun.(*ast.SelectorExpr)
+				if !ok {
+					return true
+				}
+				i, ok := sqlMethods[sel.Sel.Name]
+				if !ok || len(call.Args) <= i {
+					return true
+				}
+				if !sqlReceiver(sel.X) {
+					return true
+				}
+				arg := call.Args[i]
+				checked++
+				if !constant(arg) && !trustedSQL[exprText(arg)] {
+					t.Errorf("%s: SQL passed to %s is built at run time; use a constant and parameters", fset.Position(arg.Pos()), sel.Sel.Name)
+				}
+				return true
+			})
+		}
+	}
+	if checked < 20 {
+		t.Fatalf("only %d SQL calls found: the check is not looking at the code", checked)
+	}
+}
