@@ -18,6 +18,7 @@ type csvReader struct {
 	ends   []int
 	fields []string
 	lines  []int
+	start  int // line the last row read (or attempted) starts on
 }
 
 // csvSyntaxError is a malformed row; the reader resumes at the next line.
@@ -41,6 +42,7 @@ func (c *csvReader) read() ([]string, []int, error) {
 	var err error
 	for {
 		line, err = c.lr.next()
+		c.start = c.lr.line
 		if err != nil {
 			return nil, nil, err
 		}

@@ -140,7 +140,7 @@ func (t *tableReader) readHeader() error {
 			return nil
 		}
 		if err == errTooLong {
-			t.c.addf(t.csv.lr.line, "", "header row longer than %d bytes", t.o.MaxLineBytes)
+			t.c.addf(t.csv.start, "", "header row longer than %d bytes", t.o.MaxLineBytes)
 			t.done = true
 			return nil
 		}
@@ -229,7 +229,7 @@ func (t *tableReader) nextCSV() (bool, error) {
 		case io.EOF:
 			return false, nil
 		case errTooLong:
-			t.c.addf(t.csv.lr.line, "", "row longer than %d bytes; reading stopped here", t.o.MaxLineBytes)
+			t.c.addf(t.csv.start, "", "row longer than %d bytes; reading stopped here", t.o.MaxLineBytes)
 			return false, nil
 		}
 		return false, fmt.Errorf("%s: %w", t.o.File, err)
@@ -337,6 +337,7 @@ func (t *tableReader) nextJSONL() (bool, error) {
 		v, present, why := jsonScalar(raw)
 		if why != "" {
 			t.c.add(n, where, why)
+			r.has[slot] = true // present, if wrong: not also "missing"
 			bad = true
 			continue
 		}
