@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"hash/maphash"
 	"io"
 	"slices"
 )
@@ -193,12 +194,12 @@ func ReadPairRows(r io.Reader, f Format, o Options, fn func(PairRow) error) erro
 			c.addf(p.Line, "", "duplicate pair (%s, %s) (first at line %d)", quote(q.ID), quote(d.ID), first)
 			continue
 		}
-		first, row.NewQuery = queries.add(q.ID, p.Line, q.Text, q.Need)
+		first, row.NewQuery = queries.add(q.ID, p.Line, queries.ids.key(q.Text, q.Need))
 		if first > 0 {
 			c.addf(p.Line, "", "query %s differs from its row at line %d (text or need)", quote(q.ID), first)
 			continue
 		}
-		first, row.NewDocument = docs.add(d.ID, p.Line, docContent(d)...)
+		first, row.NewDocument = docs.add(d.ID, p.Line, docSum(&docs.ids.h, d))
 		if first > 0 {
 			c.addf(p.Line, "", "document %s differs from its row at line %d (title, url, body, body_format or metadata)", quote(d.ID), first)
 			continue
@@ -250,20 +251,36 @@ func buildPair(rec *record, qslot, dslot, pslot, gslot, scale int, c *collector)
 	return Pair{QueryID: q, DocID: d, Priority: prio, GoldGrade: gold, Line: rec.line}, ok1 && ok2 && ok3 && ok4
 }
 
-// docContent lists a document's content in a fixed order for hashing.
-func docContent(d Document) []string {
-	parts := []string{d.Title, d.URL, d.Body, d.BodyFormat}
-	if len(d.Meta) > 0 {
+// docSum hashes a document's content; meta keys are sorted so the sum does
+// not depend on map order.
+func docSum(h *maphash.Hash, d Document) uint64 {
+	h.Reset()
+	for _, p := range [...]string{d.Title, d.URL, d.Body, d.BodyFormat} {
+		h.WriteString(p)
+		h.WriteByte(0)
+	}
+	switch len(d.Meta) {
+	case 0:
+	case 1:
+		for k, v := range d.Meta {
+			h.WriteString(k)
+			h.WriteByte(0)
+			h.WriteString(v)
+		}
+	default:
 		keys := make([]string, 0, len(d.Meta))
 		for k := range d.Meta {
 			keys = append(keys, k)
 		}
 		slices.Sort(keys)
 		for _, k := range keys {
-			parts = append(parts, k, d.Meta[k])
+			h.WriteString(k)
+			h.WriteByte(0)
+			h.WriteString(d.Meta[k])
+			h.WriteByte(0)
 		}
 	}
-	return parts
+	return h.Sum64()
 }
 
 // contentSeen remembers, per id, the line it first appeared on and a hash
@@ -284,10 +301,9 @@ func newContentSeen() *contentSeen {
 }
 
 // add returns (0, true) for a new id, (0, false) for a repeat with the same
-// content and (first line, false) for a repeat with different content.
-func (s *contentSeen) add(id string, line int, content ...string) (int, bool) {
+// content sum and (first line, false) for a repeat with different content.
+func (s *contentSeen) add(id string, line int, sum uint64) (int, bool) {
 	k := s.ids.key(id)
-	sum := s.ids.key(content...)
 	if e, ok := s.m[k]; ok {
 		if e.sum != sum {
 			return e.line, false
