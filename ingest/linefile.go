@@ -1,0 +1,49 @@
+package ingest
+
+import (
+	"fmt"
+	"io"
+	"strings"
+	"unicode/utf8"
+)
+
+// eachLine feeds the non-blank lines of a whitespace-separated format to fn,
+// reporting overlong lines and bad UTF-8 itself. With comments, lines whose
+// first non-blank character is '#' are skipped too.
+func eachLine(r io.Reader, o Options, c *collector, comments bool, fn func(line int, s string) error) error {
+	lr := newLineReader(r, o.MaxLineBytes)
+	for {
+		b, err := lr.next()
+		if err == errTooLong {
+			c.addf(lr.line, "", "line longer than %d bytes", o.MaxLineBytes)
+			continue
+		}
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return fmt.Errorf("%s: %w", o.File, err)
+		}
+		if !utf8.Valid(b) {
+			c.addf(lr.line, "", "is not valid UTF-8 at byte %d", invalidAt(b))
+			continue
+		}
+		s := string(b)
+		t := strings.TrimSpace(s)
+		if t == "" || (comments && t[0] == '#') {
+			continue
+		}
+		if err := fn(lr.line, s); err != nil {
+			return err
+		}
+	}
+}
+
+// idField checks the id in column n of a whitespace-separated line.
+func idField(c *collector, line, n int, name, v string) bool {
+	if why := checkID(v); why != "" {
+		c.add(line, column(n, name), why)
+		return false
+	}
+	return true
+}

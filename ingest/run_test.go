@@ -1,0 +1,72 @@
+package ingest
+
+import (
+	"strings"
+	"testing"
+)
+
+func runEntries(t *testing.T, src string) ([]RunEntry, error) {
+	return all(t, src, func(r *strings.Reader, fn func(RunEntry) error) error {
+		return ReadRun(r, Options{File: "runs.txt"}, fn)
+	})
+}
+
+func TestReadRun(t *testing.T) {
+	got, err := runEntries(t, "q1 Q0 d1 1 12.5 bm25\n\n  q1\t0  d2 2 -3e-1 bm25  \r\n")
+	if err != nil {
+		t.Fatal(err)
+	}
+	mustEqual(t, got, []RunEntry{
+		{QueryID: "q1", DocID: "d1", Rank: 1, Score: 12.5, Tag: "bm25", Line: 1},
+		{QueryID: "q1", DocID: "d2", Rank: 2, Score: -0.3, Tag: "bm25", Line: 3},
+	})
+}
+
+func TestReadRunProblems(t *testing.T) {
+	src := "q1 Q0 d1 1 1 r\n" +
+		"q1 Q0 d2 x 1 r\n" +
+		"q1 Q0 d3 -1 NaN r\n" +
+		"q1 Q0 d4 4 1e999 r\n" +
+		"q1 Q0 d5 5 1\n" +
+		"q1 Q0 d1 6 1 r\n" +
+		"q1 Q0 d1 6 1 other\n" +
+		"q\x01 Q0 d8 8 1 r\n" +
+		"q1 Q0 d9 9 1 \xfe\n"
+	got, err := runEntries(t, src)
+	wantProblems(t, err,
+		`runs.txt:2: column 4 (rank): "x" is not an integer`,
+		`runs.txt:3: column 4 (rank): rank -1 is negative`,
+		`runs.txt:3: column 5 (score): "NaN" is not a finite number`,
+		`runs.txt:4: column 5 (score): "1e999" is out of range`,
+		`runs.txt:5: has 5 columns, expected 6: <query-id> Q0 <doc-id> <rank> <score> <run-tag>`,
+		`runs.txt:6: duplicate document "d1" for query "q1" in run "r" (first at line 1)`,
+		`runs.txt:8: column 1 (query id): "q\x01" contains control character U+0001`,
+		`runs.txt:9: is not valid UTF-8 at byte 14`,
+	)
+	mustEqual(t, len(got), 1)
+}
+
+func TestReadQrels(t *testing.T) {
+	var got []Qrel
+	err := ReadQrels(strings.NewReader("q1 0 d1 4\nq1 iter d2 0\n"), Options{}, func(q Qrel) error {
+		got = append(got, q)
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	mustEqual(t, got, []Qrel{{QueryID: "q1", DocID: "d1", Grade: 4, Line: 1}, {QueryID: "q1", DocID: "d2", Grade: 0, Line: 2}})
+
+	src := "q1 0 d1 1\nq1 0 d2 5\nq1 0 d3 -1\nq1 0 d4 1.0\nq1 0 d1 2\nq1 0 d5\n"
+	err = ReadQrels(strings.NewReader(src), Options{File: "qrels", Scale: 5}, nil)
+	wantProblems(t, err,
+		`qrels:2: column 4 (grade): grade 5 is outside the scale 0..4`,
+		`qrels:3: column 4 (grade): grade -1 is outside the scale 0..4`,
+		`qrels:4: column 4 (grade): "1.0" is not an integer`,
+		`qrels:5: duplicate pair ("q1", "d1") (first at line 1)`,
+		`qrels:6: has 3 columns, expected 4: <query-id> <iteration> <doc-id> <grade>`,
+	)
+	// A binary scale (K = 2) rejects grade 2.
+	err = ReadQrels(strings.NewReader("q1 0 d1 2\n"), Options{File: "qrels", Scale: 2}, nil)
+	wantProblems(t, err, `qrels:1: column 4 (grade): grade 2 is outside the scale 0..1`)
+}
