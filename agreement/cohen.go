@@ -57,6 +57,7 @@ type PairKappa struct {
 	CIQuadratic    CI        `json:"ci_quadratic"`
 	Agreement      Value     `json:"agreement"`
 	Table          [][]int64 `json:"table"`
+	Why            string    `json:"why,omitempty"` // why the kappas are undefined, if they are
 }
 
 // CohenFromTable computes Cohen's kappa from a square table of counts (rows
@@ -161,9 +162,12 @@ func cohenFlat(k int, t []int64, w Weighting, level float64, withSE bool) KappaE
 		}
 	}
 	c := kappa - pe*(1-kappa)
-	v := (term - c*c) / ((1 - pe) * (1 - pe) * nf)
-	if v < 0 && v > -1e-12 {
-		v = 0 // rounding at perfect agreement
+	scale := (1 - pe) * (1 - pe) * nf
+	v := (term - c*c) / scale
+	if offDiagonal(k, t) == 0 || (v < 0 && v > -1e-10*(term+c*c)/scale) {
+		// Perfect agreement has variance exactly 0; the formula leaves
+		// rounding noise of either sign there.
+		v = 0
 	}
 	if v < 0 {
 		est.SE = undefined("negative variance estimate")
@@ -172,6 +176,18 @@ func cohenFlat(k int, t []int64, w Weighting, level float64, withSE bool) KappaE
 	}
 	est.CI = normalInterval(est.Kappa, est.SE, level)
 	return est
+}
+
+func offDiagonal(k int, t []int64) int64 {
+	var n int64
+	for i := 0; i < k; i++ {
+		for j := 0; j < k; j++ {
+			if i != j {
+				n += t[i*k+j]
+			}
+		}
+	}
+	return n
 }
 
 // soleGrade returns the only category with positive share, or -1.
@@ -226,6 +242,9 @@ func pairKappaOf(a, b string, k int, tab []int64, level float64) PairKappa {
 	pk.Kappa, pk.SE, pk.CI = u.Kappa, u.SE, u.CI
 	pk.KappaLinear, pk.SELinear, pk.CILinear = l.Kappa, l.SE, l.CI
 	pk.KappaQuadratic, pk.SEQuadratic, pk.CIQuadratic = q.Kappa, q.SE, q.CI
+	if !u.Kappa.OK {
+		pk.Why = u.Kappa.Why
+	}
 	if n > 0 {
 		pk.Agreement = defined(float64(agree) / float64(n))
 	} else {
