@@ -66,6 +66,10 @@ func FromRatings(k int, rs []Rating) (*Data, error) {
 	}
 	d := NewData(k)
 	d.Grow(len(rs))
+	// Presize for the common case of a few ratings per item.
+	d.keyed = keyString
+	d.itemStr = make(map[string]int32, len(rs)/2)
+	d.raterStr = map[string]int32{}
 	for i, r := range rs {
 		if err := d.Add(r.Item, r.Rater, r.Grade); err != nil {
 			return nil, fmt.Errorf("rating %d: %w", i, err)

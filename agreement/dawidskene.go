@@ -58,9 +58,7 @@ func DawidSkene(d *Data, o DSOptions) DSResult {
 		}
 	}
 	prior := make([]float64, k)
-	logPrior := make([]float64, k)
 	conf := make([]float64, nR*k*k) // r, t, g
-	logConf := make([]float64, nR*k*k)
 	row := make([]float64, k)
 
 	for it := 1; it <= o.MaxIter; it++ {
@@ -85,44 +83,52 @@ func DawidSkene(d *Data, o DSOptions) DSResult {
 			}
 		}
 		normalise(prior)
-		for t := range prior {
-			logPrior[t] = math.Log(prior[t])
-		}
 		for r := 0; r < nR*k; r++ {
 			normalise(conf[r*k : r*k+k])
 		}
-		for i, c := range conf {
-			logConf[i] = math.Log(c)
-		}
 
-		// E-step.
-		var ll, moved float64
+		// E-step in probability space; a product of many small
+		// probabilities is rescaled every few ratings (tracked in logs)
+		// so items with many raters cannot underflow.
+		var moved, llScale float64
+		llFrac, llExp := 1.0, 0
 		for i := 0; i < nI; i++ {
-			copy(row, logPrior)
-			for p := ix.start[i]; p < ix.start[i+1]; p++ {
-				base := int(ix.rater[p]) * k * k
-				g := int(ix.grade[p])
+			copy(row, prior)
+			var logScale float64
+			lo, hi := ix.start[i], ix.start[i+1]
+			for p := lo; p < hi; p++ {
+				cr := conf[int(ix.rater[p])*k*k+int(ix.grade[p]):]
 				for t := range row {
-					row[t] += logConf[base+t*k+g]
+					row[t] *= cr[t*k]
+				}
+				if (p-lo)%16 == 15 {
+					logScale += rescale(row)
 				}
 			}
-			mx := math.Inf(-1)
-			for _, x := range row {
-				mx = math.Max(mx, x)
-			}
 			var s float64
-			for t, x := range row {
-				row[t] = math.Exp(x - mx)
-				s += row[t]
+			for _, x := range row {
+				s += x
 			}
-			ll += mx + math.Log(s)
-			for t := range row {
-				v := row[t] / s
-				moved = math.Max(moved, math.Abs(v-post[i*k+t]))
-				post[i*k+t] = v
+			// log-likelihood without a log per item: keep the running
+			// product as mantissa and binary exponent.
+			llScale += logScale
+			frac, exp := math.Frexp(llFrac * s)
+			llFrac, llExp = frac, llExp+exp
+			pi := post[i*k : i*k+k]
+			for t, x := range row {
+				v := x / s
+				dv := v - pi[t]
+				if dv < 0 {
+					dv = -dv
+				}
+				if dv > moved {
+					moved = dv
+				}
+				pi[t] = v
 			}
 		}
-		res.Iterations, res.LogLikelihood = it, ll
+		res.Iterations = it
+		res.LogLikelihood = llScale + math.Log(llFrac) + float64(llExp)*math.Ln2
 		if moved < o.Tol {
 			res.Converged = true
 			break
@@ -151,6 +157,24 @@ func DawidSkene(d *Data, o DSOptions) DSResult {
 		res.Grade[i] = best
 	}
 	return res
+}
+
+// rescale divides row by its largest entry when that has become small and
+// returns the log of the factor taken out.
+func rescale(row []float64) float64 {
+	var mx float64
+	for _, x := range row {
+		if x > mx {
+			mx = x
+		}
+	}
+	if mx == 0 || mx > 1e-100 {
+		return 0
+	}
+	for t := range row {
+		row[t] /= mx
+	}
+	return math.Log(mx)
 }
 
 func normalise(xs []float64) {

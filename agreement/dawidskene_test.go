@@ -194,3 +194,49 @@ func TestDawidSkeneBeatsMajorityWithAdversary(t *testing.T) {
 		}
 	}
 }
+
+// The reported log-likelihood (computed without per-item logs, with
+// rescaling for items with many raters) equals the direct log-space sum
+// log sum_t prior_t prod conf[r][t][g] under the returned parameters.
+func TestDawidSkeneLogLikelihood(t *testing.T) {
+	d := NewData(3)
+	rng := rand.New(rand.NewPCG(3, 3))
+	for i := range 40 {
+		// 800 raters of random grades: each item's product of 800
+		// probabilities near 1/3 (about 1e-380) underflows float64.
+		for r := range 800 {
+			mustAdd(t, d, fmt.Sprint("i", i), fmt.Sprint("r", r), rng.IntN(3))
+		}
+	}
+	res := DawidSkene(d, DSOptions{MaxIter: 3})
+	ix := d.built()
+	var ll float64
+	for i := 0; i < ix.nItems(); i++ {
+		logs := make([]float64, 3)
+		for tr := range logs {
+			logs[tr] = math.Log(res.Priors[tr])
+			for p := ix.start[i]; p < ix.start[i+1]; p++ {
+				logs[tr] += math.Log(res.Confusion[ix.rater[p]][tr][ix.grade[p]])
+			}
+		}
+		mx := math.Max(logs[0], math.Max(logs[1], logs[2]))
+		var s float64
+		for _, x := range logs {
+			s += math.Exp(x - mx)
+		}
+		ll += mx + math.Log(s)
+	}
+	if res.Iterations != 3 || res.Converged {
+		t.Errorf("iterations %d converged %v", res.Iterations, res.Converged)
+	}
+	if math.IsInf(res.LogLikelihood, 0) || math.Abs(res.LogLikelihood-ll) > 1e-9*math.Abs(ll) {
+		t.Errorf("log-likelihood %v, direct %v", res.LogLikelihood, ll)
+	}
+	for i, p := range res.Posterior {
+		for _, x := range p {
+			if math.IsNaN(x) {
+				t.Fatalf("posterior %d has NaN", i)
+			}
+		}
+	}
+}
