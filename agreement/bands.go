@@ -40,12 +40,12 @@ var LandisKoch = BandScale{
 
 // KrippendorffThresholds is Krippendorff's (2004) advice for alpha: rely on
 // data with alpha >= 0.800, draw only tentative conclusions for 0.667 <=
-// alpha < 0.800, and discard data below 0.667.
+// alpha < 0.800, and treat data below 0.667 as insufficient.
 var KrippendorffThresholds = BandScale{
 	Name:   "Krippendorff",
 	Source: "Krippendorff (2004) Content Analysis, 2nd ed., ch. 11",
 	Bands: []Band{
-		{Name: "discard", Min: -1, Max: 0.667, MinInclusive: true},
+		{Name: "insufficient", Min: -1, Max: 0.667, MinInclusive: true},
 		{Name: "tentative", Min: 0.667, Max: 0.800, MinInclusive: true},
 		{Name: "reliable", Min: 0.800, Max: 1, MinInclusive: true, MaxInclusive: true},
 	},

@@ -124,7 +124,7 @@ func TestBands(t *testing.T) {
 			t.Errorf("kappa %v: %q, want %q", c.v, got, c.want)
 		}
 	}
-	for v, want := range map[float64]string{0.5: "discard", 0.667: "tentative", 0.79: "tentative", 0.8: "reliable"} {
+	for v, want := range map[float64]string{0.5: "insufficient", 0.667: "tentative", 0.79: "tentative", 0.8: "reliable"} {
 		if got := KrippendorffThresholds.Classify(defined(v)); got != want {
 			t.Errorf("alpha %v: %q, want %q", v, got, want)
 		}
