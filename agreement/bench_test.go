@@ -1,7 +1,10 @@
 package agreement
 
 import (
+	"encoding/csv"
+	"io"
 	"math/rand/v2"
+	"os"
 	"strconv"
 	"testing"
 )
@@ -128,4 +131,56 @@ func BenchmarkDawidSkene(b *testing.B) {
 	for b.Loop() {
 		_ = DawidSkene(d, DSOptions{})
 	}
+}
+
+// BenchmarkHeadlineCSV is BenchmarkHeadline on judgments read from the CSV
+// named by AGREEMENT_BENCH_CSV (written by bench/agreement_reference.sh),
+// so the figures can be compared with the reference libraries.
+func BenchmarkHeadlineCSV(b *testing.B) {
+	path := os.Getenv("AGREEMENT_BENCH_CSV")
+	if path == "" {
+		b.Skip("AGREEMENT_BENCH_CSV not set")
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer f.Close()
+	r := csv.NewReader(f)
+	r.ReuseRecord = true
+	if _, err := r.Read(); err != nil {
+		b.Fatal(err)
+	}
+	d := NewData(5)
+	for {
+		rec, err := r.Read()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			b.Fatal(err)
+		}
+		g, err := strconv.Atoi(rec[2])
+		if err != nil {
+			b.Fatal(err)
+		}
+		if err := d.Add(rec[0], rec[1], g); err != nil {
+			b.Fatal(err)
+		}
+	}
+	ix := d.built()
+	b.ReportAllocs()
+	b.ResetTimer()
+	var f0 FleissResult
+	var mq Value
+	var np int
+	for b.Loop() {
+		t := tallyOf(ix, true)
+		f0 = fleissOf(t, 0.95)
+		_ = alphaFrom(coincidence(t), t.k, Ordinal)
+		ps := pairKappas(ix, t, 0.95)
+		mq, np = meanQuadraticKappa(ps)
+	}
+	b.StopTimer()
+	b.Logf("agreement: fleiss_kappa %.10f, %d pairs, mean quadratic kappa %.10f (%d judgments)", f0.Kappa.V, np, mq.V, d.Judgments())
 }

@@ -25,9 +25,9 @@ type Rating struct {
 // same item and rater replaces the earlier one (edits supersede).
 //
 // Data interns keys to dense ints once and builds a per-item index lazily on
-// first use; adding after that simply rebuilds it. A Data is not safe for
-// concurrent Add, but once built it may be read by several goroutines only
-// if one call has built the index first (any statistic does).
+// first use; adding after that simply rebuilds it. Statistics only read a
+// built Data: call any of them (or Items) once before sharing a Data
+// between goroutines, and do not Add concurrently.
 type Data struct {
 	k     int
 	keyed int // 0 unset, keyString, keyID
@@ -49,8 +49,9 @@ const (
 	keyID     = 2
 )
 
-// NewData returns an empty Data for a scale of k grades (0..k-1), 2 <= k <=
-// MaxScale. It panics on an invalid k, which is a programming error.
+// NewData returns an empty Data for a scale of k grades (0..k-1). It panics
+// unless 2 <= k <= MaxScale (a programming error, like a negative make
+// length); FromRatings returns an error instead.
 func NewData(k int) *Data {
 	if k < 2 || k > MaxScale {
 		panic(fmt.Sprintf("agreement: scale %d out of range 2..%d", k, MaxScale))
