@@ -91,6 +91,7 @@ func bootstrapOf(ix *index, full *tally, o BootstrapOptions) BootstrapResult {
 		return res
 	}
 
+	bi := newBootIndex(ix, full, pairable)
 	vals := make([]float64, o.Replicates*bootStats)
 	ok := make([]bool, o.Replicates*bootStats)
 	workers := o.Workers
@@ -102,16 +103,21 @@ func bootstrapOf(ix *index, full *tally, o BootstrapOptions) BootstrapResult {
 	for w := range workers {
 		wg.Go(func() {
 			t := full.cloneEmpty()
-			mult := make([]int32, ix.nItems())
+			for m := range t.coinc {
+				if full.coinc[m] != nil {
+					t.coinc[m] = make([]int64, len(full.coinc[m]))
+				}
+			}
+			half := make([]int64, len(t.coinc)*t.k*t.k)
+			mult := make([]int32, len(pairable))
 			n := len(pairable)
 			for r := w; r < o.Replicates; r += workers {
 				rng := rand.New(rand.NewPCG(o.Seed, uint64(r)))
 				clear(mult)
 				for range n {
-					mult[pairable[rng.IntN(n)]]++
+					mult[rng.IntN(n)]++
 				}
-				t.reset()
-				t.add(ix, mult)
+				bi.accumulate(t, half, mult)
 				as := alphaSet(coincidence(t), t.k)
 				for j, m := range Metrics {
 					v := as.Get(m)
@@ -173,4 +179,68 @@ func (t *tally) cloneEmpty() *tally {
 	c.coinc = make([][]int64, len(t.coinc))
 	c.pairTab = make([]int64, len(t.pairTab))
 	return &c
+}
+
+// bootIndex lists, for every pairable item, the cells its rating pairs
+// fall in, so a replicate is a run of additions: cell[j] indexes the
+// unordered coincidence counts of the item's size (m*K*K + ga*K + gb) and
+// pairCell[j] the rater-pair tables (slot*K*K + ga*K + gb).
+type bootIndex struct {
+	size     []int32 // ratings on each pairable item
+	off      []int32 // pairs of item i: off[i]..off[i+1]
+	cell     []int32
+	pairCell []int // int: slot*K*K may pass 2^31 with many pairs and a long scale
+}
+
+func newBootIndex(ix *index, full *tally, pairable []int32) *bootIndex {
+	k := ix.k
+	kk := k * k
+	bi := &bootIndex{size: make([]int32, len(pairable)), off: make([]int32, len(pairable)+1)}
+	for j, i := range pairable {
+		lo, hi := ix.start[i], ix.start[i+1]
+		m := int(hi - lo)
+		bi.size[j] = int32(m)
+		rs, gs := ix.rater[lo:hi], ix.grade[lo:hi]
+		for p := 0; p < m; p++ {
+			for q := p + 1; q < m; q++ {
+				c := int(gs[p])*k + int(gs[q])
+				bi.cell = append(bi.cell, int32(m*kk+c))
+				bi.pairCell = append(bi.pairCell, full.slot(rs[p], rs[q])*kk+c)
+			}
+		}
+		bi.off[j+1] = int32(len(bi.cell))
+	}
+	return bi
+}
+
+// accumulate fills t with item j counted mult[j] times; half is scratch for
+// the unordered coincidence counts.
+func (bi *bootIndex) accumulate(t *tally, half []int64, mult []int32) {
+	t.reset()
+	clear(half)
+	pt := t.pairTab
+	for j, w32 := range mult {
+		if w32 == 0 {
+			continue
+		}
+		w := int64(w32)
+		t.units[bi.size[j]] += w
+		for p := bi.off[j]; p < bi.off[j+1]; p++ {
+			half[bi.cell[p]] += w
+			pt[bi.pairCell[p]] += w
+		}
+	}
+	k := t.k
+	kk := k * k
+	for m, co := range t.coinc {
+		if co == nil {
+			continue
+		}
+		h := half[m*kk : (m+1)*kk]
+		for c := 0; c < k; c++ {
+			for d := 0; d < k; d++ {
+				co[c*k+d] = h[c*k+d] + h[d*k+c]
+			}
+		}
+	}
 }

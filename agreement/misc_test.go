@@ -217,3 +217,52 @@ func TestComputeMatchesParts(t *testing.T) {
 		t.Error("adjacent below exact")
 	}
 }
+
+// A bootstrap replicate that draws every item once must reproduce the
+// full-data tallies exactly.
+func TestBootIndexIdentity(t *testing.T) {
+	for _, d := range []*Data{wellBehaved(), func() *Data {
+		// Mixed item sizes, including a large item.
+		d := NewData(4)
+		rng := rand.New(rand.NewPCG(9, 9))
+		for i := range 60 {
+			n := 1 + rng.IntN(5)
+			if i == 3 {
+				n = 30
+			}
+			for r := range n {
+				mustAdd(t, d, fmt.Sprint("i", i), fmt.Sprint("r", (r*7+i)%31), rng.IntN(4))
+			}
+		}
+		return d
+	}()} {
+		ix := d.built()
+		full := tallyOf(ix, true)
+		var pairable []int32
+		for i := 0; i < ix.nItems(); i++ {
+			if ix.start[i+1]-ix.start[i] >= 2 {
+				pairable = append(pairable, int32(i))
+			}
+		}
+		bi := newBootIndex(ix, full, pairable)
+		rep := full.cloneEmpty()
+		for m := range rep.coinc {
+			if full.coinc[m] != nil {
+				rep.coinc[m] = make([]int64, len(full.coinc[m]))
+			}
+		}
+		mult := make([]int32, len(pairable))
+		for j := range mult {
+			mult[j] = 1
+		}
+		bi.accumulate(rep, make([]int64, len(rep.coinc)*rep.k*rep.k), mult)
+		if !reflect.DeepEqual(rep.pairTab, full.pairTab) {
+			t.Error("pair tables differ")
+		}
+		for m := 2; m < len(full.coinc); m++ {
+			if !reflect.DeepEqual(rep.coinc[m], full.coinc[m]) || rep.units[m] != full.units[m] {
+				t.Errorf("m=%d: coincidences differ", m)
+			}
+		}
+	}
+}
