@@ -120,7 +120,7 @@ func (s refSet) data(t testing.TB) *Data {
 	return d
 }
 
-// TestAgainstReferenceLibraries compares, on 240 random data sets, Cohen's
+// TestAgainstReferenceLibraries compares, on 200 random data sets, Cohen's
 // kappa (all weightings) with sklearn.metrics.cohen_kappa_score, its SE with
 // statsmodels.stats.inter_rater.cohens_kappa(table).std_kappa (also with
 // wt='linear' and 'quadratic'), and Fleiss' kappa with statsmodels
@@ -137,7 +137,7 @@ func (s refSet) data(t testing.TB) *Data {
 // depend on K.
 func TestAgainstReferenceLibraries(t *testing.T) {
 	py := needReference(t)
-	sets := genRefSets(240)
+	sets := genRefSets(200)
 	dir := t.TempDir()
 	in := filepath.Join(dir, "sets.json")
 	b, err := json.Marshal(sets)
