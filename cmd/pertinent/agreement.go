@@ -1,0 +1,160 @@
+package main
+
+import (
+	"context"
+	"encoding/csv"
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"strconv"
+	"strings"
+
+	"github.com/pertinent/pertinent/agreement"
+)
+
+// runAgreement implements "pertinent agreement": it reads judgments and
+// prints the agreement report as text or, with --json, as one JSON object.
+func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("agreement", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	from := fs.String("from", "", "CSV file of judgments with header item,rater,grade")
+	dbPath := fs.String("db", "", "database file to read judgments from (with --project)")
+	project := fs.String("project", "", "project name (with --db)")
+	asJSON := fs.Bool("json", false, "print one JSON object instead of text")
+	scale := fs.Int("scale", 5, "number of grades K; grades are 0..K-1")
+	boot := fs.Int("bootstrap", 1000, "bootstrap replicates for alpha and mean kappa intervals (0 to skip)")
+	seed := fs.Uint64("seed", 1, "bootstrap seed")
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: pertinent agreement --from FILE.csv [--json] [--scale K] [--bootstrap N] [--seed S]")
+		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME [...]")
+		fs.PrintDefaults()
+	}
+	if err := fs.Parse(args); err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return nil
+		}
+		return err
+	}
+	if fs.NArg() > 0 {
+		return fmt.Errorf("agreement: unexpected argument %q", fs.Arg(0))
+	}
+	if *scale < 2 || *scale > agreement.MaxScale {
+		return fmt.Errorf("agreement: --scale %d out of range 2..%d", *scale, agreement.MaxScale)
+	}
+	if *boot < 0 {
+		return fmt.Errorf("agreement: --bootstrap must be >= 0, got %d", *boot)
+	}
+
+	var data *agreement.Data
+	var source string
+	switch {
+	case *dbPath != "" && *from != "":
+		return errors.New("agreement: give either --from or --db, not both")
+	case *dbPath != "":
+		if *project == "" {
+			return errors.New("agreement: --db needs --project NAME")
+		}
+		return errors.New("agreement: --db is not available in this build; export judgments to CSV and use --from")
+	case *from != "":
+		d, err := readRatingsCSV(*from, *scale)
+		if err != nil {
+			return err
+		}
+		data, source = d, *from
+	default:
+		fs.Usage()
+		return errors.New("agreement: --from FILE.csv is required")
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	return writeAgreement(data, source, agreement.Options{Bootstrap: *boot, Seed: *seed}, *asJSON, stdout)
+}
+
+// writeAgreement computes the report for a built data set and prints it;
+// any source of judgments (CSV, database) ends here.
+func writeAgreement(d *agreement.Data, source string, o agreement.Options, asJSON bool, w io.Writer) error {
+	rep := agreement.Compute(d, o)
+	if asJSON {
+		enc := json.NewEncoder(w)
+		enc.SetIndent("", "  ")
+		return enc.Encode(rep)
+	}
+	return writeAgreementText(w, source, rep)
+}
+
+// readRatingsCSV reads judgments from a CSV file whose header names the
+// columns item, rater and grade (any order, other columns ignored). Errors
+// name the file, the line and the reason.
+func readRatingsCSV(path string, k int) (*agreement.Data, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	r := csv.NewReader(f)
+	r.ReuseRecord = true
+	head, err := r.Read()
+	if err == io.EOF {
+		return nil, fmt.Errorf("%s: empty file, want header item,rater,grade", path)
+	}
+	if err != nil {
+		return nil, csvError(path, err)
+	}
+	col := map[string]int{"item": -1, "rater": -1, "grade": -1}
+	for i, h := range head {
+		h = strings.ToLower(strings.TrimSpace(strings.TrimPrefix(h, "\ufeff")))
+		if c, ok := col[h]; ok && c < 0 {
+			col[h] = i
+		}
+	}
+	for _, name := range []string{"item", "rater", "grade"} {
+		if col[name] < 0 {
+			return nil, fmt.Errorf("%s:1: header lacks column %q (want item,rater,grade)", path, name)
+		}
+	}
+	d := agreement.NewData(k)
+	for {
+		rec, err := r.Read()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, csvError(path, err)
+		}
+		line, _ := r.FieldPos(0)
+		item := strings.TrimSpace(rec[col["item"]])
+		rater := strings.TrimSpace(rec[col["rater"]])
+		gs := strings.TrimSpace(rec[col["grade"]])
+		switch {
+		case item == "":
+			return nil, fmt.Errorf("%s:%d: empty item", path, line)
+		case rater == "":
+			return nil, fmt.Errorf("%s:%d: empty rater", path, line)
+		case gs == "":
+			return nil, fmt.Errorf("%s:%d: missing grade", path, line)
+		}
+		g, err := strconv.Atoi(gs)
+		if err != nil {
+			return nil, fmt.Errorf("%s:%d: grade %q is not an integer", path, line, gs)
+		}
+		if g < 0 || g >= k {
+			return nil, fmt.Errorf("%s:%d: grade %d out of range 0..%d (--scale %d)", path, line, g, k-1, k)
+		}
+		if err := d.Add(item, rater, g); err != nil {
+			return nil, fmt.Errorf("%s:%d: %v", path, line, err)
+		}
+	}
+	return d, nil
+}
+
+func csvError(path string, err error) error {
+	var pe *csv.ParseError
+	if errors.As(err, &pe) {
+		return fmt.Errorf("%s:%d: %v", path, pe.Line, pe.Err)
+	}
+	return fmt.Errorf("%s: %v", path, err)
+}
