@@ -13,6 +13,7 @@ import (
 	"strings"
 
 	"github.com/pertinent/pertinent/agreement"
+	"github.com/pertinent/pertinent/store"
 )
 
 // runAgreement implements "pertinent agreement": it reads judgments and
@@ -50,6 +51,7 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 
 	var data *agreement.Data
 	var source string
+	var goldGrades map[string]int
 	switch {
 	case *dbPath != "" && *from != "":
 		return errors.New("agreement: give either --from or --db, not both")
@@ -57,7 +59,20 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 		if *project == "" {
 			return errors.New("agreement: --db needs --project NAME")
 		}
-		return errors.New("agreement: --db is not available in this build; export judgments to CSV and use --from")
+		st, err := store.Open(ctx, *dbPath)
+		if err != nil {
+			return err
+		}
+		defer st.Close()
+		p, err := st.ProjectByName(ctx, *project)
+		if err != nil {
+			return fmt.Errorf("agreement: no project named %q in %s", *project, *dbPath)
+		}
+		d, gold, err := st.AgreementData(ctx, p.ID)
+		if err != nil {
+			return err
+		}
+		data, source, goldGrades = d, *dbPath+" project "+p.Name, gold
 	case *from != "":
 		d, err := readRatingsCSV(*from, *scale)
 		if err != nil {
@@ -71,7 +86,7 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 	if err := ctx.Err(); err != nil {
 		return err
 	}
-	return writeAgreement(data, source, agreement.Options{Bootstrap: *boot, Seed: *seed}, *asJSON, stdout)
+	return writeAgreement(data, source, agreement.Options{Bootstrap: *boot, Seed: *seed, Gold: goldGrades}, *asJSON, stdout)
 }
 
 // writeAgreement computes the report for a built data set and prints it;

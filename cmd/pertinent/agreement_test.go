@@ -10,6 +10,10 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"golang.org/x/crypto/bcrypt"
+
+	"github.com/pertinent/pertinent/store"
 )
 
 func writeFile(t *testing.T, name, body string) string {
@@ -41,7 +45,7 @@ func cohenCSV() string {
 	return b.String()
 }
 
-func run(t *testing.T, args ...string) (string, string, error) {
+func agreementCmd(t *testing.T, args ...string) (string, string, error) {
 	t.Helper()
 	var out, errOut bytes.Buffer
 	err := runAgreement(context.Background(), args, &out, &errOut)
@@ -50,7 +54,7 @@ func run(t *testing.T, args ...string) (string, string, error) {
 
 func TestAgreementJSON(t *testing.T) {
 	p := writeFile(t, "j.csv", cohenCSV())
-	out, _, err := run(t, "--from", p, "--json", "--scale", "2", "--bootstrap", "50", "--seed", "3")
+	out, _, err := agreementCmd(t, "--from", p, "--json", "--scale", "2", "--bootstrap", "50", "--seed", "3")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -97,7 +101,7 @@ func TestAgreementJSON(t *testing.T) {
 
 func TestAgreementJSONNulls(t *testing.T) {
 	p := writeFile(t, "same.csv", "item,rater,grade\na,x,3\na,y,3\nb,x,3\nb,y,3\n")
-	out, _, err := run(t, "--from", p, "--json", "--bootstrap", "0")
+	out, _, err := agreementCmd(t, "--from", p, "--json", "--bootstrap", "0")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -118,7 +122,7 @@ func TestAgreementJSONNulls(t *testing.T) {
 
 func TestAgreementText(t *testing.T) {
 	p := writeFile(t, "t.csv", cohenCSV())
-	out, _, err := run(t, "--from", p, "--scale", "2", "--bootstrap", "20")
+	out, _, err := agreementCmd(t, "--from", p, "--scale", "2", "--bootstrap", "20")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -149,7 +153,7 @@ func TestReadRatingsCSVErrors(t *testing.T) {
 		if err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%s: error %v, want %q", c.name, err, c.want)
 		}
-		if _, _, err := run(t, "--from", p); err == nil || !strings.Contains(err.Error(), c.want) {
+		if _, _, err := agreementCmd(t, "--from", p); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%s via command: %v", c.name, err)
 		}
 	}
@@ -170,19 +174,64 @@ func TestReadRatingsCSVColumnsAnyOrder(t *testing.T) {
 }
 
 func TestAgreementFlags(t *testing.T) {
-	if _, _, err := run(t, "--db", "x.db", "--project", "p"); err == nil || !strings.Contains(err.Error(), "--db is not available in this build") {
-		t.Errorf("--db: %v", err)
+	if _, _, err := agreementCmd(t, "--db", filepath.Join(t.TempDir(), "x.db"), "--project", "p"); err == nil || !strings.Contains(err.Error(), "no project named") {
+		t.Errorf("--db with an unknown project: %v", err)
 	}
-	if _, _, err := run(t); err == nil || !strings.Contains(err.Error(), "--from") {
+	if _, _, err := agreementCmd(t); err == nil || !strings.Contains(err.Error(), "--from") {
 		t.Errorf("no source: %v", err)
 	}
-	if _, _, err := run(t, "--from", "x.csv", "--scale", "1"); err == nil || !strings.Contains(err.Error(), "--scale") {
+	if _, _, err := agreementCmd(t, "--from", "x.csv", "--scale", "1"); err == nil || !strings.Contains(err.Error(), "--scale") {
 		t.Errorf("scale: %v", err)
 	}
-	if _, _, err := run(t, "--nope"); err == nil {
+	if _, _, err := agreementCmd(t, "--nope"); err == nil {
 		t.Error("unknown flag accepted")
 	}
-	if _, errOut, err := run(t, "-h"); err != nil || !strings.Contains(errOut, "--from") {
+	if _, errOut, err := agreementCmd(t, "-h"); err != nil || !strings.Contains(errOut, "--from") {
 		t.Errorf("help: %v %q", err, errOut)
+	}
+}
+
+// The database path and the CSV path must print the same report for the same judgments.
+func TestAgreementFromDatabaseMatchesCSV(t *testing.T) {
+	store.SetPasswordCost(bcrypt.MinCost)
+	ctx := context.Background()
+	db := filepath.Join(t.TempDir(), "demo.db")
+	st, err := store.Open(ctx, db)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := seedDemo(ctx, st); err != nil {
+		t.Fatal(err)
+	}
+	p, _ := st.ProjectByName(ctx, demoProjectName)
+	names, _ := st.UserNames(ctx)
+	var csv strings.Builder
+	csv.WriteString("item,rater,grade\n")
+	err = st.Ratings(ctx, p.ID, func(r store.Rating) error {
+		fmt.Fprintf(&csv, "%d,%s,%d\n", r.PairID, names[r.UserID], r.Grade)
+		return nil
+	})
+	st.Close()
+	if err != nil {
+		t.Fatal(err)
+	}
+	fromCSV, _, err := agreementCmd(t, "--from", writeFile(t, "r.csv", csv.String()), "--json", "--bootstrap", "20")
+	if err != nil {
+		t.Fatal(err)
+	}
+	fromDB, _, err := agreementCmd(t, "--db", db, "--project", demoProjectName, "--json", "--bootstrap", "20")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var a, b map[string]any
+	json.Unmarshal([]byte(fromCSV), &a)
+	json.Unmarshal([]byte(fromDB), &b)
+	if a["judgments"] == nil || a["judgments"].(float64) < 100 {
+		t.Fatalf("the demo history should give hundreds of judgments, got %v", a["judgments"])
+	}
+	for _, k := range []string{"items", "raters", "judgments", "fleiss_kappa", "krippendorff_alpha", "cohen", "percent_agreement"} {
+		if fmt.Sprint(a[k]) != fmt.Sprint(b[k]) {
+			t.Errorf("%s differs: CSV %v, database %v", k, a[k], b[k])
+		}
 	}
 }

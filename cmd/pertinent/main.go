@@ -20,11 +20,12 @@ type command struct {
 }
 
 var commands = map[string]command{
-	"serve":   {runServe, "serve the web application"},
-	"demo":    {runDemo, "create or reuse a demo database with an invented collection, and serve it"},
-	"migrate": {runMigrate, "apply pending database migrations"},
-	"user":    {runUser, "manage accounts: add, list, disable, enable, set-password"},
-	"backup":  {runBackup, "copy a live database to a new file, consistently"},
+	"serve":     {runServe, "serve the web application"},
+	"demo":      {runDemo, "create or reuse a demo database with an invented collection, and serve it"},
+	"migrate":   {runMigrate, "apply pending database migrations"},
+	"user":      {runUser, "manage accounts: add, list, disable, enable, set-password"},
+	"backup":    {runBackup, "copy a live database to a new file, consistently"},
+	"agreement": {runAgreement, "inter-assessor agreement of a CSV of judgments or of a project"},
 }
 
 func main() {
