@@ -201,6 +201,13 @@ func (s *Store) SetScale(ctx context.Context, projectID int64, levels []ScaleLev
 	})
 }
 
+// PairCount counts a project's pairs, gold pairs included.
+func (s *Store) PairCount(ctx context.Context, projectID int64) (int, error) {
+	var n int
+	err := s.r.QueryRowContext(ctx, `SELECT COUNT(*) FROM pairs WHERE project_id = ?`, projectID).Scan(&n)
+	return n, err
+}
+
 // AllProjects lists every project by name, for an admin's filters and lists.
 func (s *Store) AllProjects(ctx context.Context) ([]Project, error) {
 	rows, err := s.r.QueryContext(ctx, `SELECT `+projectColumns+` FROM projects ORDER BY name`)

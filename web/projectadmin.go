@@ -69,11 +69,9 @@ func (s *Server) settingsData(w http.ResponseWriter, r *http.Request) (settingsD
 		return d, err
 	}
 	d.ScaleLocked = d.GradeUses > 0
-	prog, err := s.store.ProjectProgress(r.Context(), p.ID)
-	if err != nil {
+	if d.Pairs, err = s.store.PairCount(r.Context(), p.ID); err != nil {
 		return d, err
 	}
-	d.Pairs = prog.Pairs
 	members, err := s.store.Members(r.Context(), p.ID)
 	if err != nil {
 		return d, err
