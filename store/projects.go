@@ -176,7 +176,13 @@ func (s *Store) ProjectsFor(ctx context.Context, u User) ([]ProjectListing, erro
 
 // Scale returns a project's grade levels in grade order.
 func (s *Store) Scale(ctx context.Context, projectID int64) ([]ScaleLevel, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT grade, label, description FROM scale_levels WHERE project_id = ? ORDER BY grade`, projectID)
+	return scaleOf(ctx, s.r, projectID)
+}
+
+func scaleOf(ctx context.Context, q interface {
+	QueryContext(context.Context, string, ...any) (*sql.Rows, error)
+}, projectID int64) ([]ScaleLevel, error) {
+	rows, err := q.QueryContext(ctx, `SELECT grade, label, description FROM scale_levels WHERE project_id = ? ORDER BY grade`, projectID)
 	if err != nil {
 		return nil, err
 	}
@@ -208,18 +214,35 @@ func (s *Store) CurrentGuidelines(ctx context.Context, projectID int64) (Guideli
 	return g, err
 }
 
-// SetMember gives a user a role in a project, replacing any role they had there.
+// SetMember gives a user a role in a project, replacing any role they had there. A project
+// lead must hold a lead or admin account; anyone who can sign in may assess.
 func (s *Store) SetMember(ctx context.Context, projectID, userID int64, role Role, by int64) error {
 	if role != RoleLead && role != RoleAssessor {
 		return errorf(CodeInvalid, "a project member is a lead or an assessor")
 	}
 	return s.write(ctx, func(tx *sql.Tx) error {
-		_, err := tx.ExecContext(ctx, `INSERT INTO project_members(project_id, user_id, role, added_at) VALUES (?, ?, ?, ?)
+		p, err := lockedProject(ctx, tx, projectID)
+		if err != nil {
+			return err
+		}
+		u, err := scanUser(tx.QueryRowContext(ctx, `SELECT `+userColumns+` FROM users WHERE id = ?`, userID))
+		if err != nil {
+			return err
+		}
+		switch {
+		case !u.Role.Valid():
+			return errorf(CodeInvalid, u.Username+" is not a person and cannot join a project")
+		case u.Disabled:
+			return errorf(CodeConflict, "the account of "+u.Username+" is disabled: enable it first")
+		case role == RoleLead && u.Role == RoleAssessor:
+			return errorf(CodeInvalid, u.Username+" has an assessor account; only lead and admin accounts can lead a project")
+		}
+		_, err = tx.ExecContext(ctx, `INSERT INTO project_members(project_id, user_id, role, added_at) VALUES (?, ?, ?, ?)
 			ON CONFLICT (project_id, user_id) DO UPDATE SET role = excluded.role`, projectID, userID, string(role), now())
 		if err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, projectID, "member.set", userRef(userID), string(role))
+		return audit(ctx, tx, by, p.ID, "member.set", userRef(userID), u.Username+" as "+string(role))
 	})
 }
 

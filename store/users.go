@@ -72,27 +72,45 @@ func validUsername(name string) error {
 	return nil
 }
 
-// CreateUser adds an account with a password.
+// CreateUser adds an account with a password. It is the command line's way in, so the audit
+// row has no actor.
 func (s *Store) CreateUser(ctx context.Context, username, displayName string, role Role, password string) (User, error) {
+	hash, err := hashPassword(password)
+	if err != nil {
+		return User{}, err
+	}
+	var u User
+	err = s.write(ctx, func(tx *sql.Tx) error {
+		u, err = insertUser(ctx, tx, username, displayName, role, hash, 0)
+		return err
+	})
+	return u, err
+}
+
+// insertUser adds an account inside tx and records who added it. An empty hash makes an
+// account that cannot sign in until a password is set.
+func insertUser(ctx context.Context, tx *sql.Tx, username, displayName string, role Role, hash string, by int64) (User, error) {
+	username = strings.TrimSpace(username)
+	displayName = strings.TrimSpace(displayName)
 	if err := validUsername(username); err != nil {
 		return User{}, err
 	}
 	if !role.Valid() {
 		return User{}, errorf(CodeInvalid, "role must be admin, lead or assessor")
 	}
-	hash, err := hashPassword(password)
+	if len(displayName) > 120 {
+		return User{}, errorf(CodeInvalid, "a display name may have at most 120 characters")
+	}
+	var id int64
+	err := tx.QueryRowContext(ctx, `INSERT INTO users(username, display_name, role, password_hash, created_at)
+		VALUES (?, ?, ?, ?, ?) RETURNING id`, username, displayName, string(role), hash, now()).Scan(&id)
+	if isUniqueViolation(err) {
+		return User{}, errorf(CodeConflict, "the username "+username+" is taken")
+	}
 	if err != nil {
 		return User{}, err
 	}
-	var id int64
-	err = s.write(ctx, func(tx *sql.Tx) error {
-		return tx.QueryRowContext(ctx, `INSERT INTO users(username, display_name, role, password_hash, created_at)
-			VALUES (?, ?, ?, ?, ?) RETURNING id`, username, displayName, string(role), hash, now()).Scan(&id)
-	})
-	if err != nil {
-		if isUniqueViolation(err) {
-			return User{}, errorf(CodeConflict, "the username "+username+" is taken")
-		}
+	if err := audit(ctx, tx, by, 0, "user.create", userRef(id), username+" as "+string(role)); err != nil {
 		return User{}, err
 	}
 	return User{ID: id, Username: username, DisplayName: displayName, Role: role}, nil
@@ -167,32 +185,53 @@ func (s *Store) Authenticate(ctx context.Context, username, password string) (Us
 	return u, nil
 }
 
-// SetPassword replaces an account's password and ends its sessions.
+// SetPassword replaces an account's password and ends its sessions. It is the command
+// line's way, so the audit row has no actor.
 func (s *Store) SetPassword(ctx context.Context, userID int64, password string) error {
 	hash, err := hashPassword(password)
 	if err != nil {
 		return err
 	}
 	return s.write(ctx, func(tx *sql.Tx) error {
-		res, err := tx.ExecContext(ctx, `UPDATE users SET password_hash = ? WHERE id = ? AND role != 'source'`, hash, userID)
-		if err != nil {
+		if err := setPasswordHash(ctx, tx, userID, hash); err != nil {
 			return err
 		}
-		if n, _ := res.RowsAffected(); n == 0 {
-			return ErrNotFound
-		}
-		_, err = tx.ExecContext(ctx, `DELETE FROM sessions WHERE user_id = ?`, userID)
-		return err
+		return audit(ctx, tx, 0, 0, "password.set", userRef(userID), "")
 	})
 }
 
-// SetDisabled disables or re-enables an account. Disabling ends its sessions at once;
-// its judgments stay.
+// setPasswordHash stores a new hash and ends every session of the account, so whoever held
+// the old password is signed out.
+func setPasswordHash(ctx context.Context, tx *sql.Tx, userID int64, hash string) error {
+	res, err := tx.ExecContext(ctx, `UPDATE users SET password_hash = ? WHERE id = ? AND role != 'source'`, hash, userID)
+	if err != nil {
+		return err
+	}
+	if n, _ := res.RowsAffected(); n == 0 {
+		return ErrNotFound
+	}
+	_, err = tx.ExecContext(ctx, `DELETE FROM sessions WHERE user_id = ?`, userID)
+	return err
+}
+
+// SetDisabled disables or re-enables an account from the command line (no actor in the
+// audit row). Disabling ends its sessions at once; its judgments stay.
 func (s *Store) SetDisabled(ctx context.Context, userID int64, disabled bool) error {
+	return s.SetDisabledBy(ctx, userID, disabled, 0)
+}
+
+// SetDisabledBy disables or re-enables an account on behalf of an admin. Disabling ends its
+// sessions and voids its open password links at once; its judgments and memberships stay.
+func (s *Store) SetDisabledBy(ctx context.Context, userID int64, disabled bool, by int64) error {
+	if disabled && userID == by {
+		return errorf(CodeConflict, "you cannot disable your own account: ask another admin")
+	}
 	return s.write(ctx, func(tx *sql.Tx) error {
 		var res sql.Result
 		var err error
+		action := "user.enable"
 		if disabled {
+			action = "user.disable"
 			res, err = tx.ExecContext(ctx, `UPDATE users SET disabled_at = COALESCE(disabled_at, ?) WHERE id = ? AND role != 'source'`, now(), userID)
 		} else {
 			res, err = tx.ExecContext(ctx, `UPDATE users SET disabled_at = NULL WHERE id = ? AND role != 'source'`, userID)
@@ -204,9 +243,41 @@ func (s *Store) SetDisabled(ctx context.Context, userID int64, disabled bool) er
 			return ErrNotFound
 		}
 		if disabled {
-			_, err = tx.ExecContext(ctx, `DELETE FROM sessions WHERE user_id = ?`, userID)
+			if _, err = tx.ExecContext(ctx, `DELETE FROM sessions WHERE user_id = ?`, userID); err != nil {
+				return err
+			}
+			if _, err = tx.ExecContext(ctx, `DELETE FROM password_links WHERE user_id = ? AND used_at IS NULL`, userID); err != nil {
+				return err
+			}
 		}
+		return audit(ctx, tx, by, 0, action, userRef(userID), "")
+	})
+}
+
+// ChangePassword lets a signed-in user replace their own password; the current one is
+// required, so an unattended session cannot lock its owner out. Every session of the
+// account ends; the caller signs the user in afresh.
+func (s *Store) ChangePassword(ctx context.Context, userID int64, current, next string) error {
+	var old string
+	err := s.r.QueryRowContext(ctx, `SELECT password_hash FROM users WHERE id = ?`, userID).Scan(&old)
+	if errors.Is(err, sql.ErrNoRows) {
+		return ErrNotFound
+	}
+	if err != nil {
 		return err
+	}
+	if old == "" || bcrypt.CompareHashAndPassword([]byte(old), []byte(current)) != nil {
+		return errorf(CodeDenied, "the current password is not right")
+	}
+	hash, err := hashPassword(next)
+	if err != nil {
+		return err
+	}
+	return s.write(ctx, func(tx *sql.Tx) error {
+		if err := setPasswordHash(ctx, tx, userID, hash); err != nil {
+			return err
+		}
+		return audit(ctx, tx, userID, 0, "password.change", userRef(userID), "")
 	})
 }
 

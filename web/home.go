@@ -22,12 +22,3 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 	}
 	s.render(w, r, http.StatusOK, "overview", "", s.newView(r, "Overview: "+currentProject(r).Name, p))
 }
-
-func (s *Server) usersPage(w http.ResponseWriter, r *http.Request) {
-	users, err := s.store.Users(r.Context())
-	if err != nil {
-		s.storeError(w, r, err)
-		return
-	}
-	s.render(w, r, http.StatusOK, "users", "", s.newView(r, "People", users))
-}

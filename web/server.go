@@ -19,7 +19,10 @@ import (
 	"github.com/pertinent/pertinent/store"
 )
 
+// A directory pattern leaves out files whose names start with "_", so the partials are named.
+//
 //go:embed templates static
+//go:embed templates/_*.html
 var assets embed.FS
 
 // Options configure a Server.
@@ -83,20 +86,24 @@ func (s *Server) routes() chi.Router {
 	r.Get("/healthz", s.healthz)
 	r.Get("/signin", s.signinPage)
 	r.Post("/signin", s.signin)
+	r.Group(s.passwordLinkRoutes)
 
 	r.Group(func(r chi.Router) {
 		r.Use(s.requireUser)
 		r.Post("/signout", s.signout)
 		r.Get("/", s.home)
+		r.Group(s.accountRoutes)
 		r.Route("/projects/{project}", func(r chi.Router) {
 			r.Use(s.loadProject)
 			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/judge", s.judgePage)
 			r.With(s.requireProjectRole(store.RoleAssessor)).Post("/judge", s.judgeSubmit)
 			r.With(s.requireProjectRole(store.RoleLead)).Get("/overview", s.overview)
+			r.Group(s.projectAdminRoutes)
 		})
 		r.Route("/admin", func(r chi.Router) {
 			r.Use(s.requireAdmin)
 			r.Get("/users", s.usersPage)
+			r.Group(s.adminRoutes)
 		})
 	})
 	r.NotFound(func(w http.ResponseWriter, r *http.Request) {

@@ -1,0 +1,171 @@
+package web
+
+import (
+	"encoding/csv"
+	"net/http"
+	"net/url"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/pertinent/pertinent/store"
+)
+
+const auditPageSize = 50
+
+// auditQuery is the audit trail's filter as the form and links carry it.
+type auditQuery struct {
+	Actor, Project, Action, From, To string
+	Page                             int
+}
+
+// parseAuditQuery reads the filter; a date that does not parse is reported, not ignored,
+// so a mistyped filter never shows an unfiltered trail as if it were filtered.
+func parseAuditQuery(v url.Values) (auditQuery, store.AuditFilter, string) {
+	q := auditQuery{Actor: v.Get("actor"), Project: v.Get("project"), Action: v.Get("action"), From: v.Get("from"), To: v.Get("to")}
+	q.Page, _ = strconv.Atoi(v.Get("page"))
+	q.Page = max(q.Page, 1)
+	var f store.AuditFilter
+	var bad []string
+	if q.Actor != "" {
+		id, err := strconv.ParseInt(q.Actor, 10, 64)
+		if err != nil {
+			bad = append(bad, "actor")
+		}
+		f.ActorID = id
+	}
+	if q.Project != "" {
+		id, err := strconv.ParseInt(q.Project, 10, 64)
+		if err != nil {
+			bad = append(bad, "project")
+		}
+		f.ProjectID = id
+	}
+	f.Action = q.Action
+	if q.From != "" {
+		t, err := time.Parse(time.DateOnly, q.From)
+		if err != nil {
+			bad = append(bad, "from date")
+		}
+		f.From = t
+	}
+	if q.To != "" {
+		t, err := time.Parse(time.DateOnly, q.To)
+		if err != nil {
+			bad = append(bad, "to date")
+		}
+		f.Until = t.AddDate(0, 0, 1) // the "to" day is included
+	}
+	msg := ""
+	if len(bad) > 0 {
+		msg = "These filters could not be read: " + strings.Join(bad, ", ") + " (dates are YYYY-MM-DD)."
+	}
+	return q, f, msg
+}
+
+// encode gives the query string of the filter at another page.
+func (q auditQuery) encode(page int) string {
+	v := url.Values{}
+	for k, x := range map[string]string{"actor": q.Actor, "project": q.Project, "action": q.Action, "from": q.From, "to": q.To} {
+		if x != "" {
+			v.Set(k, x)
+		}
+	}
+	if page > 1 {
+		v.Set("page", strconv.Itoa(page))
+	}
+	return v.Encode()
+}
+
+type auditData struct {
+	Query    auditQuery
+	Events   []store.AuditEvent
+	Users    []store.User
+	Projects []store.Project
+	Actions  []string
+	Newer    string // query strings of the neighbouring pages, empty when none
+	Older    string
+	CSV      string
+	Error    string
+	Page     int
+}
+
+func (s *Server) auditPage(w http.ResponseWriter, r *http.Request) {
+	q, f, msg := parseAuditQuery(r.URL.Query())
+	d := auditData{Query: q, Error: msg, Page: q.Page, CSV: "/admin/audit.csv"}
+	if enc := q.encode(1); enc != "" {
+		d.CSV += "?" + enc
+	}
+	var err error
+	if d.Users, err = s.store.Users(r.Context()); err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	if d.Projects, err = s.store.AllProjects(r.Context()); err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	if d.Actions, err = s.store.AuditActions(r.Context()); err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	status := http.StatusOK
+	if msg != "" {
+		status = http.StatusBadRequest
+	} else {
+		f.Limit, f.Offset = auditPageSize, (q.Page-1)*auditPageSize
+		var more bool
+		if d.Events, more, err = s.store.AuditEvents(r.Context(), f); err != nil {
+			s.storeError(w, r, err)
+			return
+		}
+		if q.Page > 1 {
+			d.Newer = "?" + q.encode(q.Page-1)
+		}
+		if more {
+			d.Older = "?" + q.encode(q.Page+1)
+		}
+	}
+	s.render(w, r, status, "audit", "", s.newView(r, "Audit trail", d))
+}
+
+// auditCSV streams every event matching the filter as CSV, newest first.
+func (s *Server) auditCSV(w http.ResponseWriter, r *http.Request) {
+	_, f, msg := parseAuditQuery(r.URL.Query())
+	if msg != "" {
+		s.fail(w, r, http.StatusBadRequest, msg)
+		return
+	}
+	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
+	w.Header().Set("Content-Disposition", `attachment; filename="audit-trail.csv"`)
+	w.Header().Set("Cache-Control", "no-store")
+	cw := csv.NewWriter(w)
+	cw.Write([]string{"id", "at", "actor", "project", "action", "target", "target_name", "detail"})
+	n := 0
+	err := s.store.EachAuditEvent(r.Context(), f, func(e store.AuditEvent) error {
+		actor := e.Actor
+		if e.ActorID == 0 {
+			actor = "(command line)"
+		}
+		cw.Write([]string{strconv.FormatInt(e.ID, 10), e.At.UTC().Format("2006-01-02T15:04:05.000Z07:00"), cell(actor), cell(e.Project),
+			e.Action, cell(e.Target), cell(e.TargetName), cell(e.Detail)})
+		if n++; n%200 == 0 {
+			cw.Flush()
+		}
+		return cw.Error()
+	})
+	cw.Flush()
+	if err != nil {
+		// The header is sent; all that is left is to log and cut the download short.
+		s.log.ErrorContext(r.Context(), "audit export failed", "err", err)
+	}
+}
+
+// cell defuses text that a spreadsheet would run as a formula (common practice for CSV
+// meant to be opened in one): a leading =, +, -, @ or control character gets a quote.
+func cell(s string) string {
+	if s != "" && strings.ContainsRune("=+-@\t\r", rune(s[0])) {
+		return "'" + s
+	}
+	return s
+}

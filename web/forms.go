@@ -1,0 +1,83 @@
+package web
+
+import (
+	"errors"
+	"net/http"
+	"strconv"
+	"strings"
+
+	"github.com/go-chi/chi/v5"
+
+	"github.com/pertinent/pertinent/store"
+)
+
+// userError splits a store error a form can show beside its fields (the request was wrong,
+// or the state refuses it) from one that should end in the error page.
+func userError(err error) (status int, msg string, ok bool) {
+	var e *store.Error
+	if !errors.As(err, &e) {
+		return 0, "", false
+	}
+	switch e.Code {
+	case store.CodeInvalid:
+		return http.StatusBadRequest, e.Message, true
+	case store.CodeConflict:
+		return http.StatusConflict, e.Message, true
+	case store.CodeDenied:
+		return http.StatusForbidden, e.Message, true
+	}
+	return 0, "", false
+}
+
+// flash keeps a notice for the next page shown to this browser, in the encrypted session
+// cookie, so a POST can redirect and the page after it can still say what happened.
+func (s *Server) flash(w http.ResponseWriter, r *http.Request, key, msg string) {
+	sess, _ := s.cookies.Get(r, sessionName)
+	sess.AddFlash(msg, key)
+	sess.Options.Secure = s.opts.SecureCookies || r.TLS != nil
+	if err := sess.Save(r, w); err != nil {
+		s.log.ErrorContext(r.Context(), "saving a notice failed", "err", err)
+	}
+}
+
+// flashes takes the notices kept under key; each is shown once.
+func (s *Server) flashes(w http.ResponseWriter, r *http.Request, key string) []string {
+	sess, _ := s.cookies.Get(r, sessionName)
+	raw := sess.Flashes(key)
+	if len(raw) == 0 {
+		return nil
+	}
+	sess.Options.Secure = s.opts.SecureCookies || r.TLS != nil
+	sess.Save(r, w)
+	out := make([]string, 0, len(raw))
+	for _, f := range raw {
+		if m, ok := f.(string); ok {
+			out = append(out, m)
+		}
+	}
+	return out
+}
+
+// idParam reads a numeric id from the route.
+func idParam(r *http.Request, name string) (int64, bool) {
+	id, err := strconv.ParseInt(chi.URLParam(r, name), 10, 64)
+	return id, err == nil && id > 0
+}
+
+// formInt reads a whole number from a form field; def when it is empty.
+func formInt(r *http.Request, name string, def int) (int, error) {
+	v := strings.TrimSpace(r.PostFormValue(name))
+	if v == "" {
+		return def, nil
+	}
+	return strconv.Atoi(v)
+}
+
+// siteURL is the address of this site as the browser reached it, for links handed to others.
+func (s *Server) siteURL(r *http.Request) string {
+	scheme := "http"
+	if r.TLS != nil || s.opts.SecureCookies {
+		scheme = "https"
+	}
+	return scheme + "://" + r.Host
+}
