@@ -124,12 +124,12 @@ type Progress struct {
 // ProjectProgress counts the project's pairs by how far their judging has come.
 func (s *Store) ProjectProgress(ctx context.Context, projectID int64) (Progress, error) {
 	var p Progress
-	err := s.r.QueryRowContext(ctx, `SELECT COUNT(*),
+	err := s.r.QueryRowContext(ctx, `SELECT COUNT(x.id),
 			COALESCE(SUM(x.judged >= pr.judgments_per_pair), 0),
 			COALESCE(SUM(x.judged > 0 AND x.judged < pr.judgments_per_pair), 0),
 			COALESCE(SUM(x.judged = 0), 0),
 			COALESCE(SUM(x.judged), 0),
-			COUNT(*) * pr.judgments_per_pair
+			COUNT(x.id) * pr.judgments_per_pair
 		FROM projects pr LEFT JOIN pairs x ON x.project_id = pr.id AND x.gold_grade IS NULL
 		WHERE pr.id = ?`, projectID).Scan(&p.Pairs, &p.Done, &p.InProgress, &p.Untouched, &p.Judgments, &p.Needed)
 	return p, err

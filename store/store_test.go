@@ -211,3 +211,19 @@ func TestExpiredLeaseReturnsPairToPool(t *testing.T) {
 		t.Fatalf("after one lease expired the third assessor got %v, %v; want pair %d", v.PairID, err, pairs[0])
 	}
 }
+
+func TestProgressOfEmptyProject(t *testing.T) {
+	s := openTest(t)
+	ctx := context.Background()
+	p, err := s.CreateProject(ctx, NewProject{Name: "empty"}, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	prog, err := s.ProjectProgress(ctx, p.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if prog != (Progress{}) {
+		t.Errorf("a project without pairs reports %+v, want all zero", prog)
+	}
+}
