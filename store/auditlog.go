@@ -2,7 +2,6 @@ package store
 
 import (
 	"context"
-	"strings"
 	"time"
 )
 
@@ -31,44 +30,27 @@ type AuditFilter struct {
 	Offset    int
 }
 
-func (f AuditFilter) where() (string, []any) {
-	var conds []string
-	var args []any
-	if f.ActorID != 0 {
-		conds, args = append(conds, "e.actor_id = ?"), append(args, f.ActorID)
-	}
-	if f.ProjectID != 0 {
-		conds, args = append(conds, "e.project_id = ?"), append(args, f.ProjectID)
-	}
-	if f.Action != "" {
-		conds, args = append(conds, "e.action = ?"), append(args, f.Action)
-	}
-	if !f.From.IsZero() {
-		conds, args = append(conds, "e.at >= ?"), append(args, timeText(f.From))
-	}
-	if !f.Until.IsZero() {
-		conds, args = append(conds, "e.at < ?"), append(args, timeText(f.Until))
-	}
-	if len(conds) == 0 {
-		return "", nil
-	}
-	return " WHERE " + strings.Join(conds, " AND "), args
-}
-
 // EachAuditEvent calls fn for every event matching f, newest first, reading row by row so a
 // long trail can be streamed without being held in memory.
 func (s *Store) EachAuditEvent(ctx context.Context, f AuditFilter, fn func(AuditEvent) error) error {
-	where, args := f.where()
-	q := `SELECT e.id, e.at, COALESCE(e.actor_id, 0), COALESCE(a.username, ''), COALESCE(e.project_id, 0), COALESCE(p.name, ''),
+	from, until, limit := "", "", -1 // SQLite reads LIMIT -1 as no limit
+	if !f.From.IsZero() {
+		from = timeText(f.From)
+	}
+	if !f.Until.IsZero() {
+		until = timeText(f.Until)
+	}
+	if f.Limit > 0 {
+		limit = f.Limit
+	}
+	// Zero-valued filters switch themselves off inside one constant statement.
+	rows, err := s.r.QueryContext(ctx, `SELECT e.id, e.at, COALESCE(e.actor_id, 0), COALESCE(a.username, ''), COALESCE(e.project_id, 0), COALESCE(p.name, ''),
 			e.action, e.target, e.detail,
 			CASE WHEN e.target LIKE 'user:%' THEN COALESCE((SELECT username FROM users WHERE id = CAST(substr(e.target, 6) AS INTEGER)), '') ELSE '' END
-		FROM audit_events e LEFT JOIN users a ON a.id = e.actor_id LEFT JOIN projects p ON p.id = e.project_id` +
-		where + ` ORDER BY e.id DESC`
-	if f.Limit > 0 {
-		q += ` LIMIT ? OFFSET ?`
-		args = append(args, f.Limit, f.Offset)
-	}
-	rows, err := s.r.QueryContext(ctx, q, args...)
+		FROM audit_events e LEFT JOIN users a ON a.id = e.actor_id LEFT JOIN projects p ON p.id = e.project_id
+		WHERE (?1 = 0 OR e.actor_id = ?1) AND (?2 = 0 OR e.project_id = ?2) AND (?3 = '' OR e.action = ?3)
+			AND (?4 = '' OR e.at >= ?4) AND (?5 = '' OR e.at < ?5)
+		ORDER BY e.id DESC LIMIT ?6 OFFSET ?7`, f.ActorID, f.ProjectID, f.Action, from, until, limit, f.Offset)
 	if err != nil {
 		return err
 	}
