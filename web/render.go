@@ -2,6 +2,7 @@ package web
 
 import (
 	"bytes"
+	"context"
 	"errors"
 	"fmt"
 	"html/template"
@@ -110,6 +111,12 @@ func (s *Server) fail(w http.ResponseWriter, r *http.Request, status int, msg st
 // storeError turns a store error into a status; the code, not the message, decides.
 func (s *Server) storeError(w http.ResponseWriter, r *http.Request, err error) {
 	var e *store.Error
+	if errors.Is(err, context.Canceled) {
+		// The client went away; nobody is left to answer.
+		s.log.DebugContext(r.Context(), "request abandoned", "err", err)
+		w.WriteHeader(499)
+		return
+	}
 	if !errors.As(err, &e) {
 		s.log.ErrorContext(r.Context(), "store failed", "err", err)
 		s.fail(w, r, http.StatusInternalServerError, "Something went wrong on our side; please try again.")

@@ -25,6 +25,7 @@ var commands = map[string]command{
 	"migrate":   {runMigrate, "apply pending database migrations"},
 	"user":      {runUser, "manage accounts: add, list, disable, enable, set-password"},
 	"backup":    {runBackup, "copy a live database to a new file, consistently"},
+	"loadtest":  {runLoadtest, "drive virtual assessors against a server on loopback and report throughput"},
 	"agreement": {runAgreement, "inter-assessor agreement of a CSV of judgments or of a project"},
 }
 
