@@ -8,7 +8,7 @@ func intp(i int) *int { return &i }
 
 func TestConsensusHelpers(t *testing.T) {
 	cases := []struct {
-		gs                   []int
+		gs                  []int
 		median, major, mean int
 	}{
 		{[]int{2}, 2, 2, 2},
