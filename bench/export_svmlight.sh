@@ -1,0 +1,60 @@
+#!/usr/bin/env bash
+# Benchmark of the SVMlight writer: writes ROWS x FEATURES synthetic rows
+# through export.SVMlightWriter, then times sklearn's dump_svmlight_file on
+# the same values and `cat file > /dev/null` of the file written, and prints
+# the ratios.
+#   ROWS (default 1000000), FEATURES (136), SK_ROWS (rows given to sklearn;
+#   default ROWS; a smaller number is scaled up linearly), OUT_DIR.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+ROWS=${ROWS:-1000000}
+FEATURES=${FEATURES:-136}
+SK_ROWS=${SK_ROWS:-$ROWS}
+OUT_DIR=${OUT_DIR:-$(mktemp -d /tmp/svmlight-bench.XXXXXX)}
+PY=/usr/bin/python3
+mkdir -p "$OUT_DIR"
+trap 'rm -f "$OUT_DIR"/go.svmlight "$OUT_DIR"/sk.svmlight' EXIT
+
+echo "== building"
+go build -o "$OUT_DIR/exportbench" ./bench/exportbench
+
+echo "== Go export.SVMlightWriter: $ROWS rows x $FEATURES features (value generation inside the timed loop)"
+/usr/bin/time -f '%M' -o "$OUT_DIR/go.rss" \
+	"$OUT_DIR/exportbench" -rows "$ROWS" -features "$FEATURES" -out "$OUT_DIR/go.svmlight" >"$OUT_DIR/go.json"
+cat "$OUT_DIR/go.json"
+echo "peak RSS (time -f %M): $(cat "$OUT_DIR/go.rss") KiB"
+
+echo "== cat of the file written (best of 3, page cache warm)"
+best=0
+for _ in 1 2 3; do
+	s=$(date +%s%N)
+	cat "$OUT_DIR/go.svmlight" >/dev/null
+	e=$(date +%s%N)
+	t=$((e - s))
+	if [ "$best" = 0 ] || [ "$t" -lt "$best" ]; then best=$t; fi
+done
+best=$(printf '%d.%09d' $((best / 1000000000)) $((best % 1000000000)))
+echo "cat seconds: $best"
+
+echo "== sklearn.datasets.dump_svmlight_file: $SK_ROWS rows (array generation timed apart, excluded)"
+"$PY" bench/svmlight_reference.py "$SK_ROWS" "$FEATURES" "$OUT_DIR/sk.svmlight" >"$OUT_DIR/sk.json"
+cat "$OUT_DIR/sk.json"
+
+"$PY" - "$OUT_DIR/go.json" "$OUT_DIR/sk.json" "$best" "$(cat "$OUT_DIR/go.rss")" <<'PYEOF'
+import json, sys
+go = json.load(open(sys.argv[1]))
+sk = json.load(open(sys.argv[2]))
+cat_s = float(sys.argv[3])
+rss_mb = int(sys.argv[4]) / 1024
+sk_rows_per_s = sk["rows"] / sk["dump_seconds"]
+sk_scaled = go["rows"] / sk_rows_per_s
+print("== summary")
+print(f"go:      {go['seconds']:.2f} s  {go['rows_per_sec']:,.0f} rows/s  {go['mb_per_sec']:.0f} MB/s  {go['bytes']/1e9:.2f} GB  peak RSS {rss_mb:.1f} MB")
+print(f"sklearn: {sk['dump_seconds']:.2f} s for {sk['rows']} rows ({sk_rows_per_s:,.0f} rows/s; {sk_scaled:.1f} s for {go['rows']} rows)"
+      f"; array generation {sk['generate_seconds']:.2f} s excluded")
+print(f"cat:     {cat_s:.3f} s")
+print(f"throughput vs sklearn: {go['rows_per_sec']/sk_rows_per_s:.2f}x  (goal >= 5x)")
+print(f"time vs cat:           {go['seconds']/cat_s:.2f}x  (goal <= 3x)")
+print(f"peak RSS:              {rss_mb:.1f} MB  (goal <= 150 MB)")
+PYEOF
