@@ -1,7 +1,8 @@
 // Package rankeval scores rankings against qrels (NDCG with exponential or
 // linear gain, ERR, precision, average precision, judged share) and
 // compares two runs query by query with a paired randomisation test and a
-// paired t-test.
+// paired t-test. It stands apart from the fixed packages because ranking
+// metrics fit none of them.
 //
 // Conventions, all stated here once:
 //   - A run's documents are ranked by score, highest first; equal scores
