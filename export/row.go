@@ -72,6 +72,15 @@ type RowWriter interface {
 	Close() error
 }
 
+var (
+	_ RowWriter = (*SVMlightWriter)(nil)
+	_ RowWriter = (*QrelsWriter)(nil)
+	_ RowWriter = (*GroupWriter)(nil)
+	_ RowWriter = (*CSVWriter)(nil)
+	_ RowWriter = (*JSONLWriter)(nil)
+	_ RowWriter = (*Tally)(nil)
+)
+
 // WriteAll pushes every row of rows to each writer in turn, then closes the
 // writers. It stops at the first error (from the iterator or a writer) and
 // returns the number of rows written to all writers.

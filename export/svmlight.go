@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"runtime"
 	"strconv"
 	"strings"
@@ -279,14 +280,56 @@ func formatRow[D string | []byte](b []byte, pfx [][]byte, bits, grade, qid int, 
 	return append(b, '\n')
 }
 
-// appendValue formats v like strconv.AppendFloat(b, v, 'g', -1, bits).
+// appendValue formats v exactly like strconv.AppendFloat(b, v, 'g', -1,
+// bits), taking cheaper paths for the values most feature files hold.
+//
 // Whole numbers below 1e6 print the same digits under 'g' (no exponent
-// before 1e6), so they take the much cheaper integer path.
+// before 1e6), so they go through AppendInt.
+//
+// For float64 in [1e-4, 1e6) with at most nine decimals: 'g' prints such
+// numbers without exponent, and a grid of step 1e-9 is coarser than the
+// spacing of doubles below 2^20 (at most 2^-33), so at most one nine-decimal
+// number parses to v. If k/1e9 == v (k below 2^53 and 1e9 exact, so this
+// division is the correctly rounded parse of "k e-9"), k with trailing
+// zeros trimmed is that number, and no shorter form can exist, since a
+// shorter form would be a nine-decimal number too. Anything else (or a k
+// off by one from rounding v*1e9) falls back to strconv.
 func appendValue(b []byte, v float64, bits int) []byte {
 	if v > -1e6 && v < 1e6 {
 		if i := int64(v); float64(i) == v {
 			return strconv.AppendInt(b, i, 10)
 		}
+		if bits == 64 {
+			a := math.Abs(v)
+			if a >= 1e-4 {
+				k := math.Round(a * 1e9)
+				if k/1e9 == a {
+					return appendNanos(b, v < 0, uint64(k))
+				}
+			}
+		}
 	}
 	return strconv.AppendFloat(b, v, 'g', -1, bits)
+}
+
+// appendNanos writes k * 10^-9 as a plain decimal with no trailing zeros;
+// k is not a multiple of 1e9 (whole numbers took another path).
+func appendNanos(b []byte, neg bool, k uint64) []byte {
+	if neg {
+		b = append(b, '-')
+	}
+	b = strconv.AppendUint(b, k/1e9, 10)
+	frac := k % 1e9
+	d := 9
+	for frac%10 == 0 {
+		frac /= 10
+		d--
+	}
+	b = append(b, '.')
+	var tmp [9]byte
+	for i := d - 1; i >= 0; i-- {
+		tmp[i] = byte('0' + frac%10)
+		frac /= 10
+	}
+	return append(b, tmp[:d]...)
 }

@@ -145,8 +145,20 @@ func TestSVMlightParallelMatchesInline(t *testing.T) {
 func TestAppendValueMatchesStrconv(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 4))
 	vals := []float64{1, -1, 999999, -999999, 1e6, -1e6, 1e6 - 0.5, 123456, 1e21, 5e-324, math.MaxFloat64, 0.1, 1e-5, 1e-4}
+	for d := range 12 {
+		p := math.Pow(10, float64(d))
+		vals = append(vals, 1/p, -1/p, 1e-4+1/p, 999999+1/p, 1e6-1/p, 0.5/p, 9.5/p)
+	}
 	for range 200000 {
-		vals = append(vals, float64(rng.Int64N(4e6)-2e6), rng.NormFloat64()*math.Pow(10, float64(rng.IntN(60)-30)))
+		u := rng.Float64()
+		vals = append(vals,
+			float64(rng.Int64N(4e6)-2e6),
+			rng.NormFloat64()*math.Pow(10, float64(rng.IntN(60)-30)),
+			math.Floor(u*1e6)/1e6,                                        // six-decimal ratios
+			-math.Round(u*1e9)/1e9*math.Pow(10, float64(rng.IntN(11)-4)), // short decimals of many sizes
+			float64(rng.Int64N(1e15))/1e9,                                // nine decimals near 2^53
+			math.Nextafter(math.Floor(u*1e4)/1e4, 2),                     // one ulp off a short decimal
+			u*30)
 	}
 	for _, v := range vals {
 		for _, bits := range []int{32, 64} {

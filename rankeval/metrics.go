@@ -37,15 +37,15 @@ func (g Gain) of(grade int) float64 {
 
 // Options fix the cut-off and the grade conventions of an evaluation.
 type Options struct {
-	K         int  // cut-off rank; 0 means the whole ranking
-	Gain      Gain // gain of NDCG
-	Threshold int  // grade >= Threshold is relevant for P@k and AP; at least 1
-	MaxGrade  int  // top of the scale (ERR's 2^max); every grade must be <= it
+	K         int  `json:"k"`         // cut-off rank; 0 means the whole ranking
+	Gain      Gain `json:"gain"`      // gain of NDCG
+	Threshold int  `json:"threshold"` // grade >= Threshold is relevant for P@k and AP; at least 1
+	MaxGrade  int  `json:"max_grade"` // top of the scale (ERR's 2^max); every grade must be <= it
 	// AverageTies makes NDCG average the gains of documents with equal
 	// scores over their positions (McSherry & Najork 2008, as sklearn's
 	// ndcg_score does by default) instead of breaking ties by id. Other
 	// measures always break ties by id.
-	AverageTies bool
+	AverageTies bool `json:"average_ties"`
 }
 
 func (o Options) validate() error {
