@@ -11,10 +11,15 @@ cd "$(dirname "$0")/.."
 ROWS=${ROWS:-1000000}
 FEATURES=${FEATURES:-136}
 SK_ROWS=${SK_ROWS:-$ROWS}
-OUT_DIR=${OUT_DIR:-$(mktemp -d /tmp/svmlight-bench.XXXXXX)}
 PY=/usr/bin/python3
-mkdir -p "$OUT_DIR"
-trap 'rm -f "$OUT_DIR"/go.svmlight "$OUT_DIR"/sk.svmlight' EXIT
+if [ -n "${OUT_DIR:-}" ]; then
+	mkdir -p "$OUT_DIR"
+	trap 'rm -f "$OUT_DIR"/go.svmlight "$OUT_DIR"/sk.svmlight' EXIT
+else
+	OUT_DIR=$(mktemp -d /tmp/svmlight-bench.XXXXXX)
+	trap 'rm -rf "$OUT_DIR"' EXIT
+fi
+echo "machine load before: $(cut -d' ' -f1-3 /proc/loadavg) (other work on the machine skews every number)"
 
 echo "== building"
 go build -o "$OUT_DIR/exportbench" ./bench/exportbench
