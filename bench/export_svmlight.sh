@@ -29,6 +29,8 @@ echo "== Go export.SVMlightWriter: $ROWS rows x $FEATURES features (value genera
 	"$OUT_DIR/exportbench" -rows "$ROWS" -features "$FEATURES" -out "$OUT_DIR/go.svmlight" >"$OUT_DIR/go.json"
 cat "$OUT_DIR/go.json"
 echo "peak RSS (time -f %M): $(cat "$OUT_DIR/go.rss") KiB"
+echo "== the same rows made but not written (cost of the data source, included above)"
+"$OUT_DIR/exportbench" -rows "$ROWS" -features "$FEATURES" -generate-only -out "$OUT_DIR/gen.empty" | tee "$OUT_DIR/gen.json"
 
 echo "== cat of the file written (best of 3, page cache warm)"
 best=0
@@ -46,9 +48,10 @@ echo "== sklearn.datasets.dump_svmlight_file: $SK_ROWS rows (array generation ti
 "$PY" bench/svmlight_reference.py "$SK_ROWS" "$FEATURES" "$OUT_DIR/sk.svmlight" >"$OUT_DIR/sk.json"
 cat "$OUT_DIR/sk.json"
 
-"$PY" - "$OUT_DIR/go.json" "$OUT_DIR/sk.json" "$best" "$(cat "$OUT_DIR/go.rss")" <<'PYEOF'
+"$PY" - "$OUT_DIR/go.json" "$OUT_DIR/sk.json" "$best" "$(cat "$OUT_DIR/go.rss")" "$OUT_DIR/gen.json" <<'PYEOF'
 import json, sys
 go = json.load(open(sys.argv[1]))
+gen = json.load(open(sys.argv[5]))
 sk = json.load(open(sys.argv[2]))
 cat_s = float(sys.argv[3])
 rss_mb = int(sys.argv[4]) / 1024
@@ -58,6 +61,7 @@ print("== summary")
 print(f"go:      {go['seconds']:.2f} s  {go['rows_per_sec']:,.0f} rows/s  {go['mb_per_sec']:.0f} MB/s  {go['bytes']/1e9:.2f} GB  peak RSS {rss_mb:.1f} MB")
 print(f"sklearn: {sk['dump_seconds']:.2f} s for {sk['rows']} rows ({sk_rows_per_s:,.0f} rows/s; {sk_scaled:.1f} s for {go['rows']} rows)"
       f"; array generation {sk['generate_seconds']:.2f} s excluded")
+print(f"data source alone: {gen['seconds']:.2f} s (inside the go time)")
 print(f"cat:     {cat_s:.3f} s")
 print(f"throughput vs sklearn: {go['rows_per_sec']/sk_rows_per_s:.2f}x  (goal >= 5x)")
 print(f"time vs cat:           {go['seconds']/cat_s:.2f}x  (goal <= 3x)")
