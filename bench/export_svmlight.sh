@@ -25,10 +25,11 @@ echo "== building"
 go build -o "$OUT_DIR/exportbench" ./bench/exportbench
 
 echo "== Go export.SVMlightWriter: $ROWS rows x $FEATURES features (value generation inside the timed loop)"
-/usr/bin/time -f '%M' -o "$OUT_DIR/go.rss" \
+/usr/bin/time -f '%M %U %S' -o "$OUT_DIR/go.rss" \
 	"$OUT_DIR/exportbench" -rows "$ROWS" -features "$FEATURES" -out "$OUT_DIR/go.svmlight" >"$OUT_DIR/go.json"
 cat "$OUT_DIR/go.json"
-echo "peak RSS (time -f %M): $(cat "$OUT_DIR/go.rss") KiB"
+read -r go_rss go_user go_sys <"$OUT_DIR/go.rss"
+echo "peak RSS (time -f %M): $go_rss KiB; CPU: user $go_user s, sys $go_sys s"
 echo "== the same rows made but not written (cost of the data source, included above)"
 "$OUT_DIR/exportbench" -rows "$ROWS" -features "$FEATURES" -generate-only -out "$OUT_DIR/gen.empty" | tee "$OUT_DIR/gen.json"
 
@@ -48,7 +49,7 @@ echo "== sklearn.datasets.dump_svmlight_file: $SK_ROWS rows (array generation ti
 "$PY" bench/svmlight_reference.py "$SK_ROWS" "$FEATURES" "$OUT_DIR/sk.svmlight" >"$OUT_DIR/sk.json"
 cat "$OUT_DIR/sk.json"
 
-"$PY" - "$OUT_DIR/go.json" "$OUT_DIR/sk.json" "$best" "$(cat "$OUT_DIR/go.rss")" "$OUT_DIR/gen.json" <<'PYEOF'
+"$PY" - "$OUT_DIR/go.json" "$OUT_DIR/sk.json" "$best" "$go_rss" "$OUT_DIR/gen.json" "$go_user" "$go_sys" <<'PYEOF'
 import json, sys
 go = json.load(open(sys.argv[1]))
 gen = json.load(open(sys.argv[5]))
@@ -66,4 +67,8 @@ print(f"cat:     {cat_s:.3f} s")
 print(f"throughput vs sklearn: {go['rows_per_sec']/sk_rows_per_s:.2f}x  (goal >= 5x)")
 print(f"time vs cat:           {go['seconds']/cat_s:.2f}x  (goal <= 3x)")
 print(f"peak RSS:              {rss_mb:.1f} MB  (goal <= 150 MB)")
+go_cpu = float(sys.argv[6]) + float(sys.argv[7])
+sk_cpu_per_row = sk["dump_cpu_seconds"] / sk["rows"]
+print(f"CPU seconds (less sensitive to other load): go {go_cpu:.2f} s, sklearn {sk_cpu_per_row*go['rows']:.2f} s for {go['rows']} rows"
+      f" -> {sk_cpu_per_row*go['rows']/go_cpu:.2f}x less CPU")
 PYEOF

@@ -49,13 +49,16 @@ def main():
     t0 = time.perf_counter()
     X, y, qid = generate(rows, nf)
     t1 = time.perf_counter()
+    c1 = time.process_time()
     dump_svmlight_file(X, y, out, zero_based=False, query_id=qid)
     t2 = time.perf_counter()
+    c2 = time.process_time()
     print(json.dumps({
         "rows": rows,
         "features": nf,
         "generate_seconds": t1 - t0,
         "dump_seconds": t2 - t1,
+        "dump_cpu_seconds": c2 - c1,
         "peak_rss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
     }))
 
