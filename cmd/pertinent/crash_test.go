@@ -1,0 +1,250 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math/rand/v2"
+	"net"
+	"net/http"
+	"net/http/cookiejar"
+	"net/url"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strconv"
+	"sync"
+	"sync/atomic"
+	"syscall"
+	"testing"
+	"time"
+
+	"github.com/pertinent/pertinent/store"
+)
+
+// buildBinary compiles the real pertinent binary once for the process tests.
+func buildBinary(t *testing.T) string {
+	t.Helper()
+	bin := filepath.Join(t.TempDir(), "pertinent")
+	cmd := exec.Command("go", "build", "-o", bin, ".")
+	cmd.Env = append(os.Environ(), "CGO_ENABLED=0")
+	if out, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("go build: %v\n%s", err, out)
+	}
+	return bin
+}
+
+func freeAddr(t *testing.T) string {
+	t.Helper()
+	ln, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ln.Close()
+	return ln.Addr().String()
+}
+
+func startBinary(t *testing.T, bin, db, addr string) *exec.Cmd {
+	t.Helper()
+	cmd := exec.Command(bin, "serve", "--db", db, "--addr", addr, "--log-level", "error")
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	for i := 0; i < 200; i++ {
+		if res, err := http.Get("http://" + addr + "/healthz"); err == nil {
+			res.Body.Close()
+			if res.StatusCode == http.StatusOK {
+				return cmd
+			}
+		}
+		time.Sleep(25 * time.Millisecond)
+	}
+	cmd.Process.Kill()
+	t.Fatal("server did not come up")
+	return nil
+}
+
+type ack struct {
+	pair string
+	user string
+}
+
+// TestKilledServerLosesNoAcknowledgedJudgment runs the real binary under 50 virtual
+// assessors, kills it with SIGKILL at random moments ten times, restarts it on the same
+// file, and checks that every judgment whose submission was answered with success is in the
+// database exactly once, and that the file passes SQLite's integrity check.
+func TestKilledServerLosesNoAcknowledgedJudgment(t *testing.T) {
+	if testing.Short() {
+		t.Skip("process test; runs without -short")
+	}
+	bin := buildBinary(t)
+	db := filepath.Join(t.TempDir(), "crash.db")
+	ctx := context.Background()
+	project, users, err := setupLoadProject(ctx, db, 6000, 50, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	addr := freeAddr(t)
+	base := "http://" + addr
+	judgeURL := fmt.Sprintf("%s/projects/%d/judge", base, project)
+
+	var mu sync.Mutex
+	var acks []ack
+	var stop atomic.Bool
+	var wg sync.WaitGroup
+	server := startBinary(t, bin, db, addr)
+	// Sessions are kept in the database, so one sign-in outlives every restart.
+	clients := make([]*http.Client, len(users))
+	for i, u := range users {
+		jar, _ := cookiejar.New(nil)
+		clients[i] = &http.Client{Jar: jar, Timeout: 5 * time.Second,
+			CheckRedirect: func(*http.Request, []*http.Request) error { return http.ErrUseLastResponse }}
+		if err := loadSignIn(ctx, clients[i], base, u); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for i, u := range users {
+		c := clients[i]
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			rng := rand.New(rand.NewPCG(uint64(i), 9))
+			for !stop.Load() {
+				pair, err := loadFetch(ctx, c, http.MethodGet, judgeURL, nil)
+				for err == nil && pair != "" && !stop.Load() {
+					form := url.Values{"pair": {pair}, "grade": {strconv.Itoa(rng.IntN(5))}}
+					var next string
+					next, err = loadFetch(ctx, c, http.MethodPost, judgeURL, form)
+					if err == nil { // a complete 200 answer: the judgment is acknowledged
+						mu.Lock()
+						acks = append(acks, ack{pair, u.name})
+						mu.Unlock()
+					}
+					pair = next
+				}
+				if err == nil && pair == "" {
+					return // nothing left to judge
+				}
+				time.Sleep(10 * time.Millisecond)
+			}
+		}()
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	for kill := 0; kill < 10; kill++ {
+		time.Sleep(time.Duration(400+rng.IntN(1200)) * time.Millisecond)
+		if err := server.Process.Signal(syscall.SIGKILL); err != nil {
+			t.Fatal(err)
+		}
+		server.Wait()
+		server = startBinary(t, bin, db, addr)
+	}
+	time.Sleep(300 * time.Millisecond)
+	stop.Store(true)
+	wg.Wait()
+	server.Process.Signal(syscall.SIGTERM)
+	server.Wait()
+
+	if len(acks) < 200 {
+		t.Fatalf("only %d judgments acknowledged: too few to prove anything", len(acks))
+	}
+	st, err := store.Open(ctx, db)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	if err := store.IntegrityCheck(ctx, db); err != nil {
+		t.Fatalf("integrity check after ten kills: %v", err)
+	}
+	ids := map[string]int64{}
+	for _, u := range users {
+		uu, err := st.UserByUsername(ctx, u.name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ids[u.name] = uu.ID
+	}
+	lost := 0
+	for _, a := range acks {
+		pid, _ := strconv.ParseInt(a.pair, 10, 64)
+		h, err := st.JudgmentHistory(ctx, pid, ids[a.user])
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(h) != 1 || !h[0].Current {
+			lost++
+			if lost <= 5 {
+				t.Errorf("acknowledged judgment of pair %s by %s: %d rows in the database, want exactly 1", a.pair, a.user, len(h))
+			}
+		}
+	}
+	t.Logf("%d acknowledged judgments across 10 kills; %d missing or duplicated", len(acks), lost)
+}
+
+// TestTerminateFinishesRequestsInFlight sends a burst of judging requests, asks the server to
+// stop with SIGTERM in the middle of it, and checks that every request that was accepted got
+// a complete answer, that the process exits cleanly, and that the database was closed with
+// its write-ahead log folded back in.
+func TestTerminateFinishesRequestsInFlight(t *testing.T) {
+	if testing.Short() {
+		t.Skip("process test; runs without -short")
+	}
+	bin := buildBinary(t)
+	db := filepath.Join(t.TempDir(), "term.db")
+	ctx := context.Background()
+	project, users, err := setupLoadProject(ctx, db, 2000, 20, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	addr := freeAddr(t)
+	base := "http://" + addr
+	server := startBinary(t, bin, db, addr)
+	judgeURL := fmt.Sprintf("%s/projects/%d/judge", base, project)
+	var answered, refused, broken atomic.Int64
+	var wg sync.WaitGroup
+	for _, u := range users {
+		jar, _ := cookiejar.New(nil)
+		c := &http.Client{Jar: jar, CheckRedirect: func(*http.Request, []*http.Request) error { return http.ErrUseLastResponse }}
+		if err := loadSignIn(ctx, c, base, u); err != nil {
+			t.Fatal(err)
+		}
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			pair, err := loadFetch(ctx, c, http.MethodGet, judgeURL, nil)
+			for i := 0; err == nil && pair != "" && i < 200; i++ {
+				pair, err = loadFetch(ctx, c, http.MethodPost, judgeURL, url.Values{"pair": {pair}, "grade": {"2"}})
+				if err == nil {
+					answered.Add(1)
+				}
+			}
+			var op *net.OpError
+			switch {
+			case err == nil:
+			case errors.As(err, &op) && op.Op == "dial":
+				refused.Add(1) // arrived after the listener closed: never accepted
+			default:
+				broken.Add(1)
+				t.Logf("request cut off: %v", err)
+			}
+		}()
+	}
+	time.Sleep(400 * time.Millisecond)
+	if err := server.Process.Signal(syscall.SIGTERM); err != nil {
+		t.Fatal(err)
+	}
+	err = server.Wait()
+	wg.Wait()
+	if err != nil {
+		t.Errorf("server exit after SIGTERM: %v, want a clean exit", err)
+	}
+	if broken.Load() != 0 {
+		t.Errorf("%d accepted requests were cut off by the shutdown", broken.Load())
+	}
+	if answered.Load() == 0 {
+		t.Fatal("no request was answered before the shutdown; the test proves nothing")
+	}
+	if fi, err := os.Stat(db + "-wal"); err == nil && fi.Size() > 0 {
+		t.Errorf("write-ahead log left with %d bytes: the database was not closed cleanly", fi.Size())
+	}
+	t.Logf("answered %d, refused after close %d", answered.Load(), refused.Load())
+}
