@@ -21,6 +21,8 @@ type Store struct {
 	w    *sql.DB // exactly one connection: every write goes through it
 	r    *sql.DB // read-only pool
 	path string
+
+	desks deskCache // the lead's figures per project, keyed by project_versions
 }
 
 // Open opens (creating if needed) the database file at path and applies pending migrations.
