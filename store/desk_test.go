@@ -64,7 +64,6 @@ func TestAdjudicationHistoryIsAppendOnly(t *testing.T) {
 	}
 }
 
-
 func queueHas(t *testing.T, s *Store, projectID, pairID int64) (QueueItem, bool) {
 	t.Helper()
 	d, err := s.Desk(context.Background(), projectID)
