@@ -32,7 +32,7 @@ func seedLead(t *testing.T, a *testApp) {
 		"bea":  {0, 3, 3, 2, 1, -1},
 		"dee":  {1, 2, 3, 4, -2, 0},
 	}
-	base := time.Now().Add(-72 * time.Hour)
+	base := time.Now().Add(-200 * time.Hour) // every judgment in the past
 	err = a.store.Load(ctx, a.project.ID, func(l *store.Loader) error {
 		// The first pair becomes a gold pair with grade 0.
 		qid, err := l.Query(store.Query{ExternalID: "k1", Text: "quiet electric kettle"})

@@ -66,4 +66,12 @@
     }
   });
 
+  // One Enter can reach the form twice (the key handler and the browser's own implicit
+  // submission): send it once.
+  document.addEventListener("submit", function (ev) {
+    const form = ev.target;
+    if (form.id !== "adjudication") return;
+    if (form.dataset.sent) { ev.preventDefault(); return; }
+    form.dataset.sent = "1";
+  });
 })();
