@@ -160,9 +160,10 @@ type dsSnapshot struct {
 // in the background, when ready is false until it finishes. ok is false when the pair has
 // no grades.
 func (d *Desk) DawidSkene(pairID int64) (grade int, posterior []float64, ok, ready bool) {
-	snap, ready := d.ds.get(func() dsSnapshot {
-		r := agreement.DawidSkene(d.Data, agreement.DSOptions{})
-		s := dsSnapshot{grade: make(map[string]int, len(r.Items)), posterior: make(map[string][]float64, len(r.Items))}
+	snap, ready := d.ds.get(func() (s dsSnapshot) {
+		var r agreement.DSResult
+		d.slow(func() { r = agreement.DawidSkene(d.Data, agreement.DSOptions{}) })
+		s = dsSnapshot{grade: make(map[string]int, len(r.Items)), posterior: make(map[string][]float64, len(r.Items))}
 		for i, it := range r.Items {
 			s.grade[it] = r.Grade[i]
 			s.posterior[it] = r.Posterior[i]

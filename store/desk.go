@@ -32,7 +32,8 @@ type Desk struct {
 	// Report is agreement.Compute over Data without the bootstrap; Bootstrap gives that part.
 	Report agreement.Report
 
-	Judgments      int // current judgments, grades and "cannot judge"
+	Progress       Progress // pairs by state, as ProjectProgress counts them
+	Judgments      int      // current judgments, grades and "cannot judge"
 	Graded         int
 	CannotJudge    int
 	Flagged        int // pairs with a current "disturbing" judgment
@@ -47,6 +48,7 @@ type Desk struct {
 	pairs    []int     // start of each pair's rows in rows; len = pairs with judgments + 1
 	users    map[int64]string
 	goldPair map[int64]int
+	cache    *deskCache
 
 	boot    lazy[agreement.BootstrapResult]
 	ds      lazy[dsSnapshot]
@@ -119,6 +121,20 @@ type deskCache struct {
 	mu       sync.Mutex
 	desks    map[int64]*Desk
 	building map[int64]*sync.Mutex
+	bg       chan struct{} // one background computation at a time
+}
+
+// background runs fn for a desk of a large project, one at a time per store, and skips it
+// when a newer desk has replaced this one meanwhile (no one will ask for its figures).
+func (c *deskCache) background(d *Desk, fn func()) {
+	c.bg <- struct{}{}
+	defer func() { <-c.bg }()
+	c.mu.Lock()
+	current := c.desks[d.ProjectID] == d
+	c.mu.Unlock()
+	if current {
+		fn()
+	}
 }
 
 // ProjectVersion is the project's change counter: it moves on every judgment written,
@@ -148,6 +164,7 @@ func (s *Store) Desk(ctx context.Context, projectID int64) (*Desk, error) {
 	if c.building == nil {
 		c.building = map[int64]*sync.Mutex{}
 		c.desks = map[int64]*Desk{}
+		c.bg = make(chan struct{}, 1)
 	}
 	b := c.building[projectID]
 	if b == nil {
@@ -172,20 +189,22 @@ func (s *Store) Desk(ctx context.Context, projectID int64) (*Desk, error) {
 	if err != nil {
 		return nil, err
 	}
+	d.cache = c
 	c.mu.Lock()
 	c.desks[projectID] = d
 	c.mu.Unlock()
 	return d, nil
 }
 
-// deskQuery reads one range of a project's current judgments with few columns, since the
-// cost of a million rows is mostly per column read: pair, user and grade (or cannot-judge
-// kind) in one integer, judgment id and time spent in another.
+// deskQuery reads a project's current judgments with few columns, since the cost of a
+// million rows is mostly per row and column read: pair, user and grade (or cannot-judge
+// kind) in one integer, judgment id and time spent in another. (Two readers on halves of
+// the pair ids were slower than one on two cores.)
 const deskQuery = `SELECT (j.pair_id << 28) | (j.user_id << 4) |
 		COALESCE(j.grade, CASE j.cannot_judge WHEN 'disturbing' THEN 14 ELSE 15 END),
 		(j.id << 24) | MIN(j.time_spent_ms, 16777215), j.created_at
 	FROM judgments j JOIN pairs p ON p.id = j.pair_id
-	WHERE p.project_id = ?1 AND j.current = 1 AND j.pair_id BETWEEN ?2 AND ?3`
+	WHERE p.project_id = ?1 AND j.current = 1`
 
 func (s *Store) buildDesk(ctx context.Context, projectID, version int64) (*Desk, error) {
 	start := time.Now()
@@ -205,30 +224,14 @@ func (s *Store) buildDesk(ctx context.Context, projectID, version int64) (*Desk,
 			return nil, errors.New("store: user ids beyond 2^24 do not fit the desk's packing")
 		}
 	}
-	var lo, hi sql.NullInt64
-	if err := s.r.QueryRowContext(ctx, `SELECT MIN(id), MAX(id) FROM pairs WHERE project_id = ?`, projectID).Scan(&lo, &hi); err != nil {
+	rows, err := s.deskRows(ctx, projectID)
+	if err != nil {
 		return nil, err
 	}
-	if hi.Int64 >= 1<<35 {
-		return nil, errors.New("store: pair ids beyond 2^35 do not fit the desk's packing")
-	}
-	// Two ranges read at once: reading rows is the cost, and readers run in parallel.
-	mid := lo.Int64 + (hi.Int64-lo.Int64)/2
-	parts := [2][]deskRow{}
-	errs := [2]error{}
-	var wg sync.WaitGroup
-	for i, r := range [2][2]int64{{lo.Int64, mid}, {mid + 1, hi.Int64}} {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			parts[i], errs[i] = s.deskRange(ctx, projectID, r[0], r[1])
-		}()
-	}
-	wg.Wait()
-	if err := errors.Join(errs[0], errs[1]); err != nil {
+	progress, err := s.ProjectProgress(ctx, projectID)
+	if err != nil {
 		return nil, err
 	}
-	rows := append(parts[0], parts[1]...)
 	slices.SortFunc(rows, func(a, b deskRow) int {
 		if a.pair != b.pair {
 			return int(a.pair - b.pair)
@@ -256,7 +259,7 @@ func (s *Store) buildDesk(ctx context.Context, projectID, version int64) (*Desk,
 		return nil, err
 	}
 
-	d := &Desk{ProjectID: projectID, Version: version, Scale: len(levels), rows: rows, users: users, Gold: gold, goldPair: goldPair}
+	d := &Desk{ProjectID: projectID, Version: version, Scale: len(levels), rows: rows, users: users, Gold: gold, goldPair: goldPair, Progress: progress}
 	d.Data = agreement.NewData(len(levels))
 	d.Data.Grow(len(rows))
 	var item string
@@ -283,8 +286,15 @@ func (s *Store) buildDesk(ctx context.Context, projectID, version int64) (*Desk,
 	return d, nil
 }
 
-func (s *Store) deskRange(ctx context.Context, projectID, lo, hi int64) ([]deskRow, error) {
-	rows, err := s.r.QueryContext(ctx, deskQuery, projectID, lo, hi)
+func (s *Store) deskRows(ctx context.Context, projectID int64) ([]deskRow, error) {
+	var maxPair sql.NullInt64
+	if err := s.r.QueryRowContext(ctx, `SELECT MAX(id) FROM pairs WHERE project_id = ?`, projectID).Scan(&maxPair); err != nil {
+		return nil, err
+	}
+	if maxPair.Int64 >= 1<<35 {
+		return nil, errors.New("store: pair ids beyond 2^35 do not fit the desk's packing")
+	}
+	rows, err := s.r.QueryContext(ctx, deskQuery, projectID)
 	if err != nil {
 		return nil, err
 	}
@@ -379,9 +389,21 @@ func (l *lazy[T]) get(fn func() T, wait bool) (T, bool) {
 // BootstrapCount replicates and BootstrapSeed. For small data it waits; for large data it
 // starts them in the background and ok is false until they are done.
 func (d *Desk) Bootstrap() (agreement.BootstrapResult, bool) {
-	return d.boot.get(func() agreement.BootstrapResult {
-		return agreement.Bootstrap(d.Data, agreement.BootstrapOptions{Replicates: d.BootstrapCount, Seed: BootstrapSeed})
-	}, d.Report.Judgments <= syncLimit)
+	return d.boot.get(func() (r agreement.BootstrapResult) {
+		d.slow(func() {
+			r = agreement.Bootstrap(d.Data, agreement.BootstrapOptions{Replicates: d.BootstrapCount, Seed: BootstrapSeed})
+		})
+		return r
+	}, !d.Background())
+}
+
+// slow runs a slow computation: at once for small data, else through the background queue.
+func (d *Desk) slow(fn func()) {
+	if !d.Background() || d.cache == nil {
+		fn()
+		return
+	}
+	d.cache.background(d, fn)
 }
 
 // Background tells whether slow figures of this desk are computed in the background.

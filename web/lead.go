@@ -130,15 +130,11 @@ type overviewData struct {
 }
 
 func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
-	p, err := s.store.ProjectProgress(r.Context(), currentProject(r).ID)
-	if err != nil {
-		s.storeError(w, r, err)
-		return
-	}
 	d, ok := s.desk(w, r)
 	if !ok {
 		return
 	}
+	p := d.Progress
 	rep := d.Report
 	boot, ready := d.Bootstrap()
 	pct := int(rep.Level*100 + 0.5)
