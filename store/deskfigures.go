@@ -155,7 +155,7 @@ func (d *Desk) assessorFigures() {
 // consensus over the last DriftWindow against the share over all earlier ones.
 func drift(comp []compared) (recent, earlier, diff agreement.Value, earlierN int) {
 	if len(comp) <= DriftWindow {
-		why := "needs more than " + strconv.Itoa(DriftWindow) + " judgments compared with consensus"
+		why := "needs more than " + strconv.Itoa(DriftWindow) + " grades compared with consensus"
 		return agreement.Value{Why: why}, agreement.Value{Why: why}, agreement.Value{Why: why}, 0
 	}
 	slices.SortFunc(comp, func(a, b compared) int {
