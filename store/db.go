@@ -23,6 +23,8 @@ type Store struct {
 	r    *sql.DB // read-only pool
 	path string
 	skew atomic.Int64 // nanoseconds added to the clock that expiring links are judged by
+
+	desks deskCache // the lead's figures per project, keyed by project_versions
 }
 
 // Open opens (creating if needed) the database file at path and applies pending migrations.

@@ -45,24 +45,35 @@ func Migrations() ([]Migration, error) {
 	return out, nil
 }
 
-// Migrate applies every migration newer than the recorded version, each in its own
-// transaction together with its row in schema_migrations, so a failure leaves the file at
-// the last good version.
+// Migrate applies every migration not yet recorded in schema_migrations, in number order,
+// each in its own transaction together with its record, so a failure leaves the file at the
+// last good step. Going by the record rather than by the highest number means a migration
+// merged out of order is still applied.
 func (s *Store) Migrate(ctx context.Context) error {
 	if _, err := s.w.ExecContext(ctx, `CREATE TABLE IF NOT EXISTS schema_migrations (
 		version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL)`); err != nil {
 		return fmt.Errorf("store: migrate: %w", err)
 	}
-	current, err := s.SchemaVersion(ctx)
+	applied := map[int]bool{}
+	rows, err := s.w.QueryContext(ctx, `SELECT version FROM schema_migrations`)
 	if err != nil {
-		return err
+		return fmt.Errorf("store: migrate: %w", err)
 	}
+	for rows.Next() {
+		var v int
+		if err := rows.Scan(&v); err != nil {
+			rows.Close()
+			return err
+		}
+		applied[v] = true
+	}
+	rows.Close()
 	all, err := Migrations()
 	if err != nil {
 		return err
 	}
 	for _, m := range all {
-		if m.Version <= current {
+		if applied[m.Version] {
 			continue
 		}
 		err := s.write(ctx, func(tx *sql.Tx) error {

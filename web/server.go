@@ -99,6 +99,13 @@ func (s *Server) routes() chi.Router {
 			r.With(s.requireProjectRole(store.RoleAssessor)).Post("/judge", s.judgeSubmit)
 			r.With(s.requireProjectRole(store.RoleLead)).Get("/overview", s.overview)
 			r.Group(s.projectAdminRoutes)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/assessors", s.assessorsPage)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/assessors/{user}", s.assessorPage)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/agreement", s.agreementPage)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/queue", s.queuePage)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/pairs/{pair}/adjudicate", s.adjudicatePage)
+			r.With(s.requireProjectRole(store.RoleLead)).Post("/pairs/{pair}/adjudicate", s.adjudicateSubmit)
+			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/feedback", s.feedbackPage)
 		})
 		r.Route("/admin", func(r chi.Router) {
 			r.Use(s.requireAdmin)

@@ -26,7 +26,7 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 	project := fs.String("project", "", "project name (with --db)")
 	asJSON := fs.Bool("json", false, "print one JSON object instead of text")
 	scale := fs.Int("scale", 5, "number of grades K; grades are 0..K-1")
-	boot := fs.Int("bootstrap", 1000, "bootstrap replicates for alpha and mean kappa intervals (0 to skip)")
+	boot := fs.Int("bootstrap", 1000, "bootstrap replicates for alpha and mean kappa intervals (0 to skip); with --db the lead's pages' rule unless given")
 	seed := fs.Uint64("seed", 1, "bootstrap seed")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: pertinent agreement --from FILE.csv [--json] [--scale K] [--bootstrap N] [--seed S]")
@@ -73,6 +73,15 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 			return err
 		}
 		data, source, goldGrades = d, *dbPath+" project "+p.Name, gold
+		// Same replicates and seed as the lead's pages, so both print the same intervals.
+		given := map[string]bool{}
+		fs.Visit(func(f *flag.Flag) { given[f.Name] = true })
+		if !given["bootstrap"] {
+			*boot = store.BootstrapReplicates(d.Judgments())
+		}
+		if !given["seed"] {
+			*seed = store.BootstrapSeed
+		}
 	case *from != "":
 		d, err := readRatingsCSV(*from, *scale)
 		if err != nil {
