@@ -38,14 +38,15 @@ func (s *Server) renderTokens(w http.ResponseWriter, r *http.Request, status int
 
 func (s *Server) tokensPage(w http.ResponseWriter, r *http.Request) {
 	d := tokensData{Notices: s.flashes(w, r, "notice")}
-	if t := s.flashes(w, r, "token"); len(t) > 0 {
+	if t := s.flashes(w, r, "new-api-token"); len(t) > 0 {
 		d.New = t[0]
 	}
 	s.renderTokens(w, r, http.StatusOK, d)
 }
 
 // createToken makes a token and redirects; the token rides once in the encrypted session
-// cookie's flash, so the plain POST-redirect pattern holds and a reload does not show it again.
+// cookie's flash (under its own key: "token" is the session's value), so the plain
+// POST-redirect pattern holds and a reload does not show it again.
 func (s *Server) createToken(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
 	token, _, err := s.store.CreateAPIToken(r.Context(), u.ID, r.PostFormValue("name"))
@@ -57,7 +58,7 @@ func (s *Server) createToken(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
-	s.flash(w, r, "token", token)
+	s.flash(w, r, "new-api-token", token)
 	http.Redirect(w, r, "/account/tokens", http.StatusSeeOther)
 }
 
