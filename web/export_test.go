@@ -14,6 +14,8 @@ import (
 	"strings"
 	"testing"
 
+	"golang.org/x/net/html"
+
 	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/store"
 )
@@ -326,5 +328,48 @@ func TestAPIWithBearerTokens(t *testing.T) {
 	amirToks, _ := a.store.APITokens(context.Background(), a.users["amir"].ID)
 	if res := a.post(lead, fmt.Sprintf("/account/tokens/%d/revoke", amirToks[0].ID), nil); res.StatusCode != http.StatusNotFound {
 		t.Errorf("revoking another's token: %d, want 404", res.StatusCode)
+	}
+}
+
+// The export, evaluation and token pages follow the Content-Security-Policy too: no inline
+// script, style element, style attribute or event handler.
+func TestExportPagesNeedNoInlineScriptOrStyle(t *testing.T) {
+	a := newTestApp(t)
+	addGradedQueries(t, a)
+	ctx := context.Background()
+	policy := export.LabelPolicy{AdjudicationFirst: true, Consensus: export.ConsensusMedian}
+	ev, err := a.store.Evaluate(ctx, a.project.ID, store.EvalRequest{Policy: policy, K: 3, Threshold: 2},
+		[]store.NamedRun{{Name: "one", Body: strings.NewReader(webRun)}, {Name: "two", Body: strings.NewReader(strings.ReplaceAll(webRun, "3.0", "0.5"))}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := a.store.SaveEvaluation(ctx, a.project.ID, a.users["lena"].ID, &ev); err != nil {
+		t.Fatal(err)
+	}
+	c := a.signIn("lena")
+	newToken(t, a, c)
+	p := a.project.ID
+	for _, path := range []string{
+		fmt.Sprintf("/projects/%d/export", p), fmt.Sprintf("/projects/%d/evaluate", p),
+		fmt.Sprintf("/projects/%d/evaluations/%d", p, ev.ID), "/account/tokens",
+	} {
+		res, body := a.get(c, path)
+		if res.StatusCode != 200 {
+			t.Errorf("GET %s: status %d", path, res.StatusCode)
+			continue
+		}
+		walk(parseHTML(t, body), func(e *html.Node) {
+			if (e.Data == "script" && e.FirstChild != nil) || e.Data == "style" {
+				t.Errorf("%s: inline <%s>", path, e.Data)
+			}
+			for _, at := range e.Attr {
+				if at.Key == "style" || strings.HasPrefix(at.Key, "on") {
+					t.Errorf("%s: <%s %s=%q>", path, e.Data, at.Key, at.Val)
+				}
+			}
+		})
+		if strings.Contains(path, "/evaluations/") && (!strings.Contains(body, "Randomisation p") || !strings.Contains(body, "Δ ndcg")) {
+			t.Errorf("comparison page lacks the comparison tables")
+		}
 	}
 }
