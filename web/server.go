@@ -78,7 +78,7 @@ func (s *Server) Router() chi.Router { return s.router }
 func (s *Server) routes() chi.Router {
 	r := chi.NewRouter()
 	r.Use(middleware.RealIP, s.logRequests, middleware.Recoverer, securityHeaders)
-	r.Use(http.NewCrossOriginProtection().Handler)
+	r.Use(crossOriginProtection().Handler)
 	r.Use(s.loadUser)
 
 	static, _ := fs.Sub(assets, "static")
@@ -87,12 +87,14 @@ func (s *Server) routes() chi.Router {
 	r.Get("/signin", s.signinPage)
 	r.Post("/signin", s.signin)
 	r.Group(s.passwordLinkRoutes)
+	r.Route("/api/v1", s.apiRoutes)
 
 	r.Group(func(r chi.Router) {
 		r.Use(s.requireUser)
 		r.Post("/signout", s.signout)
 		r.Get("/", s.home)
 		r.Group(s.accountRoutes)
+		r.Group(s.tokenRoutes)
 		r.Route("/projects/{project}", func(r chi.Router) {
 			r.Use(s.loadProject)
 			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/judge", s.judgePage)
@@ -106,6 +108,7 @@ func (s *Server) routes() chi.Router {
 			r.With(s.requireProjectRole(store.RoleLead)).Get("/pairs/{pair}/adjudicate", s.adjudicatePage)
 			r.With(s.requireProjectRole(store.RoleLead)).Post("/pairs/{pair}/adjudicate", s.adjudicateSubmit)
 			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/feedback", s.feedbackPage)
+			r.Group(s.exportRoutes)
 		})
 		r.Route("/admin", func(r chi.Router) {
 			r.Use(s.requireAdmin)

@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"math/rand/v2"
 	"net"
@@ -180,10 +179,12 @@ func TestKilledServerLosesNoAcknowledgedJudgment(t *testing.T) {
 	t.Logf("%d acknowledged judgments across 10 kills; %d missing or duplicated", len(acks), lost)
 }
 
-// TestTerminateFinishesRequestsInFlight sends a burst of judging requests, asks the server to
-// stop with SIGTERM in the middle of it, and checks that every request that was accepted got
-// a complete answer, that the process exits cleanly, and that the database was closed with
-// its write-ahead log folded back in.
+// TestTerminateFinishesRequestsInFlight keeps assessors judging, asks the server to stop
+// with SIGTERM in the middle, and checks that every judgment the server committed was also
+// answered (a request cut off mid-way would leave a judgment nobody was told about), that
+// the process exits cleanly, and that the database was closed with its log folded back in.
+// Requests that race the closing of an idle keep-alive connection are never read by the
+// server; they leave no judgment and are not counted against it.
 func TestTerminateFinishesRequestsInFlight(t *testing.T) {
 	if testing.Short() {
 		t.Skip("process test; runs without -short")
@@ -199,7 +200,8 @@ func TestTerminateFinishesRequestsInFlight(t *testing.T) {
 	base := "http://" + addr
 	server := startBinary(t, bin, db, addr)
 	judgeURL := fmt.Sprintf("%s/projects/%d/judge", base, project)
-	var answered, refused, broken atomic.Int64
+	var mu sync.Mutex
+	answered := map[ack]bool{}
 	var wg sync.WaitGroup
 	for _, u := range users {
 		jar, _ := cookiejar.New(nil)
@@ -211,20 +213,15 @@ func TestTerminateFinishesRequestsInFlight(t *testing.T) {
 		go func() {
 			defer wg.Done()
 			pair, err := loadFetch(ctx, c, http.MethodGet, judgeURL, nil)
-			for i := 0; err == nil && pair != "" && i < 200; i++ {
-				pair, err = loadFetch(ctx, c, http.MethodPost, judgeURL, url.Values{"pair": {pair}, "grade": {"2"}})
+			for i := 0; err == nil && pair != "" && i < 300; i++ {
+				var next string
+				next, err = loadFetch(ctx, c, http.MethodPost, judgeURL, url.Values{"pair": {pair}, "grade": {"2"}})
 				if err == nil {
-					answered.Add(1)
+					mu.Lock()
+					answered[ack{pair, u.name}] = true
+					mu.Unlock()
 				}
-			}
-			var op *net.OpError
-			switch {
-			case err == nil:
-			case errors.As(err, &op) && op.Op == "dial":
-				refused.Add(1) // arrived after the listener closed: never accepted
-			default:
-				broken.Add(1)
-				t.Logf("request cut off: %v", err)
+				pair = next
 			}
 		}()
 	}
@@ -237,14 +234,34 @@ func TestTerminateFinishesRequestsInFlight(t *testing.T) {
 	if err != nil {
 		t.Errorf("server exit after SIGTERM: %v, want a clean exit", err)
 	}
-	if broken.Load() != 0 {
-		t.Errorf("%d accepted requests were cut off by the shutdown", broken.Load())
-	}
-	if answered.Load() == 0 {
+	if len(answered) == 0 {
 		t.Fatal("no request was answered before the shutdown; the test proves nothing")
 	}
 	if fi, err := os.Stat(db + "-wal"); err == nil && fi.Size() > 0 {
 		t.Errorf("write-ahead log left with %d bytes: the database was not closed cleanly", fi.Size())
 	}
-	t.Logf("answered %d, refused after close %d", answered.Load(), refused.Load())
+	st, err := store.Open(ctx, db)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	names, err := st.UserNames(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	committed := 0
+	err = st.Ratings(ctx, project, func(r store.Rating) error {
+		committed++
+		if !answered[ack{strconv.FormatInt(r.PairID, 10), names[r.UserID]}] {
+			t.Errorf("pair %d by %s was stored but its request never got an answer", r.PairID, names[r.UserID])
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if committed != len(answered) {
+		t.Errorf("%d judgments answered, %d stored", len(answered), committed)
+	}
+	t.Logf("%d judgments answered and stored before the shutdown", committed)
 }

@@ -27,6 +27,8 @@ var commands = map[string]command{
 	"backup":    {runBackup, "copy a live database to a new file, consistently"},
 	"loadtest":  {runLoadtest, "drive virtual assessors against a server on loopback and report throughput"},
 	"agreement": {runAgreement, "inter-assessor agreement of a CSV of judgments or of a project"},
+	"export":    {runExport, "write a project's final grades as a training set (SVMlight, qrels, CSV, JSONL) with a manifest"},
+	"evaluate":  {runEvaluate, "score a ranker's run, or compare two, against a project's final grades"},
 }
 
 func main() {

@@ -1,0 +1,184 @@
+package web
+
+import (
+	"net/url"
+	"strconv"
+	"strings"
+
+	"github.com/pertinent/pertinent/export"
+	"github.com/pertinent/pertinent/rankeval"
+	"github.com/pertinent/pertinent/store"
+)
+
+// policyForm is the label policy as forms and API query strings spell it. Every field has a
+// default, so an empty query string asks for the usual policy: adjudicated grade first, then
+// the median of at least one grade, nothing else left out.
+type policyForm struct {
+	Adjudication       string // "first" or "ignore"
+	Consensus          string
+	MinJudgments       string
+	MaxDisagreement    string // empty: no limit
+	ExcludeCannotJudge bool
+	ExcludeFlagged     bool
+	ExcludeGold        bool
+}
+
+func readPolicyForm(v url.Values) policyForm {
+	f := policyForm{Adjudication: v.Get("adjudication"), Consensus: v.Get("consensus"), MinJudgments: strings.TrimSpace(v.Get("min_judgments")),
+		MaxDisagreement: strings.TrimSpace(v.Get("max_disagreement")), ExcludeCannotJudge: checked(v, "exclude_cannot_judge"),
+		ExcludeFlagged: checked(v, "exclude_flagged"), ExcludeGold: checked(v, "exclude_gold")}
+	if f.Adjudication == "" {
+		f.Adjudication = "first"
+	}
+	if f.Consensus == "" {
+		f.Consensus = string(export.ConsensusMedian)
+	}
+	if f.MinJudgments == "" {
+		f.MinJudgments = "1"
+	}
+	return f
+}
+
+// checked reads a checkbox (browsers send "on") or an API flag ("1", "true").
+func checked(v url.Values, name string) bool {
+	switch v.Get(name) {
+	case "on", "1", "true", "yes":
+		return true
+	}
+	return false
+}
+
+func (f policyForm) policy() (export.LabelPolicy, error) {
+	p := export.LabelPolicy{AdjudicationFirst: f.Adjudication != "ignore", Consensus: export.Consensus(f.Consensus),
+		ExcludeCannotJudge: f.ExcludeCannotJudge, ExcludeFlagged: f.ExcludeFlagged, ExcludeGold: f.ExcludeGold}
+	n, err := strconv.Atoi(f.MinJudgments)
+	if err != nil || n < 1 {
+		return p, &store.Error{Code: store.CodeInvalid, Message: "the least number of judgments must be a whole number of at least 1"}
+	}
+	p.MinJudgments = n
+	if f.MaxDisagreement != "" {
+		d, err := strconv.Atoi(f.MaxDisagreement)
+		if err != nil || d < 0 {
+			return p, &store.Error{Code: store.CodeInvalid, Message: "the largest disagreement must be empty or a whole number of at least 0"}
+		}
+		p.MaxDisagreement = &d
+	}
+	if err := p.Validate(); err != nil {
+		return p, &store.Error{Code: store.CodeInvalid, Message: strings.TrimPrefix(err.Error(), "export: ")}
+	}
+	return p, nil
+}
+
+// exportForm is the export page's form, also the API's query string.
+type exportForm struct {
+	policyForm
+	Format string
+	Split  string // "none", "ratio" or "folds"; the API may also give the ratios here
+	Ratios string
+	Folds  string
+	Seed   string
+}
+
+func readExportForm(v url.Values) exportForm {
+	f := exportForm{policyForm: readPolicyForm(v), Format: v.Get("format"), Split: v.Get("split"),
+		Ratios: strings.TrimSpace(v.Get("ratios")), Folds: strings.TrimSpace(v.Get("folds")), Seed: strings.TrimSpace(v.Get("seed"))}
+	if f.Format == "" {
+		f.Format = string(store.FormatSVMlight)
+	}
+	// split=0.8,0.1,0.1 is short for split=ratio&ratios=0.8,0.1,0.1; folds=K alone asks for folds.
+	if strings.Contains(f.Split, ",") {
+		f.Split, f.Ratios = "ratio", f.Split
+	}
+	if f.Split == "" {
+		f.Split = "none"
+		if f.Folds != "" {
+			f.Split = "folds"
+		}
+	}
+	if f.Ratios == "" {
+		f.Ratios = "0.8,0.1,0.1"
+	}
+	if f.Folds == "" {
+		f.Folds = "5"
+	}
+	if f.Seed == "" {
+		f.Seed = "1"
+	}
+	return f
+}
+
+func (f exportForm) request() (store.ExportRequest, error) {
+	var req store.ExportRequest
+	var err error
+	if req.Policy, err = f.policy(); err != nil {
+		return req, err
+	}
+	req.Format = store.ExportFormat(f.Format)
+	seed, err := strconv.ParseUint(f.Seed, 10, 64)
+	if err != nil {
+		return req, &store.Error{Code: store.CodeInvalid, Message: "the seed must be a whole number of at least 0"}
+	}
+	req.Split = export.SplitSpec{Method: "none", Seed: seed}
+	switch f.Split {
+	case "none":
+	case "ratio":
+		req.Split.Method = "ratio"
+		if req.Split.Ratios, err = store.ParseRatios(f.Ratios); err != nil {
+			return req, err
+		}
+	case "folds", "k-fold":
+		k, err := strconv.Atoi(f.Folds)
+		if err != nil {
+			return req, &store.Error{Code: store.CodeInvalid, Message: "the number of folds must be a whole number"}
+		}
+		req.Split.Method, req.Split.Folds = "k-fold", k
+	default:
+		return req, &store.Error{Code: store.CodeInvalid, Message: "split must be none, ratio or folds"}
+	}
+	return req, nil
+}
+
+// evalForm is the evaluate page's options, also the API's query string.
+type evalForm struct {
+	policyForm
+	K         string
+	Gain      string
+	Threshold string
+}
+
+func readEvalForm(v url.Values) evalForm {
+	f := evalForm{policyForm: readPolicyForm(v), K: strings.TrimSpace(v.Get("k")), Gain: v.Get("gain"), Threshold: strings.TrimSpace(v.Get("threshold"))}
+	if f.K == "" {
+		f.K = "10"
+	}
+	if f.Gain == "" {
+		f.Gain = "exponential"
+	}
+	if f.Threshold == "" {
+		f.Threshold = "2"
+	}
+	return f
+}
+
+func (f evalForm) request() (store.EvalRequest, error) {
+	var req store.EvalRequest
+	var err error
+	if req.Policy, err = f.policy(); err != nil {
+		return req, err
+	}
+	if req.K, err = strconv.Atoi(f.K); err != nil || req.K < 0 {
+		return req, &store.Error{Code: store.CodeInvalid, Message: "the cut-off k must be a whole number (0 for the whole ranking)"}
+	}
+	if req.Threshold, err = strconv.Atoi(f.Threshold); err != nil || req.Threshold < 1 {
+		return req, &store.Error{Code: store.CodeInvalid, Message: "the relevance threshold must be a grade of at least 1"}
+	}
+	switch f.Gain {
+	case "exponential":
+		req.Gain = rankeval.GainExponential
+	case "linear":
+		req.Gain = rankeval.GainLinear
+	default:
+		return req, &store.Error{Code: store.CodeInvalid, Message: "gain must be exponential or linear"}
+	}
+	return req, nil
+}
