@@ -192,9 +192,9 @@ func importFormat(kind ImportKind, format, name string) (ingest.Format, error) {
 
 // problemList gathers the problems of one import in file order, up to a limit.
 type problemList struct {
-	max  int
-	list []ingest.Problem
-	more int
+	max      int
+	list     []ingest.Problem
+	more     int
 	file     []ingest.Problem // the store's problems with the current file
 	fileMore int
 }
@@ -209,7 +209,9 @@ func (p *problemList) add(file string, line int, field, reason string) {
 }
 
 // failed reports whether any problem has been found so far.
-func (p *problemList) failed() bool { return len(p.list) > 0 || p.more > 0 || len(p.file) > 0 || p.fileMore > 0 }
+func (p *problemList) failed() bool {
+	return len(p.list) > 0 || p.more > 0 || len(p.file) > 0 || p.fileMore > 0
+}
 
 // endFile merges the reader's problems (err, when it is *ingest.Problems) with the store's
 // own for the file just read, in line order. Any other error is returned.

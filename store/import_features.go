@@ -24,7 +24,7 @@ func (im *importer) features(f ImportFile, format ingest.Format) error {
 	im.counter("features")
 	var remap []uint32 // CSV column i+1 -> project feature index
 	var names []string
-	return pipe(func(emit func(ingest.FeatureRow) error) error {
+	return pipe(im.done, func(emit func(ingest.FeatureRow) error) error {
 		return ingest.ReadFeatures(f.R, format, im.options(f.Name), emit)
 	}, func(row ingest.FeatureRow) error {
 		if row.Names != nil && remap == nil {

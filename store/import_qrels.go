@@ -55,7 +55,7 @@ func (im *importer) qrels(f ImportFile) error {
 		gc = im.counter("gold grades")
 	}
 	origin := "qrels:" + im.spec.Source
-	return pipe(func(emit func(ingest.Qrel) error) error {
+	return pipe(im.done, func(emit func(ingest.Qrel) error) error {
 		return ingest.ReadQrels(f.R, im.options(f.Name), emit)
 	}, func(q ingest.Qrel) error {
 		qid, did, err := im.lookupRun(f.Name, q.Line, q.QueryID, q.DocID)

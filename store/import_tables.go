@@ -23,6 +23,14 @@ const (
 			OR documents.metadata IS NOT excluded.metadata
 		RETURNING id`
 	findDocument = `SELECT id FROM documents WHERE project_id = ? AND external_id = ?`
+	// The bulk path finds the document by its external id inside SQLite, so the import
+	// keeps no map of a million document ids.
+	upsertRowPair = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at)
+		VALUES (?1, ?2, (SELECT id FROM documents WHERE project_id = ?1 AND external_id = ?3), ?4, ?5, ?6, ?7)
+		ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority,
+			gold_grade = COALESCE(excluded.gold_grade, pairs.gold_grade)
+		WHERE pairs.priority IS NOT excluded.priority
+			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS NOT excluded.gold_grade)`
 	// A pairs file sets a pair's priority and, when it gives one, its gold grade; an empty
 	// gold grade leaves the pair's as it is, so re-importing candidates never drops gold
 	// grades that came from qrels.
@@ -39,7 +47,8 @@ func (im *importer) upsertQuery(q ingest.Query) (int64, error) {
 		im.project, q.ID, q.Text, q.Need)
 }
 
-func (im *importer) upsertDocument(d ingest.Document) (int64, error) {
+// upsertDocument writes a document; remember keeps its id for later look-ups.
+func (im *importer) upsertDocument(d ingest.Document, remember bool) (int64, error) {
 	meta := "{}"
 	if len(d.Meta) > 0 {
 		b, err := json.Marshal(d.Meta) // keys sorted: equal metadata gives equal text
@@ -48,12 +57,20 @@ func (im *importer) upsertDocument(d ingest.Document) (int64, error) {
 		}
 		meta = string(b)
 	}
-	return im.upsertID(im.counter("documents"), im.maxDoc, im.docIDs, d.ID, upsertDocument, findDocument,
+	seen := im.docIDs
+	if !remember {
+		seen = nil
+	}
+	return im.upsertID(im.counter("documents"), im.maxDoc, seen, d.ID, upsertDocument, findDocument,
 		im.project, d.ID, d.Title, d.URL, d.Body, d.BodyFormat, meta)
 }
 
-func (im *importer) upsertPair(queryID, docID int64, origin string, p ingest.Pair) error {
-	st, err := im.stmt(upsertPair)
+func (im *importer) upsertPair(queryID int64, doc any, origin string, p ingest.Pair) error {
+	query := upsertPair
+	if _, byExternal := doc.(string); byExternal {
+		query = upsertRowPair
+	}
+	st, err := im.stmt(query)
 	if err != nil {
 		return err
 	}
@@ -61,7 +78,7 @@ func (im *importer) upsertPair(queryID, docID int64, origin string, p ingest.Pai
 	if p.GoldGrade != ingest.NoGrade {
 		gold = p.GoldGrade
 	}
-	res, err := st.ExecContext(im.ctx, im.project, queryID, docID, origin, p.Priority, gold, im.at)
+	res, err := st.ExecContext(im.ctx, im.project, queryID, doc, origin, p.Priority, gold, im.at)
 	if err != nil {
 		return err
 	}
@@ -73,7 +90,7 @@ func (im *importer) upsertPair(queryID, docID int64, origin string, p ingest.Pai
 
 func (im *importer) queries(f ImportFile, format ingest.Format) error {
 	im.counter("queries")
-	return pipe(func(emit func(ingest.Query) error) error {
+	return pipe(im.done, func(emit func(ingest.Query) error) error {
 		return ingest.ReadQueries(f.R, format, im.options(f.Name), emit)
 	}, func(q ingest.Query) error {
 		_, err := im.upsertQuery(q)
@@ -83,10 +100,10 @@ func (im *importer) queries(f ImportFile, format ingest.Format) error {
 
 func (im *importer) documents(f ImportFile, format ingest.Format) error {
 	im.counter("documents")
-	return pipe(func(emit func(ingest.Document) error) error {
+	return pipe(im.done, func(emit func(ingest.Document) error) error {
 		return ingest.ReadDocuments(f.R, format, im.options(f.Name), emit)
 	}, func(d ingest.Document) error {
-		_, err := im.upsertDocument(d)
+		_, err := im.upsertDocument(d, false)
 		return err
 	})
 }
@@ -98,22 +115,22 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 	im.counter("documents")
 	im.counter("pairs")
 	origin := "rows:" + f.Name
-	return pipe(func(emit func(ingest.PairRow) error) error {
+	return pipe(im.done, func(emit func(ingest.PairRow) error) error {
 		return ingest.ReadPairRows(f.R, format, im.options(f.Name), emit)
 	}, func(r ingest.PairRow) error {
-		qid, did := im.queryIDs[r.Query.ID], im.docIDs[r.Document.ID]
+		qid := im.queryIDs[r.Query.ID]
 		var err error
 		if r.NewQuery || qid == 0 {
 			if qid, err = im.upsertQuery(r.Query); err != nil {
 				return err
 			}
 		}
-		if r.NewDocument || did == 0 {
-			if did, err = im.upsertDocument(r.Document); err != nil {
+		if r.NewDocument {
+			if _, err = im.upsertDocument(r.Document, false); err != nil {
 				return err
 			}
 		}
-		return im.upsertPair(qid, did, origin, r.Pair)
+		return im.upsertPair(qid, r.Document.ID, origin, r.Pair)
 	})
 }
 
@@ -121,7 +138,7 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 func (im *importer) pairs(f ImportFile, format ingest.Format) error {
 	im.counter("pairs")
 	origin := "pairs:" + f.Name
-	return pipe(func(emit func(ingest.Pair) error) error {
+	return pipe(im.done, func(emit func(ingest.Pair) error) error {
 		return ingest.ReadPairs(f.R, format, im.options(f.Name), emit)
 	}, func(p ingest.Pair) error {
 		qid, did, err := im.lookup(f.Name, p.Line, p.QueryID, p.DocID)

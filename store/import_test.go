@@ -135,13 +135,13 @@ func TestImportEachTableKind(t *testing.T) {
 		files("f2.csv", "query_id,doc_id,clicks,bm25\nq1,d2,7,0.25\nq2,d2,1,2\n")...)
 	wantCount(t, rep, "features", 1, 0, 1)
 	wantCount(t, rep, "feature names", 0, 0, 2)
-	if got := pairFeatures(t, s, "q2", "d2"); !reflect.DeepEqual(got, []ingest.Feature{{1, 2}, {2, 1}}) {
+	if got := pairFeatures(t, s, "q2", "d2"); !reflect.DeepEqual(got, []ingest.Feature{{Index: 1, Value: 2}, {Index: 2, Value: 1}}) {
 		t.Errorf("q2/d2 features %v, want bm25 (1) = 2 and clicks (2) = 1", got)
 	}
 	rep = mustImport(t, s, p, lead.ID, ImportSpec{Kind: ImportFeatures},
 		files("f.svm", "2 qid:q1 1:0.5 3:9 # d1 anything\n")...)
 	wantCount(t, rep, "features", 0, 1, 0)
-	if got := pairFeatures(t, s, "q1", "d1"); !reflect.DeepEqual(got, []ingest.Feature{{1, 0.5}, {3, 9}}) {
+	if got := pairFeatures(t, s, "q1", "d1"); !reflect.DeepEqual(got, []ingest.Feature{{Index: 1, Value: 0.5}, {Index: 3, Value: 9}}) {
 		t.Errorf("q1/d1 features %v after the SVMlight file", got)
 	}
 }

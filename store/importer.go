@@ -12,7 +12,11 @@ import (
 
 // importer carries one import's transaction, prepared statements, id caches and counts.
 type importer struct {
+	// ctx runs the statements; it is never cancelled, since the driver watches a
+	// cancellable context with a goroutine per statement, which costs more than the
+	// statement itself in a bulk import. done is the caller's context, checked per batch.
 	ctx     context.Context
+	done    context.Context
 	tx      *sql.Tx
 	project int64
 	by      int64
@@ -39,7 +43,7 @@ type importer struct {
 }
 
 func newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64, spec ImportSpec) (*importer, error) {
-	im := &importer{ctx: ctx, tx: tx, project: projectID, by: by, spec: spec, at: now(),
+	im := &importer{ctx: context.WithoutCancel(ctx), done: ctx, tx: tx, project: projectID, by: by, spec: spec, at: now(),
 		stmts: map[string]*sql.Stmt{}, queryIDs: map[string]int64{}, docIDs: map[string]int64{}, count: map[string]*ImportCount{}}
 	im.ps.max = spec.MaxProblems
 	if im.ps.max <= 0 {
@@ -167,7 +171,8 @@ func (im *importer) finish() error {
 
 // upsertID runs an upsert that returns the row's id when it inserted or changed the row,
 // and nothing when the row was already as given; find then looks the id up. seen holds the
-// ids met in this import, so a row given twice counts as updated, not new.
+// ids met in this import, so a row given twice counts as updated, not new; nil keeps none
+// (the readers have rejected repeats within a file already).
 func (im *importer) upsertID(c *ImportCount, maxBefore int64, seen map[string]int64, ext string, upsert, find string, args ...any) (int64, error) {
 	st, err := im.stmt(upsert)
 	if err != nil {
@@ -192,14 +197,16 @@ func (im *importer) upsertID(c *ImportCount, maxBefore int64, seen map[string]in
 	default:
 		c.Updated++
 	}
-	seen[ext] = id
+	if seen != nil {
+		seen[ext] = id
+	}
 	return id, nil
 }
 
 // pipe reads records in one goroutine and writes them in this one, so parsing a large
 // file overlaps with SQLite's work on the previous records. Records travel in batches to
 // keep channel traffic low; a write error stops the reader.
-func pipe[T any](read func(emit func(T) error) error, write func(T) error) error {
+func pipe[T any](ctx context.Context, read func(emit func(T) error) error, write func(T) error) error {
 	const batch = 512
 	ch := make(chan []T, 4)
 	stop := make(chan struct{})
@@ -230,6 +237,10 @@ func pipe[T any](read func(emit func(T) error) error, write func(T) error) error
 	var writeErr error
 	for b := range ch {
 		if writeErr != nil {
+			continue
+		}
+		if writeErr = ctx.Err(); writeErr != nil {
+			close(stop)
 			continue
 		}
 		for _, x := range b {

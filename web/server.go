@@ -93,6 +93,9 @@ func (s *Server) routes() chi.Router {
 			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/judge", s.judgePage)
 			r.With(s.requireProjectRole(store.RoleAssessor)).Post("/judge", s.judgeSubmit)
 			r.With(s.requireProjectRole(store.RoleLead)).Get("/overview", s.overview)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/import", s.importPage)
+			r.With(s.requireProjectRole(store.RoleLead)).Post("/import", s.importSubmit)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/import/{job}", s.importStatus)
 		})
 		r.Route("/admin", func(r chi.Router) {
 			r.Use(s.requireAdmin)

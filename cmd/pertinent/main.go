@@ -25,6 +25,7 @@ var commands = map[string]command{
 	"migrate": {runMigrate, "apply pending database migrations"},
 	"user":    {runUser, "manage accounts: add, list, disable, enable, set-password"},
 	"backup":  {runBackup, "copy a live database to a new file, consistently"},
+	"import":  {runImport, "bring queries, documents, pairs, runs, qrels or features into a project"},
 }
 
 func main() {
