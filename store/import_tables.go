@@ -2,7 +2,6 @@ package store
 
 import (
 	"database/sql"
-	"encoding/json"
 	"errors"
 
 	"github.com/pertinent/pertinent/ingest"
@@ -13,24 +12,8 @@ const (
 		ON CONFLICT (project_id, external_id) DO UPDATE SET text = excluded.text, need = excluded.need
 		WHERE queries.text IS NOT excluded.text OR queries.need IS NOT excluded.need
 		RETURNING id`
-	findQuery      = `SELECT id FROM queries WHERE project_id = ? AND external_id = ?`
-	upsertDocument = `INSERT INTO documents(project_id, external_id, title, url, body, body_format, metadata)
-		VALUES (?, ?, ?, ?, ?, ?, ?)
-		ON CONFLICT (project_id, external_id) DO UPDATE SET title = excluded.title, url = excluded.url,
-			body = excluded.body, body_format = excluded.body_format, metadata = excluded.metadata
-		WHERE documents.title IS NOT excluded.title OR documents.url IS NOT excluded.url
-			OR documents.body IS NOT excluded.body OR documents.body_format IS NOT excluded.body_format
-			OR documents.metadata IS NOT excluded.metadata
-		RETURNING id`
+	findQuery    = `SELECT id FROM queries WHERE project_id = ? AND external_id = ?`
 	findDocument = `SELECT id FROM documents WHERE project_id = ? AND external_id = ?`
-	// The bulk path finds the document by its external id inside SQLite, so the import
-	// keeps no map of a million document ids.
-	upsertRowPair = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at)
-		VALUES (?1, ?2, (SELECT id FROM documents WHERE project_id = ?1 AND external_id = ?3), ?4, ?5, ?6, ?7)
-		ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority,
-			gold_grade = COALESCE(excluded.gold_grade, pairs.gold_grade)
-		WHERE pairs.priority IS NOT excluded.priority
-			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS NOT excluded.gold_grade)`
 	// A pairs file sets a pair's priority and, when it gives one, its gold grade; an empty
 	// gold grade leaves the pair's as it is, so re-importing candidates never drops gold
 	// grades that came from qrels.
@@ -47,30 +30,16 @@ func (im *importer) upsertQuery(q ingest.Query) (int64, error) {
 		im.project, q.ID, q.Text, q.Need)
 }
 
-// upsertDocument writes a document; remember keeps its id for later look-ups.
-func (im *importer) upsertDocument(d ingest.Document, remember bool) (int64, error) {
-	meta := "{}"
-	if len(d.Meta) > 0 {
-		b, err := json.Marshal(d.Meta) // keys sorted: equal metadata gives equal text
-		if err != nil {
-			return 0, err
-		}
-		meta = string(b)
+func (im *importer) document(d ingest.Document) error {
+	args, err := documentArgs(d.ID, d.Title, d.URL, d.Body, d.BodyFormat, d.Meta)
+	if err != nil {
+		return err
 	}
-	seen := im.docIDs
-	if !remember {
-		seen = nil
-	}
-	return im.upsertID(im.counter("documents"), im.maxDoc, seen, d.ID, upsertDocument, findDocument,
-		im.project, d.ID, d.Title, d.URL, d.Body, d.BodyFormat, meta)
+	return im.addDocument(args)
 }
 
-func (im *importer) upsertPair(queryID int64, doc any, origin string, p ingest.Pair) error {
-	query := upsertPair
-	if _, byExternal := doc.(string); byExternal {
-		query = upsertRowPair
-	}
-	st, err := im.stmt(query)
+func (im *importer) upsertPair(queryID, docID int64, origin string, p ingest.Pair) error {
+	st, err := im.stmt(upsertPair)
 	if err != nil {
 		return err
 	}
@@ -78,7 +47,7 @@ func (im *importer) upsertPair(queryID int64, doc any, origin string, p ingest.P
 	if p.GoldGrade != ingest.NoGrade {
 		gold = p.GoldGrade
 	}
-	res, err := st.ExecContext(im.ctx, im.project, queryID, doc, origin, p.Priority, gold, im.at)
+	res, err := st.ExecContext(im.ctx, im.project, queryID, docID, origin, p.Priority, gold, im.at)
 	if err != nil {
 		return err
 	}
@@ -100,12 +69,13 @@ func (im *importer) queries(f ImportFile, format ingest.Format) error {
 
 func (im *importer) documents(f ImportFile, format ingest.Format) error {
 	im.counter("documents")
-	return pipe(im.done, func(emit func(ingest.Document) error) error {
+	err := pipe(im.done, func(emit func(ingest.Document) error) error {
 		return ingest.ReadDocuments(f.R, format, im.options(f.Name), emit)
-	}, func(d ingest.Document) error {
-		_, err := im.upsertDocument(d, false)
+	}, im.document)
+	if err != nil {
 		return err
-	})
+	}
+	return im.flushRows()
 }
 
 // rows is the bulk path: each query and document is written on the first row naming it,
@@ -115,7 +85,7 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 	im.counter("documents")
 	im.counter("pairs")
 	origin := "rows:" + f.Name
-	return pipe(im.done, func(emit func(ingest.PairRow) error) error {
+	err := pipe(im.done, func(emit func(ingest.PairRow) error) error {
 		return ingest.ReadPairRows(f.R, format, im.options(f.Name), emit)
 	}, func(r ingest.PairRow) error {
 		qid := im.queryIDs[r.Query.ID]
@@ -126,12 +96,20 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 			}
 		}
 		if r.NewDocument {
-			if _, err = im.upsertDocument(r.Document, false); err != nil {
+			if err := im.document(r.Document); err != nil {
 				return err
 			}
 		}
-		return im.upsertPair(qid, r.Document.ID, origin, r.Pair)
+		var gold any
+		if r.Pair.GoldGrade != ingest.NoGrade {
+			gold = r.Pair.GoldGrade
+		}
+		return im.addRowPair(qid, r.Document.ID, origin, r.Pair.Priority, gold)
 	})
+	if err != nil {
+		return err
+	}
+	return im.flushRows()
 }
 
 // pairs links queries and documents the project has already; an id it lacks is a problem.

@@ -36,6 +36,7 @@ type importer struct {
 	// Pairs are counted from the changes SQLite reports, since a bulk import never asks
 	// for their ids; finish turns these into new, updated and unchanged.
 	pairsGiven, pairChanges int
+	docs, rowPairs          *bulk // the bulk path's buffers; nil until used
 
 	order []string
 	count map[string]*ImportCount
@@ -66,11 +67,12 @@ func newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64, spec Impo
 	if err != nil {
 		return nil, err
 	}
-	// 64 MiB of page cache keeps the indexes being filled in memory without letting one
-	// import dominate the process's memory.
-	if _, err := tx.ExecContext(ctx, `PRAGMA cache_size = -65536`); err != nil {
+	// 16 MiB of page cache: measured on the benchmark, a larger cache made a bulk import
+	// no faster (the inserts touch few pages at a time) and only grew its memory.
+	if _, err := tx.ExecContext(ctx, `PRAGMA cache_size = -16384`); err != nil {
 		return nil, err
 	}
+
 	return im, nil
 }
 
@@ -155,18 +157,32 @@ func (im *importer) run(files []ImportFile, formats []ingest.Format) error {
 
 // finish settles the counts that come from totals rather than single rows.
 func (im *importer) finish() error {
-	if im.pairsGiven == 0 {
-		return nil
+	if b := im.rowPairs; b != nil {
+		im.pairsGiven += b.given
+		im.pairChanges += b.changes
 	}
-	var added int
-	if err := im.tx.QueryRowContext(im.ctx, `SELECT COUNT(*) FROM pairs WHERE id > ? AND project_id = ?`, im.maxPair, im.project).Scan(&added); err != nil {
-		return err
+	if b := im.docs; b != nil && b.given > 0 {
+		var added int
+		if err := im.tx.QueryRowContext(im.ctx, `SELECT COUNT(*) FROM documents WHERE id > ? AND project_id = ?`, im.maxDoc, im.project).Scan(&added); err != nil {
+			return err
+		}
+		settle(im.counter("documents"), b.given, b.changes, added)
 	}
-	c := im.counter("pairs")
-	c.New += added
-	c.Updated += im.pairChanges - added
-	c.Unchanged += im.pairsGiven - im.pairChanges
+	if im.pairsGiven > 0 {
+		var added int
+		if err := im.tx.QueryRowContext(im.ctx, `SELECT COUNT(*) FROM pairs WHERE id > ? AND project_id = ?`, im.maxPair, im.project).Scan(&added); err != nil {
+			return err
+		}
+		settle(im.counter("pairs"), im.pairsGiven, im.pairChanges, added)
+	}
 	return nil
+}
+
+// settle turns rows given, rows changed and rows added into new, updated and unchanged.
+func settle(c *ImportCount, given, changes, added int) {
+	c.New += added
+	c.Updated += changes - added
+	c.Unchanged += given - changes
 }
 
 // upsertID runs an upsert that returns the row's id when it inserted or changed the row,

@@ -98,6 +98,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if err != nil {
 		return err
 	}
+	profStop()
 	return printReport(stdout, p.Name, rep)
 }
 
