@@ -98,7 +98,6 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if err != nil {
 		return err
 	}
-	profStop()
 	return printReport(stdout, p.Name, rep)
 }
 
