@@ -109,6 +109,9 @@ func (s *Server) routes() chi.Router {
 			r.With(s.requireProjectRole(store.RoleLead)).Post("/pairs/{pair}/adjudicate", s.adjudicateSubmit)
 			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/feedback", s.feedbackPage)
 			r.Group(s.exportRoutes)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/import", s.importPage)
+			r.With(s.requireProjectRole(store.RoleLead)).Post("/import", s.importSubmit)
+			r.With(s.requireProjectRole(store.RoleLead)).Get("/import/{job}", s.importStatus)
 		})
 		r.Route("/admin", func(r chi.Router) {
 			r.Use(s.requireAdmin)

@@ -1,0 +1,177 @@
+package store
+
+import (
+	"database/sql"
+	"errors"
+
+	"github.com/pertinent/pertinent/ingest"
+)
+
+const (
+	upsertQuery = `INSERT INTO queries(project_id, external_id, text, need) VALUES (?, ?, ?, ?)
+		ON CONFLICT (project_id, external_id) DO UPDATE SET text = excluded.text, need = excluded.need
+		WHERE queries.text IS NOT excluded.text OR queries.need IS NOT excluded.need
+		RETURNING id`
+	findQuery    = `SELECT id FROM queries WHERE project_id = ? AND external_id = ?`
+	findDocument = `SELECT id FROM documents WHERE project_id = ? AND external_id = ?`
+	// A pairs file sets a pair's priority and, when it gives one, its gold grade; an empty
+	// gold grade leaves the pair's as it is, so re-importing candidates never drops gold
+	// grades that came from qrels.
+	upsertPair = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at)
+		VALUES (?, ?, ?, ?, ?, ?, ?)
+		ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority,
+			gold_grade = COALESCE(excluded.gold_grade, pairs.gold_grade)
+		WHERE pairs.priority IS NOT excluded.priority
+			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS NOT excluded.gold_grade)`
+)
+
+func (im *importer) upsertQuery(q ingest.Query) (int64, error) {
+	return im.upsertID(im.counter("queries"), im.maxQuery, im.queryIDs, q.ID, upsertQuery, findQuery,
+		im.project, q.ID, q.Text, q.Need)
+}
+
+func (im *importer) document(d ingest.Document) error {
+	args, err := documentArgs(d.ID, d.Title, d.URL, d.Body, d.BodyFormat, d.Meta)
+	if err != nil {
+		return err
+	}
+	return im.addDocument(args)
+}
+
+func (im *importer) upsertPair(queryID, docID int64, origin string, p ingest.Pair) error {
+	st, err := im.stmt(upsertPair)
+	if err != nil {
+		return err
+	}
+	var gold any
+	if p.GoldGrade != ingest.NoGrade {
+		gold = p.GoldGrade
+	}
+	res, err := st.ExecContext(im.ctx, im.project, queryID, docID, origin, p.Priority, gold, im.at)
+	if err != nil {
+		return err
+	}
+	n, err := res.RowsAffected()
+	im.pairsGiven++
+	im.pairChanges += int(n)
+	return err
+}
+
+func (im *importer) queries(f ImportFile, format ingest.Format) error {
+	im.counter("queries")
+	return pipe(im.done, func(emit func(ingest.Query) error) error {
+		return ingest.ReadQueries(f.R, format, im.options(f.Name), emit)
+	}, func(q ingest.Query) error {
+		_, err := im.upsertQuery(q)
+		return err
+	})
+}
+
+func (im *importer) documents(f ImportFile, format ingest.Format) error {
+	im.counter("documents")
+	err := pipe(im.done, func(emit func(ingest.Document) error) error {
+		return ingest.ReadDocuments(f.R, format, im.options(f.Name), emit)
+	}, im.document)
+	if err != nil {
+		return err
+	}
+	return im.flushRows()
+}
+
+// rows is the bulk path: each query and document is written on the first row naming it,
+// every row writes its pair.
+func (im *importer) rows(f ImportFile, format ingest.Format) error {
+	im.counter("queries")
+	im.counter("documents")
+	im.counter("pairs")
+	origin := "rows:" + f.Name
+	err := pipe(im.done, func(emit func(ingest.PairRow) error) error {
+		return ingest.ReadPairRows(f.R, format, im.options(f.Name), emit)
+	}, func(r ingest.PairRow) error {
+		qid := im.queryIDs[r.Query.ID]
+		var err error
+		if r.NewQuery || qid == 0 {
+			if qid, err = im.upsertQuery(r.Query); err != nil {
+				return err
+			}
+		}
+		if r.NewDocument {
+			if err := im.document(r.Document); err != nil {
+				return err
+			}
+		}
+		var gold any
+		if r.Pair.GoldGrade != ingest.NoGrade {
+			gold = r.Pair.GoldGrade
+		}
+		return im.addRowPair(qid, r.Document.ID, origin, r.Pair.Priority, gold)
+	})
+	if err != nil {
+		return err
+	}
+	return im.flushRows()
+}
+
+// pairs links queries and documents the project has already; an id it lacks is a problem.
+func (im *importer) pairs(f ImportFile, format ingest.Format) error {
+	im.counter("pairs")
+	origin := "pairs:" + f.Name
+	return pipe(im.done, func(emit func(ingest.Pair) error) error {
+		return ingest.ReadPairs(f.R, format, im.options(f.Name), emit)
+	}, func(p ingest.Pair) error {
+		qid, did, err := im.lookup(f.Name, p.Line, p.QueryID, p.DocID)
+		if err != nil || qid == 0 || did == 0 || im.ps.failed() {
+			return err
+		}
+		return im.upsertPair(qid, did, origin, p)
+	})
+}
+
+// lookup finds the ids of a query and a document by external id, reporting a missing one
+// as a problem at file:line (ids 0).
+func (im *importer) lookup(file string, line int, query, doc string) (int64, int64, error) {
+	qid, err := im.find(im.queryIDs, findQuery, query)
+	if err != nil {
+		return 0, 0, err
+	}
+	if qid == 0 {
+		im.ps.add(file, line, "query_id", "no query "+quoteID(query)+" in this project: import queries first")
+	}
+	did, err := im.find(im.docIDs, findDocument, doc)
+	if err != nil {
+		return 0, 0, err
+	}
+	if did == 0 {
+		im.ps.add(file, line, "doc_id", "no document "+quoteID(doc)+" in this project: import documents first")
+	}
+	return qid, did, nil
+}
+
+// find looks an external id up once per import; 0 means the project lacks it.
+func (im *importer) find(cache map[string]int64, query, ext string) (int64, error) {
+	if id, ok := cache[ext]; ok {
+		return id, nil
+	}
+	st, err := im.stmt(query)
+	if err != nil {
+		return 0, err
+	}
+	var id int64
+	err = st.QueryRowContext(im.ctx, im.project, ext).Scan(&id)
+	if err != nil && !errors.Is(err, sql.ErrNoRows) {
+		return 0, err
+	}
+	cache[ext] = id
+	return id, nil
+}
+
+// quoteID shows an id in a problem, cut short.
+func quoteID(s string) string {
+	if len(s) > 40 {
+		r := []rune(s)
+		if len(r) > 40 {
+			s = string(r[:40]) + "..."
+		}
+	}
+	return `"` + s + `"`
+}
