@@ -74,7 +74,7 @@ func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView
 		var goldRate float64
 		var archived, member bool
 		var batch sql.NullInt64
-		err := tx.QueryRowContext(ctx, `SELECT judgments_per_pair, lease_seconds, gold_rate, archived_at IS NOT NULL,
+		err := s.txRow(ctx, tx, `SELECT judgments_per_pair, lease_seconds, gold_rate, archived_at IS NOT NULL,
 				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor'),
 				(SELECT query_id FROM batches b WHERE b.project_id = ?1 AND b.user_id = ?2)
 			FROM projects WHERE id = ?1`, projectID, userID).Scan(&needed, &leaseSeconds, &goldRate, &archived, &member, &batch)
@@ -92,7 +92,7 @@ func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView
 		}
 		t := time.Now()
 		nowText := timeText(t)
-		err = tx.QueryRowContext(ctx, resumeLeaseSQL, projectID, userID, nowText).Scan(&pairID, &leasedAt)
+		err = s.txRow(ctx, tx, resumeLeaseSQL, projectID, userID, nowText).Scan(&pairID, &leasedAt)
 		if err == nil {
 			return nil
 		}
@@ -100,43 +100,43 @@ func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView
 			return err
 		}
 		// Expired leases of this assessor are of no further use; dropping them keeps the table small.
-		if _, err := tx.ExecContext(ctx, `DELETE FROM leases WHERE user_id = ? AND expires_at <= ?`, userID, nowText); err != nil {
+		if _, err := s.txExec(ctx, tx, `DELETE FROM leases WHERE user_id = ? AND expires_at <= ?`, userID, nowText); err != nil {
 			return err
 		}
 		pairID = 0
 		if goldRate > 0 && rand.Float64() < goldRate {
-			err = tx.QueryRowContext(ctx, goldPairSQL, projectID, userID, batch.Int64).Scan(&pairID)
+			err = s.txRow(ctx, tx, goldPairSQL, projectID, userID, batch.Int64).Scan(&pairID)
 			if err != nil && !errors.Is(err, sql.ErrNoRows) {
 				return err
 			}
 		}
 		a, b := seeds(userID)
 		if pairID == 0 && batch.Valid {
-			err = tx.QueryRowContext(ctx, batchPairSQL, projectID, userID, nowText, needed, a, b, batch.Int64).Scan(&pairID)
+			err = s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, batch.Int64).Scan(&pairID)
 			if err != nil && !errors.Is(err, sql.ErrNoRows) {
 				return err
 			}
 		}
 		if pairID == 0 {
 			var queryID int64
-			err = tx.QueryRowContext(ctx, nextQuerySQL, projectID, userID, nowText, needed).Scan(&queryID)
+			err = s.txRow(ctx, tx, nextQuerySQL, projectID, userID, nowText, needed).Scan(&queryID)
 			if errors.Is(err, sql.ErrNoRows) {
 				return ErrNoWork
 			}
 			if err != nil {
 				return err
 			}
-			if err := tx.QueryRowContext(ctx, batchPairSQL, projectID, userID, nowText, needed, a, b, queryID).Scan(&pairID); err != nil {
+			if err := s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, queryID).Scan(&pairID); err != nil {
 				return err
 			}
-			if _, err := tx.ExecContext(ctx, `INSERT INTO batches(project_id, user_id, query_id, started_at) VALUES (?, ?, ?, ?)
+			if _, err := s.txExec(ctx, tx, `INSERT INTO batches(project_id, user_id, query_id, started_at) VALUES (?, ?, ?, ?)
 				ON CONFLICT (project_id, user_id) DO UPDATE SET query_id = excluded.query_id, started_at = excluded.started_at`,
 				projectID, userID, queryID, nowText); err != nil {
 				return err
 			}
 		}
 		leasedAt = nowText
-		return lease(ctx, tx, pairID, userID, t, leaseSeconds)
+		return s.lease(ctx, tx, pairID, userID, t, leaseSeconds)
 	})
 	if err != nil {
 		return PairView{}, err
@@ -147,8 +147,8 @@ func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView
 }
 
 // lease gives (or renews) a pair to a user from t for the project's lease time.
-func lease(ctx context.Context, tx *sql.Tx, pairID, userID int64, t time.Time, seconds int) error {
-	_, err := tx.ExecContext(ctx, `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?, ?, ?, ?)
+func (s *Store) lease(ctx context.Context, tx *sql.Tx, pairID, userID int64, t time.Time, seconds int) error {
+	_, err := s.txExec(ctx, tx, `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?, ?, ?, ?)
 		ON CONFLICT (pair_id, user_id) DO UPDATE SET leased_at = excluded.leased_at, expires_at = excluded.expires_at`,
 		pairID, userID, timeText(t), timeText(t.Add(time.Duration(seconds)*time.Second)))
 	return err
@@ -157,7 +157,7 @@ func lease(ctx context.Context, tx *sql.Tx, pairID, userID int64, t time.Time, s
 // pairView loads the query and document of a pair.
 func (s *Store) pairView(ctx context.Context, pairID int64) (PairView, error) {
 	var v PairView
-	err := s.r.QueryRowContext(ctx, `SELECT p.id, p.project_id,
+	err := s.readRow(ctx, `SELECT p.id, p.project_id,
 			q.id, q.external_id, q.text, q.need,
 			d.id, d.external_id, d.title, d.url, d.body, d.body_format
 		FROM pairs p JOIN queries q ON q.id = p.query_id JOIN documents d ON d.id = p.document_id
@@ -198,7 +198,7 @@ func (s *Store) ProjectProgress(ctx context.Context, projectID int64) (Progress,
 // JudgingProgress returns the project's current judgments (gold pairs excluded) and how many
 // it needs in all, from the per-query totals: cheap enough for every judging request.
 func (s *Store) JudgingProgress(ctx context.Context, projectID int64) (judged, needed int, err error) {
-	err = s.r.QueryRowContext(ctx, `SELECT COALESCE(SUM(q.judged), 0), COALESCE(SUM(q.pairs), 0) * pr.judgments_per_pair
+	err = s.readRow(ctx, `SELECT COALESCE(SUM(q.judged), 0), COALESCE(SUM(q.pairs), 0) * pr.judgments_per_pair
 		FROM projects pr LEFT JOIN query_progress q ON q.project_id = pr.id WHERE pr.id = ?`, projectID).Scan(&judged, &needed)
 	return judged, needed, err
 }
@@ -206,7 +206,7 @@ func (s *Store) JudgingProgress(ctx context.Context, projectID int64) (judged, n
 // PairProject returns the project a pair belongs to.
 func (s *Store) PairProject(ctx context.Context, pairID int64) (int64, error) {
 	var id int64
-	err := s.r.QueryRowContext(ctx, `SELECT project_id FROM pairs WHERE id = ?`, pairID).Scan(&id)
+	err := s.readRow(ctx, `SELECT project_id FROM pairs WHERE id = ?`, pairID).Scan(&id)
 	if errors.Is(err, sql.ErrNoRows) {
 		return 0, ErrNotFound
 	}

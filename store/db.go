@@ -18,9 +18,11 @@ import (
 
 // Store is an open pertinent database.
 type Store struct {
-	w    *sql.DB // exactly one connection: every write goes through it
-	r    *sql.DB // read-only pool
-	path string
+	w      *sql.DB // exactly one connection: every write goes through it
+	r      *sql.DB // read-only pool
+	path   string
+	wStmts stmtCache
+	rStmts stmtCache
 }
 
 // Open opens (creating if needed) the database file at path and applies pending migrations.
@@ -81,6 +83,8 @@ func (s *Store) Path() string { return s.path }
 
 // Close closes every connection; the WAL is checkpointed by SQLite on the last close.
 func (s *Store) Close() error {
+	s.wStmts.close()
+	s.rStmts.close()
 	var errR error
 	if s.r != nil {
 		errR = s.r.Close()
@@ -103,11 +107,14 @@ func (s *Store) write(ctx context.Context, fn func(tx *sql.Tx) error) error {
 	if err != nil {
 		return err
 	}
-	if err := fn(tx); err != nil {
+	err = fn(tx)
+	if err != nil {
 		tx.Rollback()
-		return err
+	} else {
+		err = tx.Commit()
 	}
-	return tx.Commit()
+	s.wStmts.prepareWanted(context.WithoutCancel(ctx), s.w)
+	return err
 }
 
 // now is the store's clock, as the text form kept in the database.

@@ -74,7 +74,7 @@ func (s *Store) submit(ctx context.Context, sub Submission, revision bool) (Judg
 		var archived, member, allowChanges, adjudicated bool
 		var gold sql.NullInt64
 		var leasedAt sql.NullString
-		err := tx.QueryRowContext(ctx, `SELECT p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
+		err := s.txRow(ctx, tx, `SELECT p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
 				(SELECT COUNT(*) FROM scale_levels l WHERE l.project_id = p.id),
 				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = p.id AND m.user_id = ?2 AND m.role = 'assessor'),
 				(SELECT leased_at FROM leases WHERE pair_id = x.id AND user_id = ?2),
@@ -100,7 +100,7 @@ func (s *Store) submit(ctx context.Context, sub Submission, revision bool) (Judg
 		if sub.TimeSpentMs <= 0 && leasedAt.Valid {
 			sub.TimeSpentMs = int(time.Since(parseTime(leasedAt.String)).Milliseconds())
 		}
-		prev, err := currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
+		prev, err := s.currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
 		if err != nil {
 			return err
 		}
@@ -115,11 +115,11 @@ func (s *Store) submit(ctx context.Context, sub Submission, revision bool) (Judg
 			return errorf(CodeConflict, "this project does not allow changing a judgment once made")
 		}
 		at := now()
-		j, err = insertJudgment(ctx, tx, sub, at)
+		j, err = s.insertJudgment(ctx, tx, sub, at)
 		if err != nil {
 			return err
 		}
-		_, err = tx.ExecContext(ctx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID)
+		_, err = s.txExec(ctx, tx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID)
 		return err
 	})
 	return j, err
@@ -136,7 +136,7 @@ func (s *Store) Undo(ctx context.Context, projectID, userID int64) (Judgment, er
 		var at string
 		var withdrawn, adjudicated bool
 		var leaseSeconds int
-		err := tx.QueryRowContext(ctx, `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
+		err := s.txRow(ctx, tx, `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
 				COALESCE(j.supersedes, 0), j.current, j.withdrawn_at IS NOT NULL, j.created_at,
 				EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1),
 				(SELECT lease_seconds FROM projects WHERE id = ?1)
@@ -160,21 +160,21 @@ func (s *Store) Undo(ctx context.Context, projectID, userID int64) (Judgment, er
 		}
 		j.CreatedAt = parseTime(at)
 		t := time.Now()
-		if _, err := tx.ExecContext(ctx, `UPDATE judgments SET current = 0, withdrawn_at = ? WHERE id = ?`, timeText(t), j.ID); err != nil {
+		if _, err := s.txExec(ctx, tx, `UPDATE judgments SET current = 0, withdrawn_at = ? WHERE id = ?`, timeText(t), j.ID); err != nil {
 			return err
 		}
-		if _, err := tx.ExecContext(ctx, `UPDATE pairs SET judged = judged - 1 WHERE id = ?`, j.PairID); err != nil {
+		if _, err := s.txExec(ctx, tx, `UPDATE pairs SET judged = judged - 1 WHERE id = ?`, j.PairID); err != nil {
 			return err
 		}
 		j.Current, j.Withdrawn = false, true
-		return lease(ctx, tx, j.PairID, userID, t, leaseSeconds)
+		return s.lease(ctx, tx, j.PairID, userID, t, leaseSeconds)
 	})
 	return j, err
 }
 
-func currentJudgmentID(ctx context.Context, tx *sql.Tx, pairID, userID int64) (int64, error) {
+func (s *Store) currentJudgmentID(ctx context.Context, tx *sql.Tx, pairID, userID int64) (int64, error) {
 	var id int64
-	err := tx.QueryRowContext(ctx, `SELECT id FROM judgments WHERE pair_id = ? AND user_id = ? AND current = 1`, pairID, userID).Scan(&id)
+	err := s.txRow(ctx, tx, `SELECT id FROM judgments WHERE pair_id = ? AND user_id = ? AND current = 1`, pairID, userID).Scan(&id)
 	if errors.Is(err, sql.ErrNoRows) {
 		return 0, nil
 	}
@@ -183,13 +183,13 @@ func currentJudgmentID(ctx context.Context, tx *sql.Tx, pairID, userID int64) (i
 
 // insertJudgment appends a judgment as the user's current one for the pair, retiring the
 // previous current row and keeping the pair's count of judgments in step.
-func insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) (Judgment, error) {
-	prev, err := currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
+func (s *Store) insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) (Judgment, error) {
+	prev, err := s.currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
 	if err != nil {
 		return Judgment{}, err
 	}
 	if prev != 0 {
-		if _, err := tx.ExecContext(ctx, `UPDATE judgments SET current = 0 WHERE id = ?`, prev); err != nil {
+		if _, err := s.txExec(ctx, tx, `UPDATE judgments SET current = 0 WHERE id = ?`, prev); err != nil {
 			return Judgment{}, err
 		}
 	}
@@ -200,7 +200,7 @@ func insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) 
 		reason = sub.CannotJudge
 	}
 	var id int64
-	err = tx.QueryRowContext(ctx, `INSERT INTO judgments(pair_id, user_id, grade, cannot_judge, note, time_spent_ms, guideline_id, supersedes, created_at)
+	err = s.txRow(ctx, tx, `INSERT INTO judgments(pair_id, user_id, grade, cannot_judge, note, time_spent_ms, guideline_id, supersedes, created_at)
 		VALUES (?1, ?2, ?3, ?4, ?5, ?6,
 			(SELECT MAX(g.id) FROM guideline_revisions g JOIN pairs x ON x.project_id = g.project_id WHERE x.id = ?1),
 			?7, ?8) RETURNING id`,
@@ -209,7 +209,7 @@ func insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) 
 		return Judgment{}, err
 	}
 	if prev == 0 {
-		if _, err := tx.ExecContext(ctx, `UPDATE pairs SET judged = judged + 1 WHERE id = ?`, sub.PairID); err != nil {
+		if _, err := s.txExec(ctx, tx, `UPDATE pairs SET judged = judged + 1 WHERE id = ?`, sub.PairID); err != nil {
 			return Judgment{}, err
 		}
 	}

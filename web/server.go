@@ -92,6 +92,9 @@ func (s *Server) routes() chi.Router {
 			r.Use(s.loadProject)
 			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/judge", s.judgePage)
 			r.With(s.requireProjectRole(store.RoleAssessor)).Post("/judge", s.judgeSubmit)
+			r.With(s.requireProjectRole(store.RoleAssessor)).Post("/undo", s.judgeUndo)
+			r.With(s.requireProjectRole(store.RoleAssessor)).Get("/mine", s.myWorkPage)
+			r.With(s.requireProjectRole(store.RoleAssessor)).Post("/mine", s.myWorkChange)
 			r.With(s.requireProjectRole(store.RoleLead)).Get("/overview", s.overview)
 		})
 		r.Route("/admin", func(r chi.Router) {
