@@ -73,6 +73,9 @@
     const pair = ev.target;
     if (!pair || pair.id !== "pair") return;
     shownAt = performance.now();
+    // htmx wires the new form up as it settles; do it now, so a key pressed at once is sent
+    // by htmx too rather than as a full-page post.
+    if (window.htmx) window.htmx.process(pair);
     const body = pair.querySelector(".doc-body");
     if (body) body.scrollTop = 0;
     if (pair.getBoundingClientRect().top < 0) pair.scrollIntoView({ block: "start" });
