@@ -4,10 +4,12 @@ import (
 	"context"
 	"database/sql"
 	"errors"
+	"math/rand/v2"
 	"time"
 )
 
-// PairView is everything an assessor sees of a pair while judging it.
+// PairView is everything an assessor sees of a pair while judging it. Nothing in it tells a
+// gold pair from any other.
 type PairView struct {
 	PairID    int64
 	ProjectID int64
@@ -16,28 +18,66 @@ type PairView struct {
 	LeasedAt  time.Time
 }
 
-// openPair is the condition for a pair this assessor may be given: not judged by them, and
-// its judgments plus the live leases of others still short of what the project needs.
-const openPair = `p.project_id = ?1 AND p.gold_grade IS NULL
+// openPair is the condition for a pair this assessor may be given: not gold, not judged by
+// them, and its judgments plus the live leases of others still short of what the project
+// needs. Parameters: ?1 project, ?2 user, ?3 now, ?4 judgments per pair.
+const openPair = `p.gold_grade IS NULL AND p.judged < ?4
 	AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2 AND j.current = 1)
 	AND p.judged + (SELECT COUNT(*) FROM leases l WHERE l.pair_id = p.id AND l.user_id != ?2 AND l.expires_at > ?3) < ?4`
 
-// shuffle orders a query's pairs differently for every assessor, so no document's position
-// in an import decides who sees it first.
-const shuffle = `(p.id * 1103515245 + ?2 * 12345) % 2147483647`
+// shuffle orders a query's pairs differently for every assessor (?5 and ?6 are seeds drawn
+// from the user id), so no document's position in an import decides who sees it first. Two
+// rounds of multiplication modulo primes: the second multiplier differs per assessor, so
+// their orders are different permutations rather than rotations of one.
+const shuffle = `(((p.id * 1103515245 + ?5) % 2147483647) * ?6) % 2147483629`
 
-// NextPair leases the next pair to an assessor. It resumes a live lease first; then it keeps
-// the assessor on the query they were judging until its open pairs run out; then it starts
-// the query with the fewest judgments so far. ErrNoWork means nothing is left for them.
+// Statements of the assignment engine, named so their query plans can be checked.
+const (
+	// CROSS JOIN keeps leases (few per assessor) as the outer loop; unary + keeps the planner
+	// off indexes that would walk a whole project or all of its queries.
+	resumeLeaseSQL = `SELECT l.pair_id, l.leased_at FROM leases l CROSS JOIN pairs p ON p.id = l.pair_id
+		WHERE l.user_id = ?2 AND +p.project_id = ?1 AND l.expires_at > ?3
+		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2 AND j.current = 1)
+		ORDER BY l.leased_at DESC LIMIT 1`
+	batchPairSQL = `SELECT p.id FROM pairs p WHERE p.query_id = ?7 AND +p.project_id = ?1 AND ` + openPair + `
+		ORDER BY p.priority DESC, ` + shuffle + ` LIMIT 1`
+	nextQuerySQL = `SELECT q.query_id FROM query_progress q
+		WHERE q.project_id = ?1 AND +q.pairs > 0
+		AND EXISTS (SELECT 1 FROM pairs p WHERE p.query_id = q.query_id AND ` + openPair + `)
+		ORDER BY q.top_priority DESC, q.coverage, q.query_id LIMIT 1`
+	goldPairSQL = `SELECT p.id FROM pairs p
+		WHERE p.project_id = ?1 AND p.gold_grade IS NOT NULL
+		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2)
+		ORDER BY p.query_id = ?3 DESC, random() LIMIT 1`
+)
+
+// seeds derives the two per-assessor constants of shuffle from the user id.
+func seeds(userID int64) (int64, int64) {
+	a := (userID*2654435761 + 97) % 2147483647
+	b := (userID*40503+1)%2147483628 + 1 // never 0: multiplying by 0 would erase the order
+	return a, b
+}
+
+// NextPair leases the next pair to an assessor. In order: a live lease of theirs (the pair
+// on screen, or one they undid); with probability gold_rate a gold pair they have never
+// judged; the next open pair of their current batch (the query they are working through);
+// else the open query with the highest priority and the fewest judgments per pair so far,
+// which becomes their batch. ErrNoWork means nothing is left for them.
+//
+// Everything runs in one write transaction on the single writer, so two assessors asking at
+// once are served one after the other and a pair is never leased past what it needs.
 func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView, error) {
 	var pairID int64
 	var leasedAt string
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		var needed, leaseSeconds int
+		var goldRate float64
 		var archived, member bool
-		err := tx.QueryRowContext(ctx, `SELECT judgments_per_pair, lease_seconds, archived_at IS NOT NULL,
-				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor')
-			FROM projects WHERE id = ?1`, projectID, userID).Scan(&needed, &leaseSeconds, &archived, &member)
+		var batch sql.NullInt64
+		err := s.txRow(ctx, tx, `SELECT judgments_per_pair, lease_seconds, gold_rate, archived_at IS NOT NULL,
+				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor'),
+				(SELECT query_id FROM batches b WHERE b.project_id = ?1 AND b.user_id = ?2)
+			FROM projects WHERE id = ?1`, projectID, userID).Scan(&needed, &leaseSeconds, &goldRate, &archived, &member, &batch)
 		if errors.Is(err, sql.ErrNoRows) {
 			return ErrNotFound
 		}
@@ -52,40 +92,51 @@ func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView
 		}
 		t := time.Now()
 		nowText := timeText(t)
-		err = tx.QueryRowContext(ctx, `SELECT l.pair_id, l.leased_at FROM leases l JOIN pairs p ON p.id = l.pair_id
-			WHERE p.project_id = ?1 AND l.user_id = ?2 AND l.expires_at > ?3
-			AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2 AND j.current = 1)
-			ORDER BY l.leased_at LIMIT 1`, projectID, userID, nowText).Scan(&pairID, &leasedAt)
+		err = s.txRow(ctx, tx, resumeLeaseSQL, projectID, userID, nowText).Scan(&pairID, &leasedAt)
 		if err == nil {
 			return nil
 		}
 		if !errors.Is(err, sql.ErrNoRows) {
 			return err
 		}
-		args := []any{projectID, userID, nowText, needed}
-		// Stay with the query of this assessor's latest judgment while it has open pairs.
-		err = tx.QueryRowContext(ctx, `SELECT p.id FROM pairs p WHERE `+openPair+`
-			AND p.query_id = (SELECT x.query_id FROM judgments j JOIN pairs x ON x.id = j.pair_id
-				WHERE j.user_id = ?2 AND x.project_id = ?1 ORDER BY j.id DESC LIMIT 1)
-			ORDER BY p.priority DESC, `+shuffle+` LIMIT 1`, args...).Scan(&pairID)
-		if errors.Is(err, sql.ErrNoRows) {
-			err = tx.QueryRowContext(ctx, `SELECT p.id FROM pairs p
-				JOIN (SELECT query_id, SUM(judged) AS coverage, MAX(priority) AS top FROM pairs WHERE project_id = ?1 GROUP BY query_id) q
-					ON q.query_id = p.query_id
-				WHERE `+openPair+`
-				ORDER BY q.top DESC, q.coverage, p.query_id, p.priority DESC, `+shuffle+` LIMIT 1`, args...).Scan(&pairID)
-		}
-		if errors.Is(err, sql.ErrNoRows) {
-			return ErrNoWork
-		}
-		if err != nil {
+		// Expired leases of this assessor are of no further use; dropping them keeps the table small.
+		if _, err := s.txExec(ctx, tx, `DELETE FROM leases WHERE user_id = ? AND expires_at <= ?`, userID, nowText); err != nil {
 			return err
 		}
+		pairID = 0
+		if goldRate > 0 && rand.Float64() < goldRate {
+			err = s.txRow(ctx, tx, goldPairSQL, projectID, userID, batch.Int64).Scan(&pairID)
+			if err != nil && !errors.Is(err, sql.ErrNoRows) {
+				return err
+			}
+		}
+		a, b := seeds(userID)
+		if pairID == 0 && batch.Valid {
+			err = s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, batch.Int64).Scan(&pairID)
+			if err != nil && !errors.Is(err, sql.ErrNoRows) {
+				return err
+			}
+		}
+		if pairID == 0 {
+			var queryID int64
+			err = s.txRow(ctx, tx, nextQuerySQL, projectID, userID, nowText, needed).Scan(&queryID)
+			if errors.Is(err, sql.ErrNoRows) {
+				return ErrNoWork
+			}
+			if err != nil {
+				return err
+			}
+			if err := s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, queryID).Scan(&pairID); err != nil {
+				return err
+			}
+			if _, err := s.txExec(ctx, tx, `INSERT INTO batches(project_id, user_id, query_id, started_at) VALUES (?, ?, ?, ?)
+				ON CONFLICT (project_id, user_id) DO UPDATE SET query_id = excluded.query_id, started_at = excluded.started_at`,
+				projectID, userID, queryID, nowText); err != nil {
+				return err
+			}
+		}
 		leasedAt = nowText
-		_, err = tx.ExecContext(ctx, `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?, ?, ?, ?)
-			ON CONFLICT (pair_id, user_id) DO UPDATE SET leased_at = excluded.leased_at, expires_at = excluded.expires_at`,
-			pairID, userID, nowText, timeText(t.Add(time.Duration(leaseSeconds)*time.Second)))
-		return err
+		return s.lease(ctx, tx, pairID, userID, t, leaseSeconds)
 	})
 	if err != nil {
 		return PairView{}, err
@@ -95,10 +146,18 @@ func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView
 	return v, err
 }
 
+// lease gives (or renews) a pair to a user from t for the project's lease time.
+func (s *Store) lease(ctx context.Context, tx *sql.Tx, pairID, userID int64, t time.Time, seconds int) error {
+	_, err := s.txExec(ctx, tx, `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?, ?, ?, ?)
+		ON CONFLICT (pair_id, user_id) DO UPDATE SET leased_at = excluded.leased_at, expires_at = excluded.expires_at`,
+		pairID, userID, timeText(t), timeText(t.Add(time.Duration(seconds)*time.Second)))
+	return err
+}
+
 // pairView loads the query and document of a pair.
 func (s *Store) pairView(ctx context.Context, pairID int64) (PairView, error) {
 	var v PairView
-	err := s.r.QueryRowContext(ctx, `SELECT p.id, p.project_id,
+	err := s.readRow(ctx, `SELECT p.id, p.project_id,
 			q.id, q.external_id, q.text, q.need,
 			d.id, d.external_id, d.title, d.url, d.body, d.body_format
 		FROM pairs p JOIN queries q ON q.id = p.query_id JOIN documents d ON d.id = p.document_id
@@ -121,7 +180,8 @@ type Progress struct {
 	Needed     int
 }
 
-// ProjectProgress counts the project's pairs by how far their judging has come.
+// ProjectProgress counts the project's pairs by how far their judging has come. It reads
+// every pair, so it serves the lead's overview; JudgingProgress is the cheap total.
 func (s *Store) ProjectProgress(ctx context.Context, projectID int64) (Progress, error) {
 	var p Progress
 	err := s.r.QueryRowContext(ctx, `SELECT COUNT(x.id),
@@ -135,10 +195,18 @@ func (s *Store) ProjectProgress(ctx context.Context, projectID int64) (Progress,
 	return p, err
 }
 
+// JudgingProgress returns the project's current judgments (gold pairs excluded) and how many
+// it needs in all, from the per-query totals: cheap enough for every judging request.
+func (s *Store) JudgingProgress(ctx context.Context, projectID int64) (judged, needed int, err error) {
+	err = s.readRow(ctx, `SELECT COALESCE(SUM(q.judged), 0), COALESCE(SUM(q.pairs), 0) * pr.judgments_per_pair
+		FROM projects pr LEFT JOIN query_progress q ON q.project_id = pr.id WHERE pr.id = ?`, projectID).Scan(&judged, &needed)
+	return judged, needed, err
+}
+
 // PairProject returns the project a pair belongs to.
 func (s *Store) PairProject(ctx context.Context, pairID int64) (int64, error) {
 	var id int64
-	err := s.r.QueryRowContext(ctx, `SELECT project_id FROM pairs WHERE id = ?`, pairID).Scan(&id)
+	err := s.readRow(ctx, `SELECT project_id FROM pairs WHERE id = ?`, pairID).Scan(&id)
 	if errors.Is(err, sql.ErrNoRows) {
 		return 0, ErrNotFound
 	}

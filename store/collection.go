@@ -29,6 +29,7 @@ type Document struct {
 // everything given to one Load call is stored, or nothing is.
 type Loader struct {
 	ctx     context.Context
+	s       *Store
 	tx      *sql.Tx
 	project int64
 	query   *sql.Stmt
@@ -39,7 +40,7 @@ type Loader struct {
 // Load runs fn with a Loader for the project and commits when fn returns nil.
 func (s *Store) Load(ctx context.Context, projectID int64, fn func(*Loader) error) error {
 	return s.write(ctx, func(tx *sql.Tx) error {
-		l := &Loader{ctx: ctx, tx: tx, project: projectID}
+		l := &Loader{ctx: ctx, s: s, tx: tx, project: projectID}
 		var err error
 		if l.query, err = tx.PrepareContext(ctx, `INSERT INTO queries(project_id, external_id, text, need) VALUES (?, ?, ?, ?)
 			ON CONFLICT (project_id, external_id) DO UPDATE SET text = excluded.text, need = excluded.need RETURNING id`); err != nil {
@@ -121,7 +122,7 @@ func (l *Loader) Judgment(j RecordedJudgment) error {
 	if at == "" {
 		at = now()
 	}
-	_, err := insertJudgment(l.ctx, l.tx, Submission{PairID: j.PairID, UserID: j.UserID, Grade: j.Grade,
+	_, err := l.s.insertJudgment(l.ctx, l.tx, Submission{PairID: j.PairID, UserID: j.UserID, Grade: j.Grade,
 		CannotJudge: j.CannotJudge, Note: j.Note, TimeSpentMs: j.TimeSpentMs}, at)
 	return err
 }

@@ -19,10 +19,12 @@ import (
 
 // Store is an open pertinent database.
 type Store struct {
-	w    *sql.DB // exactly one connection: every write goes through it
-	r    *sql.DB // read-only pool
-	path string
-	skew atomic.Int64 // nanoseconds added to the clock that expiring links are judged by
+	w      *sql.DB // exactly one connection: every write goes through it
+	r      *sql.DB // read-only pool
+	path   string
+	wStmts stmtCache
+	rStmts stmtCache
+	skew   atomic.Int64 // nanoseconds added to the clock that expiring links are judged by
 
 	desks deskCache // the lead's figures per project, keyed by project_versions
 }
@@ -85,6 +87,8 @@ func (s *Store) Path() string { return s.path }
 
 // Close closes every connection; the WAL is checkpointed by SQLite on the last close.
 func (s *Store) Close() error {
+	s.wStmts.close()
+	s.rStmts.close()
 	var errR error
 	if s.r != nil {
 		errR = s.r.Close()
@@ -107,11 +111,14 @@ func (s *Store) write(ctx context.Context, fn func(tx *sql.Tx) error) error {
 	if err != nil {
 		return err
 	}
-	if err := fn(tx); err != nil {
+	err = fn(tx)
+	if err != nil {
 		tx.Rollback()
-		return err
+	} else {
+		err = tx.Commit()
 	}
-	return tx.Commit()
+	s.wStmts.prepareWanted(context.WithoutCancel(ctx), s.w)
+	return err
 }
 
 // AdvanceClock moves the clock that one-time password links are judged by; tests use it to

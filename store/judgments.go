@@ -45,8 +45,20 @@ type Judgment struct {
 }
 
 // Submit records a judgment. A second answer by the same assessor supersedes the first
-// (kept in history); a pair that already has all the judgments it needs refuses newcomers.
+// (kept in history) while the project allows changes and no lead has adjudicated the pair; a
+// pair that already has all the judgments it needs refuses newcomers.
 func (s *Store) Submit(ctx context.Context, sub Submission) (Judgment, error) {
+	return s.submit(ctx, sub, false)
+}
+
+// Revise changes an assessor's current judgment of a pair: the new answer supersedes it and
+// the history stays. It refuses when there is nothing to change, when the project does not
+// allow changes, or once a lead has adjudicated the pair.
+func (s *Store) Revise(ctx context.Context, sub Submission) (Judgment, error) {
+	return s.submit(ctx, sub, true)
+}
+
+func (s *Store) submit(ctx context.Context, sub Submission, revision bool) (Judgment, error) {
 	if (sub.Grade == nil) == (sub.CannotJudge == "") {
 		return Judgment{}, errorf(CodeInvalid, "give either a grade or a reason the pair cannot be judged")
 	}
@@ -59,15 +71,17 @@ func (s *Store) Submit(ctx context.Context, sub Submission) (Judgment, error) {
 	var j Judgment
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		var needed, judged, levels int
-		var archived, member bool
+		var archived, member, allowChanges, adjudicated bool
 		var gold sql.NullInt64
 		var leasedAt sql.NullString
-		err := tx.QueryRowContext(ctx, `SELECT p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
+		err := s.txRow(ctx, tx, `SELECT p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
 				(SELECT COUNT(*) FROM scale_levels l WHERE l.project_id = p.id),
 				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = p.id AND m.user_id = ?2 AND m.role = 'assessor'),
-				(SELECT leased_at FROM leases WHERE pair_id = x.id AND user_id = ?2)
+				(SELECT leased_at FROM leases WHERE pair_id = x.id AND user_id = ?2),
+				p.allow_changes,
+				EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = x.id AND a.current = 1)
 			FROM pairs x JOIN projects p ON p.id = x.project_id WHERE x.id = ?1`, sub.PairID, sub.UserID).
-			Scan(&needed, &judged, &gold, &archived, &levels, &member, &leasedAt)
+			Scan(&needed, &judged, &gold, &archived, &levels, &member, &leasedAt, &allowChanges, &adjudicated)
 		if errors.Is(err, sql.ErrNoRows) {
 			return ErrNotFound
 		}
@@ -86,27 +100,81 @@ func (s *Store) Submit(ctx context.Context, sub Submission) (Judgment, error) {
 		if sub.TimeSpentMs <= 0 && leasedAt.Valid {
 			sub.TimeSpentMs = int(time.Since(parseTime(leasedAt.String)).Milliseconds())
 		}
-		prev, err := currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
+		prev, err := s.currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
 		if err != nil {
 			return err
 		}
-		if prev == 0 && !gold.Valid && judged >= needed {
+		switch {
+		case prev == 0 && revision:
+			return errorf(CodeNotFound, "you have no judgment of this pair to change")
+		case prev == 0 && !gold.Valid && judged >= needed:
 			return errorf(CodeConflict, "this pair has all the judgments it needs")
+		case prev != 0 && adjudicated:
+			return errorf(CodeConflict, "a lead has settled this pair's grade: your judgment can no longer change")
+		case prev != 0 && !allowChanges:
+			return errorf(CodeConflict, "this project does not allow changing a judgment once made")
 		}
 		at := now()
-		j, err = insertJudgment(ctx, tx, sub, at)
+		j, err = s.insertJudgment(ctx, tx, sub, at)
 		if err != nil {
 			return err
 		}
-		_, err = tx.ExecContext(ctx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID)
+		_, err = s.txExec(ctx, tx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID)
 		return err
 	})
 	return j, err
 }
 
-func currentJudgmentID(ctx context.Context, tx *sql.Tx, pairID, userID int64) (int64, error) {
+// Undo withdraws the assessor's latest judgment in the project: the row stays with
+// withdrawn_at set and no longer counts, and the pair is leased back to them so it is the
+// next one they see. Only their own latest judgment can be withdrawn, and not once a lead
+// has adjudicated the pair.
+func (s *Store) Undo(ctx context.Context, projectID, userID int64) (Judgment, error) {
+	var j Judgment
+	err := s.write(ctx, func(tx *sql.Tx) error {
+		var grade sql.NullInt64
+		var at string
+		var withdrawn, adjudicated bool
+		var leaseSeconds int
+		err := s.txRow(ctx, tx, `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
+				COALESCE(j.supersedes, 0), j.current, j.withdrawn_at IS NOT NULL, j.created_at,
+				EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1),
+				(SELECT lease_seconds FROM projects WHERE id = ?1)
+			FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id
+			WHERE j.user_id = ?2 AND +p.project_id = ?1
+			ORDER BY j.id DESC LIMIT 1`, projectID, userID).Scan(&j.ID, &j.PairID, &grade, &j.CannotJudge, &j.Note,
+			&j.TimeSpentMs, &j.Supersedes, &j.Current, &withdrawn, &at, &adjudicated, &leaseSeconds)
+		if errors.Is(err, sql.ErrNoRows) || (err == nil && (withdrawn || !j.Current)) {
+			return errorf(CodeConflict, "there is no judgment to undo")
+		}
+		if err != nil {
+			return err
+		}
+		if adjudicated {
+			return errorf(CodeConflict, "a lead has settled this pair's grade: your judgment can no longer be undone")
+		}
+		j.UserID = userID
+		if grade.Valid {
+			g := int(grade.Int64)
+			j.Grade = &g
+		}
+		j.CreatedAt = parseTime(at)
+		t := time.Now()
+		if _, err := s.txExec(ctx, tx, `UPDATE judgments SET current = 0, withdrawn_at = ? WHERE id = ?`, timeText(t), j.ID); err != nil {
+			return err
+		}
+		if _, err := s.txExec(ctx, tx, `UPDATE pairs SET judged = judged - 1 WHERE id = ?`, j.PairID); err != nil {
+			return err
+		}
+		j.Current, j.Withdrawn = false, true
+		return s.lease(ctx, tx, j.PairID, userID, t, leaseSeconds)
+	})
+	return j, err
+}
+
+func (s *Store) currentJudgmentID(ctx context.Context, tx *sql.Tx, pairID, userID int64) (int64, error) {
 	var id int64
-	err := tx.QueryRowContext(ctx, `SELECT id FROM judgments WHERE pair_id = ? AND user_id = ? AND current = 1`, pairID, userID).Scan(&id)
+	err := s.txRow(ctx, tx, `SELECT id FROM judgments WHERE pair_id = ? AND user_id = ? AND current = 1`, pairID, userID).Scan(&id)
 	if errors.Is(err, sql.ErrNoRows) {
 		return 0, nil
 	}
@@ -115,13 +183,13 @@ func currentJudgmentID(ctx context.Context, tx *sql.Tx, pairID, userID int64) (i
 
 // insertJudgment appends a judgment as the user's current one for the pair, retiring the
 // previous current row and keeping the pair's count of judgments in step.
-func insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) (Judgment, error) {
-	prev, err := currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
+func (s *Store) insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) (Judgment, error) {
+	prev, err := s.currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
 	if err != nil {
 		return Judgment{}, err
 	}
 	if prev != 0 {
-		if _, err := tx.ExecContext(ctx, `UPDATE judgments SET current = 0 WHERE id = ?`, prev); err != nil {
+		if _, err := s.txExec(ctx, tx, `UPDATE judgments SET current = 0 WHERE id = ?`, prev); err != nil {
 			return Judgment{}, err
 		}
 	}
@@ -132,7 +200,7 @@ func insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) 
 		reason = sub.CannotJudge
 	}
 	var id int64
-	err = tx.QueryRowContext(ctx, `INSERT INTO judgments(pair_id, user_id, grade, cannot_judge, note, time_spent_ms, guideline_id, supersedes, created_at)
+	err = s.txRow(ctx, tx, `INSERT INTO judgments(pair_id, user_id, grade, cannot_judge, note, time_spent_ms, guideline_id, supersedes, created_at)
 		VALUES (?1, ?2, ?3, ?4, ?5, ?6,
 			(SELECT MAX(g.id) FROM guideline_revisions g JOIN pairs x ON x.project_id = g.project_id WHERE x.id = ?1),
 			?7, ?8) RETURNING id`,
@@ -141,7 +209,7 @@ func insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, at string) 
 		return Judgment{}, err
 	}
 	if prev == 0 {
-		if _, err := tx.ExecContext(ctx, `UPDATE pairs SET judged = judged + 1 WHERE id = ?`, sub.PairID); err != nil {
+		if _, err := s.txExec(ctx, tx, `UPDATE pairs SET judged = judged + 1 WHERE id = ?`, sub.PairID); err != nil {
 			return Judgment{}, err
 		}
 	}

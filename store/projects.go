@@ -124,7 +124,7 @@ func scanProject(row interface{ Scan(...any) error }) (Project, error) {
 
 // Project looks a project up by id.
 func (s *Store) Project(ctx context.Context, id int64) (Project, error) {
-	return scanProject(s.r.QueryRowContext(ctx, `SELECT `+projectColumns+` FROM projects WHERE id = ?`, id))
+	return scanProject(s.readRow(ctx, `SELECT `+projectColumns+` FROM projects WHERE id = ?`, id))
 }
 
 // ProjectByName looks a project up by its unique name.
@@ -207,7 +207,7 @@ type Guidelines struct {
 // CurrentGuidelines returns the newest guidelines revision of a project.
 func (s *Store) CurrentGuidelines(ctx context.Context, projectID int64) (Guidelines, error) {
 	var g Guidelines
-	err := s.r.QueryRowContext(ctx, `SELECT id, body FROM guideline_revisions WHERE project_id = ? ORDER BY id DESC LIMIT 1`, projectID).Scan(&g.ID, &g.Body)
+	err := s.readRow(ctx, `SELECT id, body FROM guideline_revisions WHERE project_id = ? ORDER BY id DESC LIMIT 1`, projectID).Scan(&g.ID, &g.Body)
 	if errors.Is(err, sql.ErrNoRows) {
 		return Guidelines{}, nil
 	}
@@ -249,7 +249,7 @@ func (s *Store) SetMember(ctx context.Context, projectID, userID int64, role Rol
 // MemberRole returns a user's role in a project; ok is false when they are not a member.
 func (s *Store) MemberRole(ctx context.Context, projectID, userID int64) (role Role, ok bool, err error) {
 	var r string
-	err = s.r.QueryRowContext(ctx, `SELECT role FROM project_members WHERE project_id = ? AND user_id = ?`, projectID, userID).Scan(&r)
+	err = s.readRow(ctx, `SELECT role FROM project_members WHERE project_id = ? AND user_id = ?`, projectID, userID).Scan(&r)
 	if errors.Is(err, sql.ErrNoRows) {
 		return "", false, nil
 	}

@@ -45,7 +45,7 @@ func (s *Store) SessionUser(ctx context.Context, token string) (User, error) {
 	if token == "" {
 		return User{}, ErrNotFound
 	}
-	u, err := scanUser(s.r.QueryRowContext(ctx, `SELECT u.id, u.username, u.display_name, u.role, u.disabled_at IS NOT NULL
+	u, err := scanUser(s.readRow(ctx, `SELECT u.id, u.username, u.display_name, u.role, u.disabled_at IS NOT NULL
 		FROM sessions s JOIN users u ON u.id = s.user_id
 		WHERE s.token_hash = ? AND s.expires_at > ? AND u.disabled_at IS NULL`, tokenHash(token), now()))
 	if errors.Is(err, ErrNotFound) {

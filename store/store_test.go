@@ -86,7 +86,7 @@ func fixture(t *testing.T, s *Store, nq, nd, na int) (Project, User, []int64, []
 	if err != nil {
 		t.Fatal(err)
 	}
-	p, err := s.CreateProject(ctx, NewProject{Name: "p", JudgmentsPerPair: 2}, lead.ID)
+	p, err := s.CreateProject(ctx, NewProject{Name: "p", JudgmentsPerPair: 2, AllowChanges: true}, lead.ID)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -157,17 +157,17 @@ func TestSettingsAreSavedAndAudited(t *testing.T) {
 	c := a.signIn("lena")
 	path := fmt.Sprintf("/projects/%d/settings", a.project.ID)
 	res := a.postOK(c, path, url.Values{"name": {"Kettles and jugs"}, "description": {"small appliances"},
-		"judgments_per_pair": {"4"}, "gold_percent": {"2.5"}, "lease_minutes": {"20"}, "allow_changes": {"on"}})
+		"judgments_per_pair": {"4"}, "gold_percent": {"2.5"}, "lease_minutes": {"20"}})
 	if body := a.follow(c, res); !strings.Contains(body, "Settings saved.") {
 		t.Error("the settings page after saving does not say so")
 	}
 	p, _ := a.store.Project(context.Background(), a.project.ID)
 	if p.Name != "Kettles and jugs" || p.Description != "small appliances" || p.JudgmentsPerPair != 4 ||
-		p.GoldRate != 0.025 || p.LeaseSeconds != 1200 || !p.AllowChanges {
+		p.GoldRate != 0.025 || p.LeaseSeconds != 1200 || p.AllowChanges {
 		t.Errorf("saved project = %+v", p)
 	}
 	e := wantAudit(t, a, "project.settings", "lena")
-	if e.ProjectID != a.project.ID || !strings.Contains(e.Detail, "judgments per pair: 3 → 4") || !strings.Contains(e.Detail, "assessors may change grades: false → true") {
+	if e.ProjectID != a.project.ID || !strings.Contains(e.Detail, "judgments per pair: 3 → 4") || !strings.Contains(e.Detail, "assessors may change grades: true → false") {
 		t.Errorf("audit detail %q does not say what changed", e.Detail)
 	}
 	for _, bad := range []url.Values{

@@ -50,7 +50,7 @@ func newTestApp(t *testing.T) *testApp {
 		}
 		a.users[u.name] = user
 	}
-	a.project, err = st.CreateProject(ctx, store.NewProject{Name: "Kettles", Guidelines: "Grade carefully."}, a.users["root"].ID)
+	a.project, err = st.CreateProject(ctx, store.NewProject{Name: "Kettles", Guidelines: "Grade carefully.", AllowChanges: true}, a.users["root"].ID)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"html/template"
 	"net/http"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -40,20 +41,56 @@ func documentBody(d store.Document) template.HTML {
 	return template.HTML(b.String())
 }
 
+// reasonOption is one "cannot judge" reason as offered on the judging screen.
+type reasonOption struct {
+	Value, Label, Key string
+}
+
+// cannotJudgeOptions labels store.CannotJudgeReasons; the key picks the reason while the
+// reasons are open.
+var cannotJudgeOptions = func() []reasonOption {
+	labels := map[string]reasonOption{
+		"broken":     {Label: "Page broken or empty", Key: "b"},
+		"language":   {Label: "Wrong language", Key: "l"},
+		"disturbing": {Label: "Disturbing or unsafe content", Key: "d"},
+		"other":      {Label: "Other reason", Key: "o"},
+	}
+	var out []reasonOption
+	for _, r := range store.CannotJudgeReasons {
+		o := labels[r]
+		if o.Label == "" {
+			o.Label = r
+		}
+		o.Value = r
+		out = append(out, o)
+	}
+	return out
+}()
+
+func reasonLabel(r string) string {
+	for _, o := range cannotJudgeOptions {
+		if o.Value == r {
+			return o.Label
+		}
+	}
+	return r
+}
+
 type judgeData struct {
 	Pair       *store.PairView
 	Body       template.HTML
 	Scale      []store.ScaleLevel
-	Reasons    []string
-	Guidelines string
+	Reasons    []reasonOption
+	Guidelines template.HTML
 	Saved      string
-	Progress   store.Progress
+	Judged     int
+	Needed     int
 }
 
 func (s *Server) judgeData(r *http.Request, saved string) (judgeData, error) {
 	p := currentProject(r)
 	u, _ := currentUser(r)
-	d := judgeData{Saved: saved, Reasons: store.CannotJudgeReasons}
+	d := judgeData{Saved: saved, Reasons: cannotJudgeOptions}
 	var err error
 	if d.Scale, err = s.store.Scale(r.Context(), p.ID); err != nil {
 		return d, err
@@ -62,20 +99,38 @@ func (s *Server) judgeData(r *http.Request, saved string) (judgeData, error) {
 	if err != nil {
 		return d, err
 	}
-	d.Guidelines = g.Body
-	if d.Progress, err = s.store.ProjectProgress(r.Context(), p.ID); err != nil {
-		return d, err
-	}
+	d.Guidelines = renderMarkdown(g.Body)
 	pair, err := s.store.NextPair(r.Context(), p.ID, u.ID)
-	if errors.Is(err, store.ErrNoWork) {
-		return d, nil
-	}
-	if err != nil {
+	if err != nil && !errors.Is(err, store.ErrNoWork) {
 		return d, err
 	}
-	d.Pair = &pair
-	d.Body = documentBody(pair.Document)
+	if err == nil {
+		d.Pair = &pair
+		d.Body = documentBody(pair.Document)
+	}
+	// Read after leasing, so the bar includes the judgment just made.
+	if d.Judged, d.Needed, err = s.store.JudgingProgress(r.Context(), p.ID); err != nil {
+		return d, err
+	}
 	return d, nil
+}
+
+// savedMessages turns the redirect's ?saved= code into the status line of the next page; only
+// these fixed codes are accepted, so the URL cannot put text on the page.
+func savedMessage(code string, levels int) string {
+	switch {
+	case code == "undo":
+		return "Undone: your last judgment was withdrawn and its pair is back."
+	case strings.HasPrefix(code, "x-"):
+		if r := strings.TrimPrefix(code, "x-"); slices.Contains(store.CannotJudgeReasons, r) {
+			return "Saved: cannot judge (" + r + ")."
+		}
+	default:
+		if g, err := strconv.Atoi(code); err == nil && g >= 0 && g < levels {
+			return fmt.Sprintf("Saved: grade %d.", g)
+		}
+	}
+	return ""
 }
 
 func (s *Server) judgePage(w http.ResponseWriter, r *http.Request) {
@@ -84,28 +139,87 @@ func (s *Server) judgePage(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
+	d.Saved = savedMessage(r.URL.Query().Get("saved"), len(d.Scale))
 	s.render(w, r, http.StatusOK, "judge", "", s.newView(r, "Judging: "+currentProject(r).Name, d))
 }
 
-// judgeSubmit stores one judgment. With htmx it answers with the next pair's fragment;
-// without JavaScript it redirects to the judging page, which leases the next pair.
+// judgeSubmit stores one judgment. With htmx it answers with the next pair's fragment (one
+// request: submit and next); without JavaScript it redirects to the judging page, which
+// leases the next pair.
 func (s *Server) judgeSubmit(w http.ResponseWriter, r *http.Request) {
+	sub, ok := s.parseSubmission(w, r)
+	if !ok {
+		return
+	}
+	j, err := s.store.Submit(r.Context(), sub)
+	htmx := r.Header.Get("HX-Request") == "true"
+	if err != nil {
+		// A pair whose lease ran out may have filled up meanwhile: say so and move on.
+		if htmx && store.ErrorCode(err) == store.CodeConflict {
+			s.renderNext(w, r, "Not saved: "+err.Error()+".")
+			return
+		}
+		s.storeError(w, r, err)
+		return
+	}
+	code, saved := "x-"+j.CannotJudge, "Saved: cannot judge ("+j.CannotJudge+")."
+	if j.Grade != nil {
+		code, saved = strconv.Itoa(*j.Grade), fmt.Sprintf("Saved: grade %d.", *j.Grade)
+	}
+	if !htmx {
+		http.Redirect(w, r, fmt.Sprintf("/projects/%d/judge?saved=%s", currentProject(r).ID, code), http.StatusSeeOther)
+		return
+	}
+	s.renderNext(w, r, saved)
+}
+
+// judgeUndo withdraws the assessor's latest judgment; the pair comes back as the next one.
+func (s *Server) judgeUndo(w http.ResponseWriter, r *http.Request) {
+	u, _ := currentUser(r)
+	if _, err := s.store.Undo(r.Context(), currentProject(r).ID, u.ID); err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	if r.Header.Get("HX-Request") != "true" {
+		http.Redirect(w, r, fmt.Sprintf("/projects/%d/judge?saved=undo", currentProject(r).ID), http.StatusSeeOther)
+		return
+	}
+	s.renderNext(w, r, savedMessage("undo", 0))
+}
+
+// renderNext answers an htmx request with the status line and the next pair.
+func (s *Server) renderNext(w http.ResponseWriter, r *http.Request, saved string) {
+	d, err := s.judgeData(r, saved)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	s.render(w, r, http.StatusOK, "judge", "swap", s.newView(r, "", d))
+}
+
+// parseSubmission reads a judging form: the pair (which must belong to the project in the
+// path), a grade or a reason, a note, and the time measured on the page.
+func (s *Server) parseSubmission(w http.ResponseWriter, r *http.Request) (store.Submission, bool) {
 	u, _ := currentUser(r)
 	pairID, err := strconv.ParseInt(r.PostFormValue("pair"), 10, 64)
 	if err != nil {
 		s.fail(w, r, http.StatusBadRequest, "The form did not say which pair it judges.")
-		return
+		return store.Submission{}, false
 	}
 	sub := store.Submission{PairID: pairID, UserID: u.ID, Note: strings.TrimSpace(r.PostFormValue("note"))}
-	if g := r.PostFormValue("grade"); g != "" {
-		n, err := strconv.Atoi(g)
+	answer := r.PostFormValue("grade")
+	if answer == "" && r.PostFormValue("cannot_judge") != "" {
+		answer = "x-" + r.PostFormValue("cannot_judge")
+	}
+	if reason, ok := strings.CutPrefix(answer, "x-"); ok {
+		sub.CannotJudge = reason
+	} else if answer != "" {
+		n, err := strconv.Atoi(answer)
 		if err != nil {
 			s.fail(w, r, http.StatusBadRequest, "The grade must be a whole number.")
-			return
+			return store.Submission{}, false
 		}
 		sub.Grade = &n
-	} else {
-		sub.CannotJudge = r.PostFormValue("cannot_judge")
 	}
 	// Time measured on the page is preferred; implausible values fall back to the lease clock.
 	if ms, err := strconv.Atoi(r.PostFormValue("elapsed_ms")); err == nil && ms > 0 && ms < 24*3600*1000 {
@@ -113,25 +227,7 @@ func (s *Server) judgeSubmit(w http.ResponseWriter, r *http.Request) {
 	}
 	if pv, err := s.store.PairProject(r.Context(), pairID); err != nil || pv != currentProject(r).ID {
 		s.fail(w, r, http.StatusNotFound, "That pair is not part of this project.")
-		return
+		return store.Submission{}, false
 	}
-	j, err := s.store.Submit(r.Context(), sub)
-	if err != nil {
-		s.storeError(w, r, err)
-		return
-	}
-	saved := "Saved: cannot judge (" + j.CannotJudge + ")."
-	if j.Grade != nil {
-		saved = fmt.Sprintf("Saved: grade %d.", *j.Grade)
-	}
-	if r.Header.Get("HX-Request") != "true" {
-		http.Redirect(w, r, fmt.Sprintf("/projects/%d/judge?saved=%d", currentProject(r).ID, j.ID), http.StatusSeeOther)
-		return
-	}
-	d, err := s.judgeData(r, saved)
-	if err != nil {
-		s.storeError(w, r, err)
-		return
-	}
-	s.render(w, r, http.StatusOK, "judge", "pair", s.newView(r, "", d))
+	return sub, true
 }

@@ -127,6 +127,13 @@ type overviewData struct {
 	CSVDays     string
 	PairsWithJ  int
 	GeneratedIn string
+	// FlaggedPairs lists pairs answered "cannot judge", disturbing ones first; never who flagged.
+	FlaggedPairs []flaggedRow
+}
+
+type flaggedRow struct {
+	store.FlaggedPair
+	ReasonLabel string
 }
 
 func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
@@ -166,6 +173,14 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 		Replicates: d.BootstrapCount, Background: d.Background(),
 		CSVFigures: csvURL(r, "figures"), CSVDays: csvURL(r, "days"),
 		GeneratedIn: d.BuildTook.Round(time.Millisecond).String(),
+	}
+	flagged, err := s.store.FlaggedPairs(r.Context(), currentProject(r).ID, 100)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	for _, f := range flagged {
+		data.FlaggedPairs = append(data.FlaggedPairs, flaggedRow{FlaggedPair: f, ReasonLabel: reasonLabel(f.Reason)})
 	}
 	labels := make([]string, len(d.PerDay))
 	counts := make([]int, len(d.PerDay))

@@ -28,6 +28,12 @@ var funcs = template.FuncMap{
 		return part * 100 / whole
 	},
 	"add": func(a, b int) int { return a + b },
+	"deref": func(p *int) int {
+		if p == nil {
+			return 0
+		}
+		return *p
+	},
 }
 
 func loadPages() (*pages, error) {

@@ -1,5 +1,8 @@
-// Keyboard-first judging: digits grade the pair on screen. The page works without this
-// file; it only adds keys and measures the time spent on each pair.
+// Keyboard-first judging. The pages work without this file; it adds the keys, measures the
+// time spent on each pair, and keeps focus and the status line sensible across htmx swaps.
+//   0-9  grade the pair on screen (and go on)     x  cannot judge: opens the reasons,
+//   b l d o  pick a reason while they are open    u  undo the last judgment
+//   n    focus the note (Esc leaves it)           g  show or hide the guidelines
 (function () {
   "use strict";
   let shownAt = performance.now();
@@ -8,15 +11,49 @@
     return el && (el.tagName === "TEXTAREA" || el.tagName === "INPUT" || el.tagName === "SELECT" || el.isContentEditable);
   }
 
-  document.addEventListener("keydown", function (ev) {
-    if (ev.ctrlKey || ev.metaKey || ev.altKey || typing(ev.target)) return;
-    if (/^[0-9]$/.test(ev.key)) {
-      const button = document.querySelector('#pair button[name="grade"][value="' + ev.key + '"]');
-      if (button) {
-        ev.preventDefault();
-        button.click();
-      }
+  function toggle(details, focusSelector) {
+    if (!details) return;
+    details.open = !details.open;
+    if (details.open && focusSelector) {
+      const target = details.querySelector(focusSelector);
+      if (target) target.focus();
     }
+  }
+
+  document.addEventListener("keydown", function (ev) {
+    if (ev.ctrlKey || ev.metaKey || ev.altKey) return;
+    if (typing(ev.target)) {
+      if (ev.key === "Escape") {
+        ev.preventDefault();
+        ev.target.blur();
+      }
+      return;
+    }
+    const pair = document.getElementById("pair");
+    if (!pair) return;
+    const cannot = document.getElementById("cannot");
+    let handled = true;
+    if (/^[0-9]$/.test(ev.key)) {
+      const button = pair.querySelector('button[name="grade"][value="' + ev.key + '"]');
+      if (button) button.click(); else handled = false;
+    } else if (ev.key === "x") {
+      toggle(cannot, "button");
+    } else if (cannot && cannot.open && pair.querySelector('button[data-key="' + ev.key + '"]')) {
+      pair.querySelector('button[data-key="' + ev.key + '"]').click();
+    } else if (ev.key === "u") {
+      const undo = document.getElementById("undo");
+      if (undo) undo.click(); else handled = false;
+    } else if (ev.key === "n") {
+      const note = document.getElementById("note");
+      if (note) note.focus(); else handled = false;
+    } else if (ev.key === "g") {
+      toggle(document.getElementById("guidelines"), ".guidelines-body");
+    } else if (ev.key === "Escape") {
+      if (cannot && cannot.open) cannot.open = false; else handled = false;
+    } else {
+      handled = false;
+    }
+    if (handled) ev.preventDefault();
   });
 
   // Stamp the time spent just before the form goes, whichever way it is sent.
@@ -29,11 +66,30 @@
       ev.detail.parameters.elapsed_ms = String(Math.round(performance.now() - shownAt));
     }
   });
+
+  // A fresh pair: restart the clock, show its top, and put focus on the query so a screen
+  // reader starts reading there (the status line has announced what was saved).
   document.addEventListener("htmx:afterSwap", function (ev) {
-    if (ev.detail.target && ev.detail.target.id === "pair") {
-      shownAt = performance.now();
-      const body = document.querySelector("#pair .doc-body");
-      if (body) body.scrollTop = 0;
-    }
+    const pair = ev.target;
+    if (!pair || pair.id !== "pair") return;
+    shownAt = performance.now();
+    // htmx wires the new form up as it settles; do it now, so a key pressed at once is sent
+    // by htmx too rather than as a full-page post.
+    if (window.htmx) window.htmx.process(pair);
+    const body = pair.querySelector(".doc-body");
+    if (body) body.scrollTop = 0;
+    if (pair.getBoundingClientRect().top < 0) pair.scrollIntoView({ block: "start" });
+    const query = document.getElementById("query-text");
+    if (query) query.focus({ preventScroll: true });
+  });
+
+  // Refusals (a pair that filled up, a change no longer allowed) go to the status line
+  // instead of vanishing.
+  document.addEventListener("htmx:responseError", function (ev) {
+    const status = document.getElementById("status") || document.querySelector(".saved[role=status]");
+    if (!status) return;
+    const box = document.createElement("div");
+    box.innerHTML = ev.detail.xhr.responseText;
+    status.textContent = box.textContent.trim() || "That did not work; please try again.";
   });
 })();

@@ -1,0 +1,77 @@
+package web
+
+import (
+	"fmt"
+	"net/http"
+	"time"
+
+	"github.com/pertinent/pertinent/store"
+)
+
+// myWorkData is an assessor's own recent judgments: nothing of anyone else's.
+type myWorkData struct {
+	Judgments    []store.MyJudgment
+	Scale        []store.ScaleLevel
+	Reasons      []reasonOption
+	Today        int
+	Overall      int
+	Judged       int
+	Needed       int
+	AllowChanges bool
+	Status       string
+}
+
+func (s *Server) myWorkData(r *http.Request, status string) (myWorkData, error) {
+	p := currentProject(r)
+	u, _ := currentUser(r)
+	d := myWorkData{Reasons: cannotJudgeOptions, AllowChanges: p.AllowChanges, Status: status}
+	var err error
+	if d.Judgments, err = s.store.MyJudgments(r.Context(), p.ID, u.ID, 100); err != nil {
+		return d, err
+	}
+	if d.Scale, err = s.store.Scale(r.Context(), p.ID); err != nil {
+		return d, err
+	}
+	y, m, day := time.Now().Date()
+	if d.Today, d.Overall, err = s.store.MyCounts(r.Context(), p.ID, u.ID, time.Date(y, m, day, 0, 0, 0, 0, time.Local)); err != nil {
+		return d, err
+	}
+	d.Judged, d.Needed, err = s.store.JudgingProgress(r.Context(), p.ID)
+	return d, err
+}
+
+func (s *Server) myWorkPage(w http.ResponseWriter, r *http.Request) {
+	status := ""
+	if r.URL.Query().Get("changed") == "1" {
+		status = "Your judgment was changed; the earlier answer stays in its history."
+	}
+	d, err := s.myWorkData(r, status)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	s.render(w, r, http.StatusOK, "mine", "", s.newView(r, "My work: "+currentProject(r).Name, d))
+}
+
+// myWorkChange replaces one of the assessor's judgments with a new answer (a revision).
+func (s *Server) myWorkChange(w http.ResponseWriter, r *http.Request) {
+	sub, ok := s.parseSubmission(w, r)
+	if !ok {
+		return
+	}
+	sub.TimeSpentMs = 0 // a change is not timed: no lease clock runs for it
+	if _, err := s.store.Revise(r.Context(), sub); err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	if r.Header.Get("HX-Request") != "true" {
+		http.Redirect(w, r, fmt.Sprintf("/projects/%d/mine?changed=1", currentProject(r).ID), http.StatusSeeOther)
+		return
+	}
+	d, err := s.myWorkData(r, "Your judgment was changed; the earlier answer stays in its history.")
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	s.render(w, r, http.StatusOK, "mine", "mywork", s.newView(r, "", d))
+}
