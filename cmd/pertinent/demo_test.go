@@ -115,3 +115,39 @@ func TestUserCommand(t *testing.T) {
 		t.Error("an unknown role was accepted")
 	}
 }
+
+func TestProjectCommand(t *testing.T) {
+	store.SetPasswordCost(bcrypt.MinCost)
+	ctx := context.Background()
+	db := filepath.Join(t.TempDir(), "p.db")
+	var out, errb bytes.Buffer
+	for _, args := range [][]string{
+		{"user", "add", "--db", db, "--role", "assessor", "oona"},
+		{"project", "create", "--db", db, "--name", "Lamp search", "--judgments", "2"},
+		{"project", "add", "--db", db, "--project", "Lamp search", "--user", "oona"},
+		{"project", "list", "--db", db},
+	} {
+		if err := run(ctx, args, &out, &errb); err != nil {
+			t.Fatalf("%v: %v %s", args, err, errb.String())
+		}
+	}
+	if !strings.Contains(out.String(), "Lamp search") || !strings.Contains(out.String(), "oona is now assessor") {
+		t.Errorf("output: %s", out.String())
+	}
+	st, err := store.Open(ctx, db)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	p, err := st.ProjectByName(ctx, "Lamp search")
+	if err != nil || p.JudgmentsPerPair != 2 {
+		t.Fatalf("project %+v, %v", p, err)
+	}
+	u, _ := st.UserByUsername(ctx, "oona")
+	if role, ok, _ := st.MemberRole(ctx, p.ID, u.ID); !ok || role != store.RoleAssessor {
+		t.Errorf("oona's role %q, member %v", role, ok)
+	}
+	if err := run(ctx, []string{"project", "add", "--db", db, "--project", "Lamp search", "--user", "nobody"}, &out, &errb); err == nil {
+		t.Error("adding an unknown account succeeded")
+	}
+}

@@ -1,0 +1,84 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"text/tabwriter"
+
+	"github.com/pertinent/pertinent/store"
+)
+
+// runProject manages projects from the command line, for installations scripted end to end;
+// the browser's Project settings and Team pages do the same through the same store.
+func runProject(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	const help = "usage: pertinent project create|list|add [flags]"
+	if len(args) == 0 {
+		return errors.New(help)
+	}
+	verb := args[0]
+	fs := newFlags("project "+verb, stderr)
+	db := dbFlag(fs, "pertinent.db")
+	var name, description, user, role *string
+	var needed *int
+	switch verb {
+	case "create":
+		name = fs.String("name", "", "project name (required)")
+		description = fs.String("description", "", "short description")
+		needed = fs.Int("judgments", 3, "judgments needed per pair")
+	case "add":
+		name = fs.String("project", "", "project name (required)")
+		user = fs.String("user", "", "username (required)")
+		role = fs.String("role", "assessor", "assessor or lead")
+	case "list":
+	default:
+		return errors.New(help)
+	}
+	if err := fs.Parse(args[1:]); err != nil {
+		return err
+	}
+	st, err := store.Open(ctx, *db)
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	switch verb {
+	case "create":
+		p, err := st.CreateProject(ctx, store.NewProject{Name: *name, Description: *description,
+			JudgmentsPerPair: *needed, AllowChanges: true}, 0)
+		if err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "created project %q (id %d) with the default 0-4 scale\n", p.Name, p.ID)
+	case "add":
+		p, err := st.ProjectByName(ctx, *name)
+		if err != nil {
+			return fmt.Errorf("no project named %q", *name)
+		}
+		u, err := st.UserByUsername(ctx, *user)
+		if err != nil {
+			return fmt.Errorf("no account named %q", *user)
+		}
+		if err := st.SetMember(ctx, p.ID, u.ID, store.Role(*role), 0); err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "%s is now %s of %q\n", u.Username, *role, p.Name)
+	case "list":
+		ps, err := st.AllProjects(ctx)
+		if err != nil {
+			return err
+		}
+		tw := tabwriter.NewWriter(stdout, 0, 4, 2, ' ', 0)
+		fmt.Fprintln(tw, "ID\tNAME\tJUDGMENTS/PAIR\tSTATE")
+		for _, p := range ps {
+			state := "open"
+			if p.Archived {
+				state = "archived"
+			}
+			fmt.Fprintf(tw, "%d\t%s\t%d\t%s\n", p.ID, p.Name, p.JudgmentsPerPair, state)
+		}
+		return tw.Flush()
+	}
+	return nil
+}
