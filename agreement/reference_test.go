@@ -1,25 +1,14 @@
 package agreement
 
 import (
-	"os"
-	"os/exec"
 	"testing"
+
+	"github.com/pertinent/pertinent/internal/reference"
 )
 
-// refPython is the Debian interpreter that has sklearn and statsmodels.
-const refPython = "/usr/bin/python3"
-
-// needReference returns the interpreter path, or skips (fails under CI=true)
-// when sklearn and statsmodels are not importable.
+// needReference returns the interpreter that has sklearn and statsmodels, failing under
+// CI=true and skipping elsewhere when it does not.
 func needReference(t testing.TB) string {
 	t.Helper()
-	out, err := exec.Command(refPython, "-c", "import sklearn, statsmodels").CombinedOutput()
-	if err != nil {
-		msg := "reference libraries unavailable (" + refPython + " with sklearn and statsmodels; apt install python3-sklearn python3-statsmodels): " + err.Error() + ": " + string(out)
-		if os.Getenv("CI") == "true" {
-			t.Fatal(msg)
-		}
-		t.Skip(msg)
-	}
-	return refPython
+	return reference.RequirePython(t, "sklearn, statsmodels")
 }

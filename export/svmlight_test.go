@@ -10,6 +10,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"github.com/pertinent/pertinent/internal/reference"
 )
 
 func writeSVM(t *testing.T, rows []Row, opt SVMlightOptions) (string, *QIDMap) {
@@ -223,7 +225,7 @@ for i in range(X.shape[0]):
                  "val": [float(v) for v in X.data[s:e]]})
 print(json.dumps(rows))
 `
-	out := runPython(t, "sklearn", script, []byte(path+"\n"))
+	out := reference.RunPython(t, "sklearn", script, []byte(path+"\n"))
 	var got []struct {
 		Y   float64   `json:"y"`
 		QID int       `json:"qid"`

@@ -6,6 +6,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/pertinent/pertinent/internal/reference"
 )
 
 // TestNDCGLinearMatchesSklearn checks NDCG with linear gain against
@@ -85,7 +87,7 @@ for s in json.load(sys.stdin):
 print(json.dumps(out))
 `
 	var want []float64
-	if err := json.Unmarshal(runPython(t, "sklearn", script, in), &want); err != nil {
+	if err := json.Unmarshal(reference.RunPython(t, "sklearn", script, in), &want); err != nil {
 		t.Fatal(err)
 	}
 	if len(want) != len(cases) {
@@ -136,7 +138,7 @@ print(json.dumps({"ttest": tt, "beta": [float(special.betainc(a, b, x)) for a, b
 		TTest [][2]float64 `json:"ttest"`
 		Beta  []float64    `json:"beta"`
 	}
-	if err := json.Unmarshal(runPython(t, "scipy", script, in), &want); err != nil {
+	if err := json.Unmarshal(reference.RunPython(t, "scipy", script, in), &want); err != nil {
 		t.Fatal(err)
 	}
 	for i, s := range sets {

@@ -11,11 +11,8 @@ import (
 	"testing"
 
 	"github.com/pertinent/pertinent/export"
+	"github.com/pertinent/pertinent/internal/reference"
 )
-
-// refPython is Debian's interpreter, which has the reference libraries; the python3 on PATH
-// may be another one.
-const refPython = "/usr/bin/python3"
 
 // sklearnRoundTrip loads each file with sklearn.datasets.load_svmlight_file(path,
 // query_id=True) and prints labels, qids and dense rows as JSON, values as repr() strings so
@@ -36,13 +33,7 @@ print(json.dumps(out))
 // the files back with scikit-learn's reader: labels, query ids (through the qid map) and
 // feature values must equal what the database holds.
 func TestSVMlightRoundTripThroughSklearn(t *testing.T) {
-	if err := exec.Command(refPython, "-c", "import sklearn").Run(); err != nil {
-		msg := refPython + " with sklearn is needed for this reference check (Debian python3-sklearn): " + err.Error()
-		if os.Getenv("CI") == "true" {
-			t.Fatal(msg)
-		}
-		t.Skip(msg)
-	}
+	refPython := reference.RequirePython(t, "sklearn")
 	f := newExportFixture(t)
 	policy := export.LabelPolicy{AdjudicationFirst: true, Consensus: export.ConsensusMedian}
 	dir, _ := exportTo(t, f, ExportRequest{Policy: policy, Format: FormatSVMlight,

@@ -9,7 +9,6 @@ import (
 	"time"
 )
 
-
 // checkQueryProgress compares the trigger-kept per-query totals with a fresh count.
 func checkQueryProgress(t *testing.T, s *Store) {
 	t.Helper()
