@@ -28,6 +28,8 @@ var funcs = template.FuncMap{
 		return part * 100 / whole
 	},
 	"add": func(a, b int) int { return a + b },
+	// wellFormed balances sanitised HTML shown inside a page (document bodies).
+	"wellFormed": wellFormed,
 	"deref": func(p *int) int {
 		if p == nil {
 			return 0
