@@ -48,7 +48,13 @@ func (s *Server) signin(w http.ResponseWriter, r *http.Request) {
 			return
 		}
 		s.throttle.failed(account, addr)
-		s.log.InfoContext(r.Context(), "sign-in refused", "username", username, "address", addr)
+		// What was typed as a username is logged only when it names an account: people
+		// type their password into the username field, and the log must never hold one.
+		logged := "(no such account)"
+		if known, err := s.store.UserByUsername(r.Context(), username); err == nil {
+			logged = known.Username
+		}
+		s.log.InfoContext(r.Context(), "sign-in refused", "username", logged, "address", addr)
 		data.Error = "Wrong username or password."
 		s.render(w, r, http.StatusUnauthorized, "signin", "", s.newView(r, "Sign in", data))
 		return
@@ -83,6 +89,7 @@ func (s *Server) signout(w http.ResponseWriter, r *http.Request) {
 	}
 	sess.Values = map[any]any{}
 	sess.Options.MaxAge = -1
+	sess.Options.Secure = s.opts.SecureCookies || r.TLS != nil
 	sess.Save(r, w)
 	http.Redirect(w, r, "/signin", http.StatusSeeOther)
 }

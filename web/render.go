@@ -28,6 +28,8 @@ var funcs = template.FuncMap{
 		return part * 100 / whole
 	},
 	"add": func(a, b int) int { return a + b },
+	// wellFormed balances sanitised HTML shown inside a page (document bodies).
+	"wellFormed": wellFormed,
 	"deref": func(p *int) int {
 		if p == nil {
 			return 0
@@ -142,9 +144,12 @@ func (s *Server) storeError(w http.ResponseWriter, r *http.Request, err error) {
 
 func urlQueryEscape(s string) string { return url.QueryEscape(s) }
 
-// localPath accepts only a path on this site as a redirect target.
+// localPath accepts only a path on this site as a redirect target. Browsers drop tabs and
+// line breaks from a URL and read a backslash as a slash, so "/\t/host" and "/\\host" would
+// leave the site: control characters are refused anywhere.
 func localPath(p string) string {
-	if p == "" || !strings.HasPrefix(p, "/") || strings.HasPrefix(p, "//") || strings.HasPrefix(p, "/\\") {
+	if p == "" || !strings.HasPrefix(p, "/") || strings.HasPrefix(p, "//") || strings.HasPrefix(p, "/\\") ||
+		strings.ContainsFunc(p, func(r rune) bool { return r < 0x20 || r == 0x7f }) {
 		return "/"
 	}
 	return p

@@ -77,7 +77,7 @@ func (s *Server) Router() chi.Router { return s.router }
 
 func (s *Server) routes() chi.Router {
 	r := chi.NewRouter()
-	r.Use(middleware.RealIP, s.logRequests, middleware.Recoverer, securityHeaders)
+	r.Use(clientIP, s.logRequests, middleware.Recoverer, securityHeaders)
 	r.Use(crossOriginProtection().Handler)
 	r.Use(s.loadUser)
 
