@@ -21,6 +21,7 @@ type serverFlags struct {
 	db       *string
 	secure   *bool
 	logLevel *string
+	pprof    *string
 }
 
 func addServerFlags(fs *flag.FlagSet, defaultDB string) serverFlags {
@@ -29,6 +30,7 @@ func addServerFlags(fs *flag.FlagSet, defaultDB string) serverFlags {
 		db:       dbFlag(fs, defaultDB),
 		secure:   fs.Bool("secure-cookies", envBool("PERTINENT_SECURE_COOKIES", false), "mark session cookies Secure, for use behind a TLS-terminating proxy (env PERTINENT_SECURE_COOKIES)"),
 		logLevel: fs.String("log-level", env("PERTINENT_LOG_LEVEL", "info"), "debug, info, warn or error (env PERTINENT_LOG_LEVEL)"),
+		pprof:    fs.String("pprof", env("PERTINENT_PPROF", ""), "serve Go's profiler (net/http/pprof) on this loopback address, apart from the site; off when empty (env PERTINENT_PPROF)"),
 	}
 }
 
@@ -69,6 +71,14 @@ func serve(ctx context.Context, st *store.Store, f serverFlags, log *slog.Logger
 	ln, err := net.Listen("tcp", *f.addr)
 	if err != nil {
 		return err
+	}
+	if *f.pprof != "" {
+		stop, err := servePprof(*f.pprof, log)
+		if err != nil {
+			ln.Close()
+			return err
+		}
+		defer stop()
 	}
 	srv := &http.Server{
 		Handler:           h,
