@@ -176,7 +176,15 @@ func (s *Store) ProjectsFor(ctx context.Context, u User) ([]ProjectListing, erro
 
 // Scale returns a project's grade levels in grade order.
 func (s *Store) Scale(ctx context.Context, projectID int64) ([]ScaleLevel, error) {
-	return scaleOf(ctx, s.r, projectID)
+	return scaleOf(ctx, readerFunc(s.readRows), projectID)
+}
+
+// readerFunc lets the reader pool's prepared statements (readRows) serve scaleOf: the scale
+// is read on every judging request, and parsing its statement each time showed in profiles.
+type readerFunc func(ctx context.Context, q string, args ...any) (*sql.Rows, error)
+
+func (f readerFunc) QueryContext(ctx context.Context, q string, args ...any) (*sql.Rows, error) {
+	return f(ctx, q, args...)
 }
 
 func scaleOf(ctx context.Context, q interface {

@@ -44,6 +44,8 @@ type Server struct {
 	cookies  *sessions.CookieStore
 	throttle *throttle
 	router   chi.Router
+
+	guidelines guidelinesCache // rendered guidelines by revision (markdown.go)
 }
 
 // New builds a Server over an open store.
