@@ -41,10 +41,19 @@ const (
 		ORDER BY l.leased_at DESC LIMIT 1`
 	batchPairSQL = `SELECT p.id FROM pairs p WHERE p.query_id = ?7 AND +p.project_id = ?1 AND ` + openPair + `
 		ORDER BY p.priority DESC, ` + shuffle + ` LIMIT 1`
-	nextQuerySQL = `SELECT q.query_id FROM query_progress q
+	nextQuerySQL = `SELECT q.query_id, q.top_priority, q.coverage FROM query_progress q
 		WHERE q.project_id = ?1 AND +q.pairs > 0
 		AND EXISTS (SELECT 1 FROM pairs p WHERE p.query_id = q.query_id AND ` + openPair + `)
 		ORDER BY q.top_priority DESC, q.coverage, q.query_id LIMIT 1`
+	// Spreading assessors over equally ranked queries (spreadQuery): whether others hold
+	// leases in the query, the last query of its rank, and the first open one from a point on.
+	contendedSQL = `SELECT EXISTS (SELECT 1 FROM pairs p JOIN leases l ON l.pair_id = p.id
+		WHERE p.query_id = ?1 AND l.user_id != ?2 AND l.expires_at > ?3)`
+	rankEndSQL     = `SELECT MAX(q.query_id) FROM query_progress q WHERE q.project_id = ?1 AND q.top_priority = ?2 AND q.coverage = ?3`
+	spreadQuerySQL = `SELECT q.query_id FROM query_progress q
+		WHERE q.project_id = ?1 AND q.top_priority = ?8 AND q.coverage = ?9 AND q.query_id >= ?10 AND +q.pairs > 0
+		AND EXISTS (SELECT 1 FROM pairs p WHERE p.query_id = q.query_id AND ` + openPair + `)
+		ORDER BY q.query_id LIMIT 1`
 	goldPairSQL = `SELECT p.id FROM pairs p
 		WHERE p.project_id = ?1 AND p.gold_grade IS NOT NULL
 		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2)
@@ -133,12 +142,16 @@ func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID in
 		}
 	}
 	if pairID == 0 {
-		var queryID int64
-		err = s.txRow(ctx, tx, nextQuerySQL, projectID, userID, nowText, needed).Scan(&queryID)
+		var queryID, priority int64
+		var coverage float64
+		err = s.txRow(ctx, tx, nextQuerySQL, projectID, userID, nowText, needed).Scan(&queryID, &priority, &coverage)
 		if errors.Is(err, sql.ErrNoRows) {
 			return 0, "", ErrNoWork
 		}
 		if err != nil {
+			return 0, "", err
+		}
+		if queryID, err = s.spreadQuery(ctx, tx, projectID, userID, nowText, needed, queryID, priority, coverage); err != nil {
 			return 0, "", err
 		}
 		if err := s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, queryID).Scan(&pairID); err != nil {
@@ -151,6 +164,32 @@ func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID in
 		}
 	}
 	return pairID, nowText, s.lease(ctx, tx, pairID, userID, t, leaseSeconds)
+}
+
+// spreadQuery picks the query a new batch starts on, given the first open query of the best
+// rank (priority, then coverage). When others are already working that query, a query of
+// the same rank from a random point on is taken instead: otherwise every assessor starting
+// a batch piles onto the same query, exhausts it within a few pairs and has to look for a
+// new batch on nearly every request, which under load was the largest cost of the writer.
+// All three statements walk query_progress_order.
+func (s *Store) spreadQuery(ctx context.Context, tx *sql.Tx, projectID, userID int64, nowText string, needed int,
+	first, priority int64, coverage float64) (int64, error) {
+	var contended bool
+	if err := s.txRow(ctx, tx, contendedSQL, first, userID, nowText).Scan(&contended); err != nil || !contended {
+		return first, err
+	}
+	var end int64
+	if err := s.txRow(ctx, tx, rankEndSQL, projectID, priority, coverage).Scan(&end); err != nil || end <= first {
+		return first, err
+	}
+	a, b := seeds(userID)
+	from := first + 1 + rand.Int64N(end-first)
+	var q int64
+	err := s.txRow(ctx, tx, spreadQuerySQL, projectID, userID, nowText, needed, a, b, 0, priority, coverage, from).Scan(&q)
+	if errors.Is(err, sql.ErrNoRows) {
+		return first, nil
+	}
+	return q, err
 }
 
 // lease gives (or renews) a pair to a user from t for the project's lease time.
