@@ -1,6 +1,7 @@
 package web
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
 	"html/template"
@@ -8,6 +9,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 
 	"github.com/microcosm-cc/bluemonday"
 
@@ -81,6 +83,7 @@ type judgeData struct {
 	Body       template.HTML
 	Scale      []store.ScaleLevel
 	Reasons    []reasonOption
+	Controls   template.HTML // the grade and reason buttons, from Scale and Reasons
 	Guidelines template.HTML
 	Saved      string
 	Judged     int
@@ -96,6 +99,9 @@ func (s *Server) judgeData(r *http.Request, saved string, withGuidelines bool, t
 	d := judgeData{Saved: saved, Reasons: cannotJudgeOptions}
 	var err error
 	if d.Scale, err = s.store.Scale(r.Context(), p.ID); err != nil {
+		return d, err
+	}
+	if d.Controls, err = s.judgeControls(d.Scale); err != nil {
 		return d, err
 	}
 	if withGuidelines {
@@ -125,6 +131,40 @@ func (s *Server) judgeData(r *http.Request, saved string, withGuidelines bool, t
 		return d, err
 	}
 	return d, nil
+}
+
+// controlsCache keeps the judging form's buttons by the scale they show. Executing the two
+// ranges through html/template's escapers was a tenth of the CPU time of a judging request;
+// the key is the scale's full text, so an edited scale renders afresh.
+type controlsCache struct {
+	mu sync.Mutex
+	m  map[string]template.HTML
+}
+
+func (s *Server) judgeControls(scale []store.ScaleLevel) (template.HTML, error) {
+	var key strings.Builder
+	for _, l := range scale {
+		fmt.Fprintf(&key, "%d\x00%s\x00%s\x00", l.Grade, l.Label, l.Description)
+	}
+	c := &s.controls
+	c.mu.Lock()
+	h, ok := c.m[key.String()]
+	c.mu.Unlock()
+	if ok {
+		return h, nil
+	}
+	var buf bytes.Buffer
+	if err := s.pages.set["judge"].ExecuteTemplate(&buf, "controls", judgeData{Scale: scale, Reasons: cannotJudgeOptions}); err != nil {
+		return "", err
+	}
+	h = template.HTML(buf.String())
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.m == nil || len(c.m) >= 256 {
+		c.m = map[string]template.HTML{} // scales in use are few; start over rather than grow
+	}
+	c.m[key.String()] = h
+	return h, nil
 }
 
 // savedMessages turns the redirect's ?saved= code into the status line of the next page; only

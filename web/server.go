@@ -46,6 +46,7 @@ type Server struct {
 	router   chi.Router
 
 	guidelines guidelinesCache // rendered guidelines by revision (markdown.go)
+	controls   controlsCache   // the judging form's buttons by scale (judge.go)
 }
 
 // New builds a Server over an open store.
