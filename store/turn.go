@@ -59,11 +59,8 @@ func (s *Store) SubmitAndNext(ctx context.Context, projectID int64, sub Submissi
 		if err != nil {
 			return err
 		}
-		if err := s.txRow(ctx, tx, `SELECT judgments_per_pair FROM projects WHERE id = ?`, projectID).Scan(&perPair); err != nil {
-			return err
-		}
-		after, err = s.projectVersion(ctx, tx, projectID)
-		return err
+		return s.txRow(ctx, tx, `SELECT judgments_per_pair, COALESCE((SELECT version FROM project_versions WHERE project_id = ?1), 0)
+			FROM projects WHERE id = ?1`, projectID).Scan(&perPair, &after)
 	}, func() {
 		delta := 0
 		if counted {
