@@ -4,6 +4,7 @@ import (
 	"context"
 	"database/sql"
 	"errors"
+	"fmt"
 	"sync"
 )
 
@@ -126,7 +127,7 @@ func (s *Store) runBatch(first *groupRequest) {
 		r := batch[i]
 		errs[i], fatal = s.runSavepoint(ctx, tx, r)
 		// Take what queued while this one ran: the busier the writer, the larger the batch.
-		if i == len(batch)-1 && len(batch) < groupMax {
+		if fatal == nil && i == len(batch)-1 && len(batch) < groupMax {
 			select {
 			case next := <-g.queue:
 				batch = append(batch, next)
@@ -162,7 +163,7 @@ func (s *Store) runSavepoint(ctx context.Context, tx *sql.Tx, r *groupRequest) (
 	if _, err := s.txExec(ctx, tx, `SAVEPOINT request`); err != nil {
 		return err, err
 	}
-	if err = r.fn(context.WithoutCancel(r.ctx), tx); err != nil {
+	if err = runRequest(r, tx); err != nil {
 		if _, rerr := s.txExec(ctx, tx, `ROLLBACK TO request`); rerr != nil {
 			return err, rerr
 		}
@@ -171,6 +172,17 @@ func (s *Store) runSavepoint(ctx context.Context, tx *sql.Tx, r *groupRequest) (
 		return err, rerr
 	}
 	return err, nil
+}
+
+// runRequest runs a request's function; a panic becomes its error, as the writer goroutine
+// must outlive any one request (a handler's panic is caught per request, too).
+func runRequest(r *groupRequest, tx *sql.Tx) (err error) {
+	defer func() {
+		if p := recover(); p != nil {
+			err = fmt.Errorf("store: write panicked: %v", p)
+		}
+	}()
+	return r.fn(context.WithoutCancel(r.ctx), tx)
 }
 
 func (g *groupWriter) close() {

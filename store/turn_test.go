@@ -206,3 +206,43 @@ func TestJudgingProgressCacheFollowsOtherWrites(t *testing.T) {
 }
 
 func waitABit() { time.Sleep(time.Millisecond) }
+
+// A request that panics is answered with an error, its writes are rolled back, and the writer
+// goes on serving the next request.
+func TestGroupedPanicIsContained(t *testing.T) {
+	s := openTest(t)
+	ctx := context.Background()
+	if _, err := s.w.ExecContext(ctx, `CREATE TABLE probe (n INTEGER NOT NULL)`); err != nil {
+		t.Fatal(err)
+	}
+	err := s.grouped(ctx, func(ctx context.Context, tx *sql.Tx) error {
+		if _, err := tx.ExecContext(ctx, `INSERT INTO probe(n) VALUES (1)`); err != nil {
+			return err
+		}
+		panic("broken request")
+	}, nil)
+	if err == nil {
+		t.Fatal("a panicking request reported success")
+	}
+	err = s.grouped(ctx, func(ctx context.Context, tx *sql.Tx) error {
+		_, err := tx.ExecContext(ctx, `INSERT INTO probe(n) VALUES (2)`)
+		return err
+	}, nil)
+	if err != nil {
+		t.Fatalf("the request after a panic: %v", err)
+	}
+	var ns []int
+	rows, err := s.r.QueryContext(ctx, `SELECT n FROM probe ORDER BY n`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for rows.Next() {
+		var n int
+		rows.Scan(&n)
+		ns = append(ns, n)
+	}
+	rows.Close()
+	if fmt.Sprint(ns) != "[2]" {
+		t.Errorf("probe holds %v, want only the second request's row [2]", ns)
+	}
+}
