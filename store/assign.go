@@ -41,10 +41,19 @@ const (
 		ORDER BY l.leased_at DESC LIMIT 1`
 	batchPairSQL = `SELECT p.id FROM pairs p WHERE p.query_id = ?7 AND +p.project_id = ?1 AND ` + openPair + `
 		ORDER BY p.priority DESC, ` + shuffle + ` LIMIT 1`
-	nextQuerySQL = `SELECT q.query_id FROM query_progress q
+	nextQuerySQL = `SELECT q.query_id, q.top_priority, q.coverage FROM query_progress q
 		WHERE q.project_id = ?1 AND +q.pairs > 0
 		AND EXISTS (SELECT 1 FROM pairs p WHERE p.query_id = q.query_id AND ` + openPair + `)
 		ORDER BY q.top_priority DESC, q.coverage, q.query_id LIMIT 1`
+	// Spreading assessors over equally ranked queries (spreadQuery): whether others hold
+	// leases in the query, the last query of its rank, and the first open one from a point on.
+	contendedSQL = `SELECT EXISTS (SELECT 1 FROM pairs p JOIN leases l ON l.pair_id = p.id
+		WHERE p.query_id = ?1 AND l.user_id != ?2 AND l.expires_at > ?3)`
+	rankEndSQL     = `SELECT MAX(q.query_id) FROM query_progress q WHERE q.project_id = ?1 AND q.top_priority = ?2 AND q.coverage = ?3`
+	spreadQuerySQL = `SELECT q.query_id FROM query_progress q
+		WHERE q.project_id = ?1 AND q.top_priority = ?8 AND q.coverage = ?9 AND q.query_id >= ?10 AND +q.pairs > 0
+		AND EXISTS (SELECT 1 FROM pairs p WHERE p.query_id = q.query_id AND ` + openPair + `)
+		ORDER BY q.query_id LIMIT 1`
 	goldPairSQL = `SELECT p.id FROM pairs p
 		WHERE p.project_id = ?1 AND p.gold_grade IS NOT NULL
 		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2)
@@ -64,86 +73,123 @@ func seeds(userID int64) (int64, int64) {
 // else the open query with the highest priority and the fewest judgments per pair so far,
 // which becomes their batch. ErrNoWork means nothing is left for them.
 //
-// Everything runs in one write transaction on the single writer, so two assessors asking at
-// once are served one after the other and a pair is never leased past what it needs.
+// Everything runs in one write transaction on the single writer (through the group commit),
+// so two assessors asking at once are served one after the other and a pair is never leased
+// past what it needs.
 func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView, error) {
 	var pairID int64
 	var leasedAt string
-	err := s.write(ctx, func(tx *sql.Tx) error {
-		var needed, leaseSeconds int
-		var goldRate float64
-		var archived, member bool
-		var batch sql.NullInt64
-		err := s.txRow(ctx, tx, `SELECT judgments_per_pair, lease_seconds, gold_rate, archived_at IS NOT NULL,
-				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor'),
-				(SELECT query_id FROM batches b WHERE b.project_id = ?1 AND b.user_id = ?2)
-			FROM projects WHERE id = ?1`, projectID, userID).Scan(&needed, &leaseSeconds, &goldRate, &archived, &member, &batch)
-		if errors.Is(err, sql.ErrNoRows) {
-			return ErrNotFound
-		}
-		if err != nil {
-			return err
-		}
-		if !member {
-			return errorf(CodeDenied, "only the project's assessors are given pairs to judge")
-		}
-		if archived {
-			return ErrNoWork
-		}
-		t := time.Now()
-		nowText := timeText(t)
-		err = s.txRow(ctx, tx, resumeLeaseSQL, projectID, userID, nowText).Scan(&pairID, &leasedAt)
-		if err == nil {
-			return nil
-		}
-		if !errors.Is(err, sql.ErrNoRows) {
-			return err
-		}
-		// Expired leases of this assessor are of no further use; dropping them keeps the table small.
-		if _, err := s.txExec(ctx, tx, `DELETE FROM leases WHERE user_id = ? AND expires_at <= ?`, userID, nowText); err != nil {
-			return err
-		}
-		pairID = 0
-		if goldRate > 0 && rand.Float64() < goldRate {
-			err = s.txRow(ctx, tx, goldPairSQL, projectID, userID, batch.Int64).Scan(&pairID)
-			if err != nil && !errors.Is(err, sql.ErrNoRows) {
-				return err
-			}
-		}
-		a, b := seeds(userID)
-		if pairID == 0 && batch.Valid {
-			err = s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, batch.Int64).Scan(&pairID)
-			if err != nil && !errors.Is(err, sql.ErrNoRows) {
-				return err
-			}
-		}
-		if pairID == 0 {
-			var queryID int64
-			err = s.txRow(ctx, tx, nextQuerySQL, projectID, userID, nowText, needed).Scan(&queryID)
-			if errors.Is(err, sql.ErrNoRows) {
-				return ErrNoWork
-			}
-			if err != nil {
-				return err
-			}
-			if err := s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, queryID).Scan(&pairID); err != nil {
-				return err
-			}
-			if _, err := s.txExec(ctx, tx, `INSERT INTO batches(project_id, user_id, query_id, started_at) VALUES (?, ?, ?, ?)
-				ON CONFLICT (project_id, user_id) DO UPDATE SET query_id = excluded.query_id, started_at = excluded.started_at`,
-				projectID, userID, queryID, nowText); err != nil {
-				return err
-			}
-		}
-		leasedAt = nowText
-		return s.lease(ctx, tx, pairID, userID, t, leaseSeconds)
-	})
+	err := s.grouped(ctx, func(ctx context.Context, tx *sql.Tx) error {
+		var err error
+		pairID, leasedAt, err = s.nextPairTx(ctx, tx, projectID, userID)
+		return err
+	}, nil)
 	if err != nil {
 		return PairView{}, err
 	}
 	v, err := s.pairView(ctx, pairID)
 	v.LeasedAt = parseTime(leasedAt)
 	return v, err
+}
+
+// nextPairTx is NextPair inside the caller's write transaction.
+func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID int64) (pairID int64, leasedAt string, err error) {
+	var needed, leaseSeconds int
+	var goldRate float64
+	var archived, member bool
+	var batch sql.NullInt64
+	err = s.txRow(ctx, tx, `SELECT judgments_per_pair, lease_seconds, gold_rate, archived_at IS NOT NULL,
+			EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor'),
+			(SELECT query_id FROM batches b WHERE b.project_id = ?1 AND b.user_id = ?2)
+		FROM projects WHERE id = ?1`, projectID, userID).Scan(&needed, &leaseSeconds, &goldRate, &archived, &member, &batch)
+	if errors.Is(err, sql.ErrNoRows) {
+		return 0, "", ErrNotFound
+	}
+	if err != nil {
+		return 0, "", err
+	}
+	if !member {
+		return 0, "", errorf(CodeDenied, "only the project's assessors are given pairs to judge")
+	}
+	if archived {
+		return 0, "", ErrNoWork
+	}
+	t := time.Now()
+	nowText := timeText(t)
+	err = s.txRow(ctx, tx, resumeLeaseSQL, projectID, userID, nowText).Scan(&pairID, &leasedAt)
+	if err == nil {
+		return pairID, leasedAt, nil
+	}
+	if !errors.Is(err, sql.ErrNoRows) {
+		return 0, "", err
+	}
+	// Expired leases of this assessor are of no further use; dropping them keeps the table small.
+	if _, err := s.txExec(ctx, tx, `DELETE FROM leases WHERE user_id = ? AND expires_at <= ?`, userID, nowText); err != nil {
+		return 0, "", err
+	}
+	pairID = 0
+	if goldRate > 0 && rand.Float64() < goldRate {
+		err = s.txRow(ctx, tx, goldPairSQL, projectID, userID, batch.Int64).Scan(&pairID)
+		if err != nil && !errors.Is(err, sql.ErrNoRows) {
+			return 0, "", err
+		}
+	}
+	a, b := seeds(userID)
+	if pairID == 0 && batch.Valid {
+		err = s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, batch.Int64).Scan(&pairID)
+		if err != nil && !errors.Is(err, sql.ErrNoRows) {
+			return 0, "", err
+		}
+	}
+	if pairID == 0 {
+		var queryID, priority int64
+		var coverage float64
+		err = s.txRow(ctx, tx, nextQuerySQL, projectID, userID, nowText, needed).Scan(&queryID, &priority, &coverage)
+		if errors.Is(err, sql.ErrNoRows) {
+			return 0, "", ErrNoWork
+		}
+		if err != nil {
+			return 0, "", err
+		}
+		if queryID, err = s.spreadQuery(ctx, tx, projectID, userID, nowText, needed, queryID, priority, coverage); err != nil {
+			return 0, "", err
+		}
+		if err := s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, queryID).Scan(&pairID); err != nil {
+			return 0, "", err
+		}
+		if _, err := s.txExec(ctx, tx, `INSERT INTO batches(project_id, user_id, query_id, started_at) VALUES (?, ?, ?, ?)
+			ON CONFLICT (project_id, user_id) DO UPDATE SET query_id = excluded.query_id, started_at = excluded.started_at`,
+			projectID, userID, queryID, nowText); err != nil {
+			return 0, "", err
+		}
+	}
+	return pairID, nowText, s.lease(ctx, tx, pairID, userID, t, leaseSeconds)
+}
+
+// spreadQuery picks the query a new batch starts on, given the first open query of the best
+// rank (priority, then coverage). When others are already working that query, a query of
+// the same rank from a random point on is taken instead: otherwise every assessor starting
+// a batch piles onto the same query, exhausts it within a few pairs and has to look for a
+// new batch on nearly every request, which under load was the largest cost of the writer.
+// All three statements walk query_progress_order.
+func (s *Store) spreadQuery(ctx context.Context, tx *sql.Tx, projectID, userID int64, nowText string, needed int,
+	first, priority int64, coverage float64) (int64, error) {
+	var contended bool
+	if err := s.txRow(ctx, tx, contendedSQL, first, userID, nowText).Scan(&contended); err != nil || !contended {
+		return first, err
+	}
+	var end int64
+	if err := s.txRow(ctx, tx, rankEndSQL, projectID, priority, coverage).Scan(&end); err != nil || end <= first {
+		return first, err
+	}
+	a, b := seeds(userID)
+	from := first + 1 + rand.Int64N(end-first)
+	var q int64
+	err := s.txRow(ctx, tx, spreadQuerySQL, projectID, userID, nowText, needed, a, b, 0, priority, coverage, from).Scan(&q)
+	if errors.Is(err, sql.ErrNoRows) {
+		return first, nil
+	}
+	return q, err
 }
 
 // lease gives (or renews) a pair to a user from t for the project's lease time.
@@ -193,14 +239,6 @@ func (s *Store) ProjectProgress(ctx context.Context, projectID int64) (Progress,
 		FROM projects pr LEFT JOIN pairs x ON x.project_id = pr.id AND x.gold_grade IS NULL
 		WHERE pr.id = ?`, projectID).Scan(&p.Pairs, &p.Done, &p.InProgress, &p.Untouched, &p.Judgments, &p.Needed)
 	return p, err
-}
-
-// JudgingProgress returns the project's current judgments (gold pairs excluded) and how many
-// it needs in all, from the per-query totals: cheap enough for every judging request.
-func (s *Store) JudgingProgress(ctx context.Context, projectID int64) (judged, needed int, err error) {
-	err = s.readRow(ctx, `SELECT COALESCE(SUM(q.judged), 0), COALESCE(SUM(q.pairs), 0) * pr.judgments_per_pair
-		FROM projects pr LEFT JOIN query_progress q ON q.project_id = pr.id WHERE pr.id = ?`, projectID).Scan(&judged, &needed)
-	return judged, needed, err
 }
 
 // PairProject returns the project a pair belongs to.

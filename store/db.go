@@ -27,6 +27,9 @@ type Store struct {
 	skew   atomic.Int64 // nanoseconds added to the clock that expiring links are judged by
 
 	desks deskCache // the lead's figures per project, keyed by project_versions
+
+	group    groupWriter   // group commit of the judging path (group.go)
+	progress progressCache // judging progress per project, keyed by project_versions
 }
 
 // Open opens (creating if needed) the database file at path and applies pending migrations.
@@ -60,6 +63,7 @@ func Open(ctx context.Context, path string) (*Store, error) {
 	r.SetMaxOpenConns(n)
 	r.SetMaxIdleConns(n)
 	s.r = r
+	s.startGroup()
 	return s, nil
 }
 
@@ -87,6 +91,7 @@ func (s *Store) Path() string { return s.path }
 
 // Close closes every connection; the WAL is checkpointed by SQLite on the last close.
 func (s *Store) Close() error {
+	s.group.close()
 	s.wStmts.close()
 	s.rStmts.close()
 	var errR error

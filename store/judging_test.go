@@ -319,8 +319,12 @@ func TestAssignmentPlansUseIndexes(t *testing.T) {
 
 func checkPlans(t *testing.T, s *Store) {
 	t.Helper()
-	for name, q := range map[string]string{"resume": resumeLeaseSQL, "batch": batchPairSQL, "next query": nextQuerySQL, "gold": goldPairSQL} {
-		rows, err := s.r.Query(`EXPLAIN QUERY PLAN `+q, 1, 2, "2026-01-01T00:00:00.000Z", 3, 5, 6, 1)
+	for name, q := range map[string]string{"resume": resumeLeaseSQL, "batch": batchPairSQL, "next query": nextQuerySQL, "gold": goldPairSQL, "spread": spreadQuerySQL} {
+		args := []any{1, 2, "2026-01-01T00:00:00.000Z", 3, 5, 6, 1}
+		if name == "spread" {
+			args = append(args, 0, 0.0, 1)
+		}
+		rows, err := s.r.Query(`EXPLAIN QUERY PLAN `+q, args...)
 		if err != nil {
 			t.Fatalf("%s: %v", name, err)
 		}
@@ -338,9 +342,37 @@ func checkPlans(t *testing.T, s *Store) {
 				t.Errorf("%s plan walks a whole table, project or assessor history: %q\n%s", name, step, strings.Join(plan, "\n"))
 			}
 		}
-		if name == "next query" && strings.Contains(strings.Join(plan, "\n"), "TEMP B-TREE") {
+		if (name == "next query" || name == "spread") && strings.Contains(strings.Join(plan, "\n"), "TEMP B-TREE") {
 			t.Errorf("next query sorts every query of the project instead of walking query_progress_order:\n%s", strings.Join(plan, "\n"))
 		}
 		t.Logf("%s:\n  %s", name, strings.Join(plan, "\n  "))
+	}
+}
+
+// Assessors starting batches at once are spread over equally ranked queries rather than all
+// piling onto the first: the first one takes query A (the lowest id, nobody on it), the rest,
+// finding it worked on, start at random points among the 40 untouched queries. Ten random
+// picks out of 39 landing on fewer than 5 distinct queries has a probability below 1e-6.
+func TestNewBatchesSpreadOverEquallyRankedQueries(t *testing.T) {
+	s := openTest(t)
+	ctx := context.Background()
+	p, _, _, users := fixture(t, s, 40, 3, 11)
+	first, err := s.NextPair(ctx, p.ID, users[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	if first.Query.ExternalID != "A" {
+		t.Errorf("the first batch started on %s, want A", first.Query.ExternalID)
+	}
+	seen := map[int64]bool{}
+	for _, u := range users[1:] {
+		v, err := s.NextPair(ctx, p.ID, u)
+		if err != nil {
+			t.Fatal(err)
+		}
+		seen[v.Query.ID] = true
+	}
+	if len(seen) < 5 {
+		t.Errorf("10 assessors started on %d distinct queries, want them spread", len(seen))
 	}
 }

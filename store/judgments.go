@@ -59,70 +59,88 @@ func (s *Store) Revise(ctx context.Context, sub Submission) (Judgment, error) {
 }
 
 func (s *Store) submit(ctx context.Context, sub Submission, revision bool) (Judgment, error) {
-	if (sub.Grade == nil) == (sub.CannotJudge == "") {
-		return Judgment{}, errorf(CodeInvalid, "give either a grade or a reason the pair cannot be judged")
-	}
-	if sub.CannotJudge != "" && !validReason(sub.CannotJudge) {
-		return Judgment{}, errorf(CodeInvalid, "unknown reason: "+sub.CannotJudge)
-	}
-	if len(sub.Note) > 4000 {
-		return Judgment{}, errorf(CodeInvalid, "a note may have at most 4000 characters")
+	if err := checkSubmission(sub); err != nil {
+		return Judgment{}, err
 	}
 	var j Judgment
-	err := s.write(ctx, func(tx *sql.Tx) error {
-		var needed, judged, levels int
-		var archived, member, allowChanges, adjudicated bool
-		var gold sql.NullInt64
-		var leasedAt sql.NullString
-		err := s.txRow(ctx, tx, `SELECT p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
-				(SELECT COUNT(*) FROM scale_levels l WHERE l.project_id = p.id),
-				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = p.id AND m.user_id = ?2 AND m.role = 'assessor'),
-				(SELECT leased_at FROM leases WHERE pair_id = x.id AND user_id = ?2),
-				p.allow_changes,
-				EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = x.id AND a.current = 1)
-			FROM pairs x JOIN projects p ON p.id = x.project_id WHERE x.id = ?1`, sub.PairID, sub.UserID).
-			Scan(&needed, &judged, &gold, &archived, &levels, &member, &leasedAt, &allowChanges, &adjudicated)
-		if errors.Is(err, sql.ErrNoRows) {
-			return ErrNotFound
-		}
-		if err != nil {
-			return err
-		}
-		if !member {
-			return errorf(CodeDenied, "only the project's assessors can judge its pairs")
-		}
-		if archived {
-			return errorf(CodeConflict, "the project is archived: it takes no more judgments")
-		}
-		if sub.Grade != nil && (*sub.Grade < 0 || *sub.Grade >= levels) {
-			return errorf(CodeInvalid, "the grade is not on this project's scale")
-		}
-		if sub.TimeSpentMs <= 0 && leasedAt.Valid {
-			sub.TimeSpentMs = int(time.Since(parseTime(leasedAt.String)).Milliseconds())
-		}
-		prev, err := s.currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
-		if err != nil {
-			return err
-		}
-		switch {
-		case prev == 0 && revision:
-			return errorf(CodeNotFound, "you have no judgment of this pair to change")
-		case prev == 0 && !gold.Valid && judged >= needed:
-			return errorf(CodeConflict, "this pair has all the judgments it needs")
-		case prev != 0 && adjudicated:
-			return errorf(CodeConflict, "a lead has settled this pair's grade: your judgment can no longer change")
-		case prev != 0 && !allowChanges:
-			return errorf(CodeConflict, "this project does not allow changing a judgment once made")
-		}
-		at := now()
-		j, err = s.insertJudgment(ctx, tx, sub, at)
-		if err != nil {
-			return err
-		}
-		_, err = s.txExec(ctx, tx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID)
+	err := s.grouped(ctx, func(ctx context.Context, tx *sql.Tx) error {
+		var err error
+		j, _, err = s.submitTx(ctx, tx, sub, revision, 0)
 		return err
-	})
+	}, nil)
 	return j, err
+}
+
+// checkSubmission refuses what needs no database to refuse, before it takes the writer's time.
+func checkSubmission(sub Submission) error {
+	if (sub.Grade == nil) == (sub.CannotJudge == "") {
+		return errorf(CodeInvalid, "give either a grade or a reason the pair cannot be judged")
+	}
+	if sub.CannotJudge != "" && !validReason(sub.CannotJudge) {
+		return errorf(CodeInvalid, "unknown reason: "+sub.CannotJudge)
+	}
+	if len(sub.Note) > 4000 {
+		return errorf(CodeInvalid, "a note may have at most 4000 characters")
+	}
+	return nil
+}
+
+// submitTx is submit, after checkSubmission, inside the caller's write transaction. Every
+// refusal is returned before anything is written. With projectID set, a pair of another
+// project is not found. counted reports a new current judgment of a pair that is not gold:
+// one more towards the project's progress.
+func (s *Store) submitTx(ctx context.Context, tx *sql.Tx, sub Submission, revision bool, projectID int64) (j Judgment, counted bool, err error) {
+	var needed, judged, levels int
+	var pairProject int64
+	var archived, member, allowChanges, adjudicated bool
+	var gold sql.NullInt64
+	var leasedAt sql.NullString
+	err = s.txRow(ctx, tx, `SELECT p.id, p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
+			(SELECT COUNT(*) FROM scale_levels l WHERE l.project_id = p.id),
+			EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = p.id AND m.user_id = ?2 AND m.role = 'assessor'),
+			(SELECT leased_at FROM leases WHERE pair_id = x.id AND user_id = ?2),
+			p.allow_changes,
+			EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = x.id AND a.current = 1)
+		FROM pairs x JOIN projects p ON p.id = x.project_id WHERE x.id = ?1`, sub.PairID, sub.UserID).
+		Scan(&pairProject, &needed, &judged, &gold, &archived, &levels, &member, &leasedAt, &allowChanges, &adjudicated)
+	if errors.Is(err, sql.ErrNoRows) || (err == nil && projectID != 0 && pairProject != projectID) {
+		return j, false, ErrNotFound
+	}
+	if err != nil {
+		return j, false, err
+	}
+	if !member {
+		return j, false, errorf(CodeDenied, "only the project's assessors can judge its pairs")
+	}
+	if archived {
+		return j, false, errorf(CodeConflict, "the project is archived: it takes no more judgments")
+	}
+	if sub.Grade != nil && (*sub.Grade < 0 || *sub.Grade >= levels) {
+		return j, false, errorf(CodeInvalid, "the grade is not on this project's scale")
+	}
+	if sub.TimeSpentMs <= 0 && leasedAt.Valid {
+		sub.TimeSpentMs = int(time.Since(parseTime(leasedAt.String)).Milliseconds())
+	}
+	prev, err := s.currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
+	if err != nil {
+		return j, false, err
+	}
+	switch {
+	case prev == 0 && revision:
+		return j, false, errorf(CodeNotFound, "you have no judgment of this pair to change")
+	case prev == 0 && !gold.Valid && judged >= needed:
+		return j, false, errorf(CodeConflict, "this pair has all the judgments it needs")
+	case prev != 0 && adjudicated:
+		return j, false, errorf(CodeConflict, "a lead has settled this pair's grade: your judgment can no longer change")
+	case prev != 0 && !allowChanges:
+		return j, false, errorf(CodeConflict, "this project does not allow changing a judgment once made")
+	}
+	j, err = s.insertJudgmentOver(ctx, tx, sub, now(), prev)
+	if err != nil {
+		return j, false, err
+	}
+	_, err = s.txExec(ctx, tx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID)
+	return j, prev == 0 && !gold.Valid, err
 }
 
 // Undo withdraws the assessor's latest judgment in the project: the row stays with
@@ -188,6 +206,12 @@ func (s *Store) insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, 
 	if err != nil {
 		return Judgment{}, err
 	}
+	return s.insertJudgmentOver(ctx, tx, sub, at, prev)
+}
+
+// insertJudgmentOver is insertJudgment when the caller has already looked up the current
+// judgment (prev, 0 for none) in the same transaction: one lookup fewer on the hot path.
+func (s *Store) insertJudgmentOver(ctx context.Context, tx *sql.Tx, sub Submission, at string, prev int64) (Judgment, error) {
 	if prev != 0 {
 		if _, err := s.txExec(ctx, tx, `UPDATE judgments SET current = 0 WHERE id = ?`, prev); err != nil {
 			return Judgment{}, err
@@ -200,7 +224,7 @@ func (s *Store) insertJudgment(ctx context.Context, tx *sql.Tx, sub Submission, 
 		reason = sub.CannotJudge
 	}
 	var id int64
-	err = s.txRow(ctx, tx, `INSERT INTO judgments(pair_id, user_id, grade, cannot_judge, note, time_spent_ms, guideline_id, supersedes, created_at)
+	err := s.txRow(ctx, tx, `INSERT INTO judgments(pair_id, user_id, grade, cannot_judge, note, time_spent_ms, guideline_id, supersedes, created_at)
 		VALUES (?1, ?2, ?3, ?4, ?5, ?6,
 			(SELECT MAX(g.id) FROM guideline_revisions g JOIN pairs x ON x.project_id = g.project_id WHERE x.id = ?1),
 			?7, ?8) RETURNING id`,

@@ -127,6 +127,23 @@ func (s *Store) Project(ctx context.Context, id int64) (Project, error) {
 	return scanProject(s.readRow(ctx, `SELECT `+projectColumns+` FROM projects WHERE id = ?`, id))
 }
 
+// ProjectAndRole looks a project up with a user's role in it (member false when they have
+// none): the check in front of every project page, so one statement rather than two.
+func (s *Store) ProjectAndRole(ctx context.Context, projectID, userID int64) (p Project, role Role, member bool, err error) {
+	var r sql.NullString
+	err = s.readRow(ctx, `SELECT `+projectColumns+`,
+			(SELECT m.role FROM project_members m WHERE m.project_id = projects.id AND m.user_id = ?2)
+		FROM projects WHERE id = ?1`, projectID, userID).
+		Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived, &r)
+	if errors.Is(err, sql.ErrNoRows) {
+		return Project{}, "", false, ErrNotFound
+	}
+	if err != nil {
+		return Project{}, "", false, err
+	}
+	return p, Role(r.String), r.Valid, nil
+}
+
 // ProjectByName looks a project up by its unique name.
 func (s *Store) ProjectByName(ctx context.Context, name string) (Project, error) {
 	return scanProject(s.r.QueryRowContext(ctx, `SELECT `+projectColumns+` FROM projects WHERE name = ?`, name))
@@ -176,7 +193,15 @@ func (s *Store) ProjectsFor(ctx context.Context, u User) ([]ProjectListing, erro
 
 // Scale returns a project's grade levels in grade order.
 func (s *Store) Scale(ctx context.Context, projectID int64) ([]ScaleLevel, error) {
-	return scaleOf(ctx, s.r, projectID)
+	return scaleOf(ctx, readerFunc(s.readRows), projectID)
+}
+
+// readerFunc lets the reader pool's prepared statements (readRows) serve scaleOf: the scale
+// is read on every judging request, and parsing its statement each time showed in profiles.
+type readerFunc func(ctx context.Context, q string, args ...any) (*sql.Rows, error)
+
+func (f readerFunc) QueryContext(ctx context.Context, q string, args ...any) (*sql.Rows, error) {
+	return f(ctx, q, args...)
 }
 
 func scaleOf(ctx context.Context, q interface {

@@ -1,6 +1,7 @@
 package web
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
 	"html/template"
@@ -8,6 +9,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 
 	"github.com/microcosm-cc/bluemonday"
 
@@ -81,13 +83,17 @@ type judgeData struct {
 	Body       template.HTML
 	Scale      []store.ScaleLevel
 	Reasons    []reasonOption
+	Controls   template.HTML // the grade and reason buttons, from Scale and Reasons
 	Guidelines template.HTML
 	Saved      string
 	Judged     int
 	Needed     int
 }
 
-func (s *Server) judgeData(r *http.Request, saved string) (judgeData, error) {
+// judgeData gathers the judging page: with guidelines for the whole page, without for the
+// htmx fragment, which does not show them. The pair comes from turn when the request has
+// already leased it (submit-and-next), else NextPair leases it here.
+func (s *Server) judgeData(r *http.Request, saved string, withGuidelines bool, turn *store.Turn) (judgeData, error) {
 	p := currentProject(r)
 	u, _ := currentUser(r)
 	d := judgeData{Saved: saved, Reasons: cannotJudgeOptions}
@@ -95,24 +101,70 @@ func (s *Server) judgeData(r *http.Request, saved string) (judgeData, error) {
 	if d.Scale, err = s.store.Scale(r.Context(), p.ID); err != nil {
 		return d, err
 	}
-	g, err := s.store.CurrentGuidelines(r.Context(), p.ID)
-	if err != nil {
+	if d.Controls, err = s.judgeControls(d.Scale); err != nil {
 		return d, err
 	}
-	d.Guidelines = renderMarkdown(g.Body)
-	pair, err := s.store.NextPair(r.Context(), p.ID, u.ID)
-	if err != nil && !errors.Is(err, store.ErrNoWork) {
-		return d, err
+	if withGuidelines {
+		g, err := s.store.CurrentGuidelines(r.Context(), p.ID)
+		if err != nil {
+			return d, err
+		}
+		d.Guidelines = s.guidelinesHTML(g)
 	}
-	if err == nil {
-		d.Pair = &pair
-		d.Body = documentBody(pair.Document)
+	if turn == nil {
+		pair, err := s.store.NextPair(r.Context(), p.ID, u.ID)
+		if err != nil && !errors.Is(err, store.ErrNoWork) {
+			return d, err
+		}
+		turn = &store.Turn{Next: pair, NoWork: err != nil}
+	}
+	if !turn.NoWork {
+		d.Pair = &turn.Next
+		d.Body = documentBody(turn.Next.Document)
+	}
+	if turn.Progress {
+		d.Judged, d.Needed = turn.Judged, turn.Needed
+		return d, nil
 	}
 	// Read after leasing, so the bar includes the judgment just made.
 	if d.Judged, d.Needed, err = s.store.JudgingProgress(r.Context(), p.ID); err != nil {
 		return d, err
 	}
 	return d, nil
+}
+
+// controlsCache keeps the judging form's buttons by the scale they show. Executing the two
+// ranges through html/template's escapers was a tenth of the CPU time of a judging request;
+// the key is the scale's full text, so an edited scale renders afresh.
+type controlsCache struct {
+	mu sync.Mutex
+	m  map[string]template.HTML
+}
+
+func (s *Server) judgeControls(scale []store.ScaleLevel) (template.HTML, error) {
+	var key strings.Builder
+	for _, l := range scale {
+		fmt.Fprintf(&key, "%d\x00%s\x00%s\x00", l.Grade, l.Label, l.Description)
+	}
+	c := &s.controls
+	c.mu.Lock()
+	h, ok := c.m[key.String()]
+	c.mu.Unlock()
+	if ok {
+		return h, nil
+	}
+	var buf bytes.Buffer
+	if err := s.pages.set["judge"].ExecuteTemplate(&buf, "controls", judgeData{Scale: scale, Reasons: cannotJudgeOptions}); err != nil {
+		return "", err
+	}
+	h = template.HTML(buf.String())
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.m == nil || len(c.m) >= 256 {
+		c.m = map[string]template.HTML{} // scales in use are few; start over rather than grow
+	}
+	c.m[key.String()] = h
+	return h, nil
 }
 
 // savedMessages turns the redirect's ?saved= code into the status line of the next page; only
@@ -134,7 +186,7 @@ func savedMessage(code string, levels int) string {
 }
 
 func (s *Server) judgePage(w http.ResponseWriter, r *http.Request) {
-	d, err := s.judgeData(r, "")
+	d, err := s.judgeData(r, "", true, nil)
 	if err != nil {
 		s.storeError(w, r, err)
 		return
@@ -144,33 +196,56 @@ func (s *Server) judgePage(w http.ResponseWriter, r *http.Request) {
 }
 
 // judgeSubmit stores one judgment. With htmx it answers with the next pair's fragment (one
-// request: submit and next); without JavaScript it redirects to the judging page, which
-// leases the next pair.
+// request and one write transaction: submit and next); without JavaScript it redirects to
+// the judging page, which leases the next pair.
 func (s *Server) judgeSubmit(w http.ResponseWriter, r *http.Request) {
-	sub, ok := s.parseSubmission(w, r)
+	htmx := r.Header.Get("HX-Request") == "true"
+	// With htmx the store checks that the pair is the project's inside the transaction.
+	sub, ok := s.parseSubmission(w, r, !htmx)
 	if !ok {
 		return
 	}
-	j, err := s.store.Submit(r.Context(), sub)
-	htmx := r.Header.Get("HX-Request") == "true"
-	if err != nil {
-		// A pair whose lease ran out may have filled up meanwhile: say so and move on.
-		if htmx && store.ErrorCode(err) == store.CodeConflict {
-			s.renderNext(w, r, "Not saved: "+err.Error()+".")
+	if htmx {
+		turn, err := s.store.SubmitAndNext(r.Context(), currentProject(r).ID, sub)
+		if store.ErrorCode(err) == store.CodeNotFound {
+			s.fail(w, r, http.StatusNotFound, "That pair is not part of this project.")
 			return
 		}
+		if err != nil {
+			s.storeError(w, r, err)
+			return
+		}
+		saved := savedText(turn.Judgment)
+		if turn.Refused != nil {
+			// A pair whose lease ran out may have filled up meanwhile: say so and move on.
+			saved = "Not saved: " + turn.Refused.Error() + "."
+		}
+		d, err := s.judgeData(r, saved, false, &turn)
+		if err != nil {
+			s.storeError(w, r, err)
+			return
+		}
+		s.render(w, r, http.StatusOK, "judge", "swap", s.newView(r, "", d))
+		return
+	}
+	j, err := s.store.Submit(r.Context(), sub)
+	if err != nil {
 		s.storeError(w, r, err)
 		return
 	}
-	code, saved := "x-"+j.CannotJudge, "Saved: cannot judge ("+j.CannotJudge+")."
+	code := "x-" + j.CannotJudge
 	if j.Grade != nil {
-		code, saved = strconv.Itoa(*j.Grade), fmt.Sprintf("Saved: grade %d.", *j.Grade)
+		code = strconv.Itoa(*j.Grade)
 	}
-	if !htmx {
-		http.Redirect(w, r, fmt.Sprintf("/projects/%d/judge?saved=%s", currentProject(r).ID, code), http.StatusSeeOther)
-		return
+	http.Redirect(w, r, fmt.Sprintf("/projects/%d/judge?saved=%s", currentProject(r).ID, code), http.StatusSeeOther)
+}
+
+// savedText is the status line after a stored judgment.
+func savedText(j store.Judgment) string {
+	if j.Grade != nil {
+		return fmt.Sprintf("Saved: grade %d.", *j.Grade)
 	}
-	s.renderNext(w, r, saved)
+	return "Saved: cannot judge (" + j.CannotJudge + ")."
 }
 
 // judgeUndo withdraws the assessor's latest judgment; the pair comes back as the next one.
@@ -189,7 +264,7 @@ func (s *Server) judgeUndo(w http.ResponseWriter, r *http.Request) {
 
 // renderNext answers an htmx request with the status line and the next pair.
 func (s *Server) renderNext(w http.ResponseWriter, r *http.Request, saved string) {
-	d, err := s.judgeData(r, saved)
+	d, err := s.judgeData(r, saved, false, nil)
 	if err != nil {
 		s.storeError(w, r, err)
 		return
@@ -199,7 +274,7 @@ func (s *Server) renderNext(w http.ResponseWriter, r *http.Request, saved string
 
 // parseSubmission reads a judging form: the pair (which must belong to the project in the
 // path), a grade or a reason, a note, and the time measured on the page.
-func (s *Server) parseSubmission(w http.ResponseWriter, r *http.Request) (store.Submission, bool) {
+func (s *Server) parseSubmission(w http.ResponseWriter, r *http.Request, checkProject bool) (store.Submission, bool) {
 	u, _ := currentUser(r)
 	pairID, err := strconv.ParseInt(r.PostFormValue("pair"), 10, 64)
 	if err != nil {
@@ -224,6 +299,9 @@ func (s *Server) parseSubmission(w http.ResponseWriter, r *http.Request) (store.
 	// Time measured on the page is preferred; implausible values fall back to the lease clock.
 	if ms, err := strconv.Atoi(r.PostFormValue("elapsed_ms")); err == nil && ms > 0 && ms < 24*3600*1000 {
 		sub.TimeSpentMs = ms
+	}
+	if !checkProject {
+		return sub, true
 	}
 	if pv, err := s.store.PairProject(r.Context(), pairID); err != nil || pv != currentProject(r).ID {
 		s.fail(w, r, http.StatusNotFound, "That pair is not part of this project.")

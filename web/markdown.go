@@ -3,10 +3,13 @@ package web
 import (
 	"bytes"
 	"html/template"
+	"sync"
 
 	"github.com/microcosm-cc/bluemonday"
 	"github.com/yuin/goldmark"
 	"github.com/yuin/goldmark/extension"
+
+	"github.com/pertinent/pertinent/store"
 )
 
 // markdown turns guidelines into HTML. goldmark already leaves raw HTML out and drops
@@ -30,4 +33,34 @@ func renderMarkdown(src string) template.HTML {
 		return template.HTML("<pre>" + template.HTMLEscapeString(src) + "</pre>")
 	}
 	return template.HTML(markdownPolicy.Sanitize(buf.String()))
+}
+
+// guidelinesCache keeps rendered guidelines by revision id. A revision is never edited (a
+// change is a new revision), so an entry can never go stale; rendering Markdown and
+// sanitising it on every judging page would cost more than the rest of the page.
+type guidelinesCache struct {
+	mu sync.Mutex
+	m  map[int64]template.HTML
+}
+
+// guidelinesHTML renders a project's current guidelines, once per revision.
+func (s *Server) guidelinesHTML(g store.Guidelines) template.HTML {
+	if g.ID == 0 {
+		return renderMarkdown(g.Body)
+	}
+	c := &s.guidelines
+	c.mu.Lock()
+	h, ok := c.m[g.ID]
+	c.mu.Unlock()
+	if ok {
+		return h
+	}
+	h = renderMarkdown(g.Body)
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.m == nil || len(c.m) >= 256 {
+		c.m = map[int64]template.HTML{} // revisions in use are few; start over rather than grow
+	}
+	c.m[g.ID] = h
+	return h
 }

@@ -119,12 +119,7 @@ func (s *Server) loadProject(next http.Handler) http.Handler {
 			s.fail(w, r, http.StatusNotFound, "There is no such project.")
 			return
 		}
-		p, err := s.store.Project(r.Context(), id)
-		if err != nil {
-			s.storeError(w, r, err)
-			return
-		}
-		role, member, err := s.store.MemberRole(r.Context(), id, u.ID)
+		p, role, member, err := s.store.ProjectAndRole(r.Context(), id, u.ID)
 		if err != nil {
 			s.storeError(w, r, err)
 			return

@@ -55,7 +55,7 @@ func (s *Server) myWorkPage(w http.ResponseWriter, r *http.Request) {
 
 // myWorkChange replaces one of the assessor's judgments with a new answer (a revision).
 func (s *Server) myWorkChange(w http.ResponseWriter, r *http.Request) {
-	sub, ok := s.parseSubmission(w, r)
+	sub, ok := s.parseSubmission(w, r, true)
 	if !ok {
 		return
 	}

@@ -44,6 +44,9 @@ type Server struct {
 	cookies  *sessions.CookieStore
 	throttle *throttle
 	router   chi.Router
+
+	guidelines guidelinesCache // rendered guidelines by revision (markdown.go)
+	controls   controlsCache   // the judging form's buttons by scale (judge.go)
 }
 
 // New builds a Server over an open store.

@@ -75,10 +75,18 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 		return err
 	}
 	fmt.Fprintf(stdout, "driving %s for %s\n", base, *duration)
+	var cpu0 time.Duration
+	if server != nil {
+		cpu0 = processCPU(server.Process.Pid)
+	}
 	res := drive(ctx, base, project, users, *duration, *count)
-	var rss string
+	var rss, cpuPer string
 	if server != nil {
 		rss = peakRSS(server.Process.Pid)
+		// CPU per judgment holds still when other work shares the machine; the rate does not.
+		if cpu := processCPU(server.Process.Pid) - cpu0; cpu > 0 && res.ok > 0 {
+			cpuPer = (cpu / time.Duration(res.ok)).Round(time.Microsecond).String()
+		}
 	}
 	commits, err := commitRate(ctx, *db, 2*time.Second)
 	if err != nil {
@@ -92,11 +100,11 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	}
 	fmt.Fprintf(stdout, "latency of submit-and-next: p50 %s, p95 %s, p99 %s\n", p50, p95, p99)
 	if rss != "" {
-		fmt.Fprintf(stdout, "server peak RSS: %s\n", rss)
+		fmt.Fprintf(stdout, "server peak RSS: %s; server CPU per judgment (sign-in excluded): %s\n", rss, cpuPer)
 	}
 	fmt.Fprintf(stdout, "raw SQLite commits (single-row write transactions, same file and driver): %.0f/s\n", commits)
-	fmt.Fprintf(stdout, "summary: %d assessors, %.0f judgments/s, p50 %s p95 %s p99 %s, %d errors, rss %s, %.2f of the raw commit rate\n",
-		len(users), rate, p50, p95, p99, res.errors, orDash(rss), rate/commits)
+	fmt.Fprintf(stdout, "summary: %d assessors, %.0f judgments/s, p50 %s p95 %s p99 %s, %d errors, rss %s, cpu/judgment %s, %.2f of the raw commit rate\n",
+		len(users), rate, p50, p95, p99, res.errors, orDash(rss), orDash(cpuPer), rate/commits)
 	return nil
 }
 
@@ -390,6 +398,27 @@ func commitRate(ctx context.Context, db string, d time.Duration) (float64, error
 		n++
 	}
 	return float64(n) / time.Since(start).Seconds(), nil
+}
+
+// processCPU reads a process's user and system CPU time from /proc (Linux; 0 elsewhere).
+func processCPU(pid int) time.Duration {
+	b, err := os.ReadFile(fmt.Sprintf("/proc/%d/stat", pid))
+	if err != nil {
+		return 0
+	}
+	// Fields after the command name, which is in parentheses and may contain spaces.
+	i := strings.LastIndexByte(string(b), ')')
+	if i < 0 {
+		return 0
+	}
+	f := strings.Fields(string(b[i+1:]))
+	if len(f) < 13 {
+		return 0
+	}
+	utime, _ := strconv.ParseInt(f[11], 10, 64)
+	stime, _ := strconv.ParseInt(f[12], 10, 64)
+	const ticks = 100 // USER_HZ: 100 on every Linux architecture Go supports
+	return time.Duration(utime+stime) * time.Second / ticks
 }
 
 // peakRSS reads a process's peak resident set size from /proc.
