@@ -21,7 +21,8 @@ type Rating struct {
 
 // Data collects judgments on a scale of K grades. Items and raters are keyed
 // either by strings (Add) or by int64 ids (AddID), not both in one Data; an
-// int64 id is named by its decimal form in results. A later judgment for the
+// int64 id is named by its decimal form in results (raters by NameRaters
+// when given). A later judgment for the
 // same item and rater replaces the earlier one (edits supersede).
 //
 // Data interns keys to dense ints once and builds a per-item index lazily on
@@ -37,6 +38,8 @@ type Data struct {
 	itemNames         []string
 	raterNames        []string
 	itemIDs, raterIDs []int64
+	raterLabel        func(int64) string // names of id-keyed raters (NameRaters)
+	lastItem          int32              // item of the latest AddID, since input often comes by item
 
 	jItem, jRater []int32
 	jGrade        []uint8
@@ -145,11 +148,15 @@ func (d *Data) AddID(item, rater int64, g int) error {
 		d.itemID = map[int64]int32{}
 		d.raterID = map[int64]int32{}
 	}
-	it, ok := d.itemID[item]
-	if !ok {
-		it = int32(len(d.itemIDs))
-		d.itemID[item] = it
-		d.itemIDs = append(d.itemIDs, item)
+	it := d.lastItem
+	if len(d.itemIDs) == 0 || d.itemIDs[it] != item {
+		var ok bool
+		if it, ok = d.itemID[item]; !ok {
+			it = int32(len(d.itemIDs))
+			d.itemID[item] = it
+			d.itemIDs = append(d.itemIDs, item)
+		}
+		d.lastItem = it
 	}
 	r, ok := d.raterID[rater]
 	if !ok {
@@ -158,6 +165,20 @@ func (d *Data) AddID(item, rater int64, g int) error {
 		d.raterIDs = append(d.raterIDs, rater)
 	}
 	d.push(it, r, g)
+	return nil
+}
+
+// NameRaters names the raters of id-keyed data (AddID) by name(id) instead of their decimal
+// ids, and orders them by those names as string-keyed data would be: a Data built with
+// AddID(item, id, g) and NameRaters(name) gives the same results as one built with
+// Add(decimal item, name(id), g). Names must be distinct and non-empty; name is called
+// whenever the per-item form is rebuilt.
+func (d *Data) NameRaters(name func(id int64) string) error {
+	if d.keyed == keyString {
+		return errMixedKeys
+	}
+	d.raterLabel = name
+	d.ix = nil
 	return nil
 }
 
@@ -226,19 +247,26 @@ func (d *Data) build() *index {
 	for i := range order {
 		order[i] = int32(i)
 	}
-	if d.keyed == keyID {
+	names := d.raterNames
+	if d.keyed == keyID && d.raterLabel != nil {
+		names = make([]string, nR)
+		for r, id := range d.raterIDs {
+			names[r] = d.raterLabel(id)
+		}
+	}
+	if d.keyed == keyID && d.raterLabel == nil {
 		slices.SortFunc(order, func(a, b int32) int { return cmp.Compare(d.raterIDs[a], d.raterIDs[b]) })
 	} else {
-		slices.SortFunc(order, func(a, b int32) int { return cmp.Compare(d.raterNames[a], d.raterNames[b]) })
+		slices.SortFunc(order, func(a, b int32) int { return cmp.Compare(names[a], names[b]) })
 	}
 	rank := make([]int32, nR)
 	ix.raterNames = make([]string, nR)
 	for pos, r := range order {
 		rank[r] = int32(pos)
-		if d.keyed == keyID {
+		if d.keyed == keyID && d.raterLabel == nil {
 			ix.raterNames[pos] = strconv.FormatInt(d.raterIDs[r], 10)
 		} else {
-			ix.raterNames[pos] = d.raterNames[r]
+			ix.raterNames[pos] = names[r]
 		}
 	}
 
