@@ -4,8 +4,6 @@ import (
 	"context"
 	"database/sql"
 	"errors"
-	"slices"
-	"strconv"
 	"sync"
 	"time"
 
@@ -44,7 +42,11 @@ type Desk struct {
 	Assessors      []AssessorFigures
 	BootstrapCount int // replicates the bootstrap uses for this data size
 
-	rows     []deskRow // current judgments sorted by pair, then user
+	rows     []deskRow // current judgments sorted by pair, then user; never changed once built
+	// The judgments the desk has seen: every id up to seenID and desk_log up to seenLog, read
+	// in one snapshot, so the next desk reads only what lies beyond (store/deskload.go).
+	seenID, seenLog int64
+	Incremental     bool // built from the previous desk and the changes since
 	pairs    []int     // start of each pair's rows in rows; len = pairs with judgments + 1
 	users    map[int64]string
 	goldPair map[int64]int
@@ -185,7 +187,7 @@ func (s *Store) Desk(ctx context.Context, projectID int64) (*Desk, error) {
 	if d != nil && d.Version == v {
 		return d, nil
 	}
-	d, err = s.buildDesk(ctx, projectID, v)
+	d, err = s.loadDesk(ctx, projectID, d)
 	if err != nil {
 		return nil, err
 	}
@@ -194,128 +196,6 @@ func (s *Store) Desk(ctx context.Context, projectID int64) (*Desk, error) {
 	c.desks[projectID] = d
 	c.mu.Unlock()
 	return d, nil
-}
-
-// deskQuery reads a project's current judgments with few columns, since the cost of a
-// million rows is mostly per row and column read: pair, user and grade (or cannot-judge
-// kind) in one integer, judgment id and time spent in another. (Two readers on halves of
-// the pair ids were slower than one on two cores.)
-const deskQuery = `SELECT (j.pair_id << 28) | (j.user_id << 4) |
-		COALESCE(j.grade, CASE j.cannot_judge WHEN 'disturbing' THEN 14 ELSE 15 END),
-		(j.id << 24) | MIN(j.time_spent_ms, 16777215), j.created_at
-	FROM judgments j JOIN pairs p ON p.id = j.pair_id
-	WHERE p.project_id = ?1 AND j.current = 1`
-
-func (s *Store) buildDesk(ctx context.Context, projectID, version int64) (*Desk, error) {
-	start := time.Now()
-	levels, err := s.Scale(ctx, projectID)
-	if err != nil {
-		return nil, err
-	}
-	if len(levels) < 2 {
-		return nil, ErrNotFound
-	}
-	users, err := s.UserNames(ctx)
-	if err != nil {
-		return nil, err
-	}
-	for id := range users {
-		if id >= 1<<24 {
-			return nil, errors.New("store: user ids beyond 2^24 do not fit the desk's packing")
-		}
-	}
-	rows, err := s.deskRows(ctx, projectID)
-	if err != nil {
-		return nil, err
-	}
-	progress, err := s.ProjectProgress(ctx, projectID)
-	if err != nil {
-		return nil, err
-	}
-	slices.SortFunc(rows, func(a, b deskRow) int {
-		if a.pair != b.pair {
-			return int(a.pair - b.pair)
-		}
-		return int(a.user - b.user)
-	})
-
-	gold, goldPair := map[string]int{}, map[int64]int{}
-	grows, err := s.r.QueryContext(ctx, `SELECT id, gold_grade FROM pairs WHERE project_id = ? AND gold_grade IS NOT NULL`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	for grows.Next() {
-		var id int64
-		var g int
-		if err := grows.Scan(&id, &g); err != nil {
-			grows.Close()
-			return nil, err
-		}
-		gold[strconv.FormatInt(id, 10)] = g
-		goldPair[id] = g
-	}
-	grows.Close()
-	if err := grows.Err(); err != nil {
-		return nil, err
-	}
-
-	d := &Desk{ProjectID: projectID, Version: version, Scale: len(levels), rows: rows, users: users, Gold: gold, goldPair: goldPair, Progress: progress}
-	d.Data = agreement.NewData(len(levels))
-	d.Data.Grow(len(rows))
-	var item string
-	var lastPair int64 = -1
-	for i, r := range rows {
-		if r.pair != lastPair {
-			d.pairs = append(d.pairs, i)
-			lastPair = r.pair
-			item = strconv.FormatInt(r.pair, 10)
-		}
-		if r.grade >= 0 && int(r.grade) < len(levels) {
-			if err := d.Data.Add(item, users[r.user], int(r.grade)); err != nil {
-				return nil, err
-			}
-		}
-	}
-	d.pairs = append(d.pairs, len(rows))
-	d.Report = agreement.Compute(d.Data, agreement.Options{Gold: gold})
-	d.BootstrapCount = BootstrapReplicates(d.Report.Judgments)
-	d.activity()
-	d.assessorFigures()
-	d.BuiltAt = time.Now()
-	d.BuildTook = time.Since(start)
-	return d, nil
-}
-
-func (s *Store) deskRows(ctx context.Context, projectID int64) ([]deskRow, error) {
-	var maxPair sql.NullInt64
-	if err := s.r.QueryRowContext(ctx, `SELECT MAX(id) FROM pairs WHERE project_id = ?`, projectID).Scan(&maxPair); err != nil {
-		return nil, err
-	}
-	if maxPair.Int64 >= 1<<35 {
-		return nil, errors.New("store: pair ids beyond 2^35 do not fit the desk's packing")
-	}
-	rows, err := s.r.QueryContext(ctx, deskQuery, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []deskRow
-	var a, b int64
-	var at sql.RawBytes
-	for rows.Next() {
-		if err := rows.Scan(&a, &b, &at); err != nil {
-			return nil, err
-		}
-		out = append(out, deskRow{
-			pair:  a >> 28,
-			user:  (a >> 4) & (1<<24 - 1),
-			grade: int8(a & 15),
-			id:    b >> 24,
-			ms:    int32(b & (1<<24 - 1)),
-			at:    unixMillis(at),
-		})
-	}
-	return out, rows.Err()
 }
 
 // unixMillis reads the store's fixed time layout (2006-01-02T15:04:05.000Z) without the
