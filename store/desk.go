@@ -22,6 +22,8 @@ type Desk struct {
 	Scale     int
 	BuiltAt   time.Time
 	BuildTook time.Duration
+	// Incremental tells that the desk was made from the previous one and the changes since.
+	Incremental bool
 
 	// Data holds the current grades exactly as AgreementData builds them (items named by pair
 	// id, raters by username, added in pair order), so the report equals the CLI's.
@@ -42,15 +44,14 @@ type Desk struct {
 	Assessors      []AssessorFigures
 	BootstrapCount int // replicates the bootstrap uses for this data size
 
-	rows     []deskRow // current judgments sorted by pair, then user; never changed once built
+	rows []deskRow // current judgments sorted by pair, then user; never changed once built
 	// The judgments the desk has seen: every id up to seenID and desk_log up to seenLog, read
 	// in one snapshot, so the next desk reads only what lies beyond (store/deskload.go).
 	seenID, seenLog int64
-	Incremental     bool // built from the previous desk and the changes since
-	pairs    []int     // start of each pair's rows in rows; len = pairs with judgments + 1
-	users    map[int64]string
-	goldPair map[int64]int
-	cache    *deskCache
+	pairs           []int // start of each pair's rows in rows; len = pairs with judgments + 1
+	users           map[int64]string
+	goldPair        map[int64]int
+	cache           *deskCache
 
 	boot    lazy[agreement.BootstrapResult]
 	ds      lazy[dsSnapshot]
