@@ -145,17 +145,11 @@ func (d *Data) AddID(item, rater int64, g int) error {
 	}
 	if d.keyed == 0 {
 		d.keyed = keyID
-		d.itemID = map[int64]int32{}
 		d.raterID = map[int64]int32{}
 	}
 	it := d.lastItem
 	if len(d.itemIDs) == 0 || d.itemIDs[it] != item {
-		var ok bool
-		if it, ok = d.itemID[item]; !ok {
-			it = int32(len(d.itemIDs))
-			d.itemID[item] = it
-			d.itemIDs = append(d.itemIDs, item)
-		}
+		it = d.internItem(item)
 		d.lastItem = it
 	}
 	r, ok := d.raterID[rater]
@@ -180,6 +174,43 @@ func (d *Data) NameRaters(name func(id int64) string) error {
 	d.raterLabel = name
 	d.ix = nil
 	return nil
+}
+
+// internItem returns the index of an int64 item, adding it when new. While items arrive in
+// ascending order (as from a sorted query) itemIDs is sorted and no map is kept: a new item
+// is one above the last, an old one is found by binary search.
+func (d *Data) internItem(item int64) int32 {
+	n := len(d.itemIDs)
+	if d.itemID == nil {
+		if n == 0 || item > d.itemIDs[n-1] {
+			d.itemIDs = append(d.itemIDs, item)
+			return int32(n)
+		}
+		if i, ok := slices.BinarySearch(d.itemIDs, item); ok {
+			return int32(i)
+		}
+		d.itemID = make(map[int64]int32, n+1)
+		for i, id := range d.itemIDs {
+			d.itemID[id] = int32(i)
+		}
+	}
+	it, ok := d.itemID[item]
+	if !ok {
+		it = int32(n)
+		d.itemID[item] = it
+		d.itemIDs = append(d.itemIDs, item)
+	}
+	return it
+}
+
+// findItem looks up an int64 item without adding it.
+func (d *Data) findItem(item int64) (int32, bool) {
+	if d.itemID == nil {
+		i, ok := slices.BinarySearch(d.itemIDs, item)
+		return int32(i), ok
+	}
+	it, ok := d.itemID[item]
+	return it, ok
 }
 
 func (d *Data) push(it, r int32, g int) {

@@ -60,3 +60,63 @@ func TestNameRatersMatchesStringKeys(t *testing.T) {
 		t.Error("string-keyed data accepted rater names")
 	}
 }
+
+// Items added in ascending id order are interned without a map until one arrives out of
+// order; either way the results equal string keys: revisiting an earlier item (found by
+// search), a new item below the last (the switch to a map), and gold grades looked up in
+// both states.
+func TestAscendingItemIDs(t *testing.T) {
+	for _, late := range []bool{false, true} {
+		rng := rand.New(rand.NewPCG(5, 9))
+		byName, byID := NewData(4), NewData(4)
+		add := func(it, r int64, g int) {
+			t.Helper()
+			if err := byName.Add(strconv.FormatInt(it, 10), strconv.FormatInt(r, 10), g); err != nil {
+				t.Fatal(err)
+			}
+			if err := byID.AddID(it, r, g); err != nil {
+				t.Fatal(err)
+			}
+		}
+		for it := int64(10); it < 400; it += 1 + int64(rng.IntN(3)) {
+			for r := range int64(3) {
+				add(it, r+int64(rng.IntN(4)), rng.IntN(4))
+			}
+			if rng.IntN(7) == 0 { // a later answer on an earlier item
+				add(10, 1, rng.IntN(4))
+			}
+		}
+		if late {
+			add(5, 2, 3) // below every item so far
+			add(11, 9, 1)
+		}
+		if byID.itemID != nil && !late {
+			t.Error("ascending items built a map")
+		}
+		if byID.itemID == nil && late {
+			t.Error("an item out of order kept the map-free form")
+		}
+		gold := map[string]int{"10": 2, "11": 1, "5": 0, "12": 3, "399": 1, "1000": 2}
+		a, b := Compute(byName, Options{Gold: gold}), Compute(byID, Options{Gold: gold})
+		// Raters are numbered alike here, and string keys order "10" before "2": compare
+		// per-rater figures by name.
+		if !reflect.DeepEqual(a.Judgments, b.Judgments) || !reflect.DeepEqual(a.Items, b.Items) ||
+			!reflect.DeepEqual(a.KrippendorffAlpha, b.KrippendorffAlpha) || !reflect.DeepEqual(a.Fleiss, b.Fleiss) {
+			t.Fatalf("late %v: reports differ\n%+v\n%+v", late, a, b)
+		}
+		stats := map[string]RaterStats{}
+		for _, s := range a.RaterStats {
+			stats[s.Rater] = s
+		}
+		gi := 0
+		for _, s := range b.RaterStats {
+			if !reflect.DeepEqual(stats[s.Rater], s) {
+				t.Fatalf("late %v: rater %s\n%+v\n%+v", late, s.Rater, stats[s.Rater], s)
+			}
+			gi += s.GoldItems
+		}
+		if gi == 0 {
+			t.Fatal("no gold item matched")
+		}
+	}
+}
