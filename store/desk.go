@@ -124,7 +124,30 @@ type deskCache struct {
 	mu       sync.Mutex
 	desks    map[int64]*Desk
 	building map[int64]*sync.Mutex
-	bg       chan struct{} // one background computation at a time
+	latest   map[int64]int64 // newest version seen per project: older desks are stale
+	bg       chan struct{}   // one background computation at a time
+}
+
+// seen records that a project has reached version v.
+func (c *deskCache) seen(projectID, v int64) {
+	c.mu.Lock()
+	if c.latest == nil {
+		c.latest = map[int64]int64{}
+	}
+	c.latest[projectID] = max(c.latest[projectID], v)
+	c.mu.Unlock()
+}
+
+// stale tells that a newer version of the desk's project has been seen, so a slow
+// computation for it can stop: no page will show its result.
+func (d *Desk) stale() bool {
+	c := d.cache
+	if c == nil {
+		return false
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.latest[d.ProjectID] > d.Version
 }
 
 // background runs fn for a desk of a large project, one at a time per store, and skips it
@@ -159,6 +182,7 @@ func (s *Store) Desk(ctx context.Context, projectID int64) (*Desk, error) {
 		return nil, err
 	}
 	c := &s.desks
+	c.seen(projectID, v)
 	c.mu.Lock()
 	if d := c.desks[projectID]; d != nil && d.Version == v {
 		c.mu.Unlock()
@@ -193,6 +217,7 @@ func (s *Store) Desk(ctx context.Context, projectID int64) (*Desk, error) {
 		return nil, err
 	}
 	d.cache = c
+	c.seen(projectID, d.Version)
 	c.mu.Lock()
 	c.desks[projectID] = d
 	c.mu.Unlock()
@@ -268,14 +293,23 @@ func (l *lazy[T]) get(fn func() T, wait bool) (T, bool) {
 
 // Bootstrap returns the bootstrap intervals (alpha, mean quadratic kappa) with
 // BootstrapCount replicates and BootstrapSeed. For small data it waits; for large data it
-// starts them in the background and ok is false until they are done.
+// starts them in the background and ok is false until they are done. A background run stops
+// as soon as a newer version of the project is seen, so it never slows the desk that
+// replaces it; ok stays false for this desk then.
 func (d *Desk) Bootstrap() (agreement.BootstrapResult, bool) {
-	return d.boot.get(func() (r agreement.BootstrapResult) {
-		d.slow(func() {
-			r = agreement.Bootstrap(d.Data, agreement.BootstrapOptions{Replicates: d.BootstrapCount, Seed: BootstrapSeed})
-		})
+	r, ok := d.boot.get(func() (r agreement.BootstrapResult) {
+		o := agreement.BootstrapOptions{Replicates: d.BootstrapCount, Seed: BootstrapSeed}
+		if d.Background() {
+			o.Stop = d.stale
+		}
+		r.Stopped = true // unless it runs: the queue skips desks already replaced
+		d.slow(func() { r = agreement.Bootstrap(d.Data, o) })
 		return r
 	}, !d.Background())
+	if r.Stopped {
+		return agreement.BootstrapResult{}, false
+	}
+	return r, ok
 }
 
 // slow runs a slow computation: at once for small data, else through the background queue.

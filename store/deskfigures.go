@@ -147,13 +147,13 @@ func leaveOneOut(rows []deskRow, p int, buf []int8) (int, bool, []int8) {
 // assessorFigures builds one row per assessor with a current judgment in one pass over the
 // rows: each pair's grades are sorted once for the leave-one-out consensus, medians come from
 // one radix sort of (assessor, time) keys, and drift keeps only each assessor's latest
-// DriftWindow compared judgments in a small heap.
+// DriftWindow compared judgments.
 func (d *Desk) assessorFigures() {
 	type acc struct {
 		f      AssessorFigures
 		agree  int // compared judgments equal to consensus
 		n      int // compared judgments
-		recent []compared
+		recent latest
 		nTimes int
 	}
 	var accs []*acc
@@ -204,7 +204,7 @@ func (d *Desk) assessorFigures() {
 			if c.agree {
 				a.agree++
 			}
-			a.recent = keepLatest(a.recent, c)
+			a.recent.add(c)
 		}
 	}
 	// By assessor, then time: LSD passes over the time's bytes, then the assessor's.
@@ -229,7 +229,7 @@ func (d *Desk) assessorFigures() {
 				MeanKappaQuadratic: agreement.Value{Why: why}, ConsensusAgreement: agreement.Value{Why: why},
 				ConsensusMAE: agreement.Value{Why: why}, GoldAccuracy: agreement.Value{Why: why}, GoldMAE: agreement.Value{Why: why}}
 		}
-		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = drift(a.n, a.agree, a.recent)
+		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = drift(a.n, a.agree, &a.recent)
 		d.Assessors = append(d.Assessors, *f)
 	}
 	slices.SortFunc(d.Assessors, func(a, b AssessorFigures) int { return cmp.Compare(a.Username, b.Username) })
@@ -244,54 +244,64 @@ func (c compared) before(o compared) bool {
 	return c.at < o.at || (c.at == o.at && c.id < o.id)
 }
 
-// keepLatest keeps the DriftWindow latest compared judgments (by time, then id) seen so far
-// as a min-heap: h[0] is the earliest of them.
-func keepLatest(h []compared, c compared) []compared {
-	if len(h) < DriftWindow {
-		h = append(h, c)
-		for i := len(h) - 1; i > 0; {
-			up := (i - 1) / 2
-			if !h[i].before(h[up]) {
-				break
+// latest keeps the DriftWindow latest compared judgments (by time, then id) seen so far,
+// sorted, in a ring: buf[head] is the earliest once full. Judgments that come in time order
+// take the O(1) path (the earliest is overwritten); others shift part of the window.
+type latest struct {
+	buf        [DriftWindow]compared
+	head, n    int
+	agreeCount int // agreeing judgments in the window
+}
+
+func (w *latest) at(i int) *compared { return &w.buf[(w.head+i)%DriftWindow] }
+
+func (w *latest) add(c compared) {
+	if w.n == DriftWindow && !w.at(0).before(c) {
+		return // earlier than everything kept
+	}
+	// Position among the kept ones, counted from the end (time order is the usual case).
+	p := w.n
+	for p > 0 && c.before(*w.at(p - 1)) {
+		p--
+	}
+	if w.n < DriftWindow {
+		for i := w.n; i > p; i-- {
+			*w.at(i) = *w.at(i - 1)
+		}
+		w.n++
+	} else {
+		if w.at(0).agree {
+			w.agreeCount--
+		}
+		if p == w.n {
+			// The latest so far: it takes the earliest one's place, which becomes the end.
+			w.buf[w.head] = c
+			w.head = (w.head + 1) % DriftWindow
+			if c.agree {
+				w.agreeCount++
 			}
-			h[i], h[up] = h[up], h[i]
-			i = up
+			return
 		}
-		return h
+		// Drop the earliest: shift the ones before p down, then put c just before them.
+		for i := 0; i+1 < p; i++ {
+			*w.at(i) = *w.at(i + 1)
+		}
+		p--
 	}
-	if !h[0].before(c) {
-		return h
-	}
-	h[0] = c
-	for i := 0; ; {
-		small, l, r := i, 2*i+1, 2*i+2
-		if l < len(h) && h[l].before(h[small]) {
-			small = l
-		}
-		if r < len(h) && h[r].before(h[small]) {
-			small = r
-		}
-		if small == i {
-			return h
-		}
-		h[i], h[small] = h[small], h[i]
-		i = small
+	*w.at(p) = c
+	if c.agree {
+		w.agreeCount++
 	}
 }
 
 // drift compares the share of compared judgments agreeing with consensus over the last
-// DriftWindow (recent, kept by keepLatest) with the share over all earlier ones.
-func drift(n, agree int, recent []compared) (recentV, earlier, diff agreement.Value, earlierN int) {
+// DriftWindow (recent) with the share over all earlier ones.
+func drift(n, agree int, recent *latest) (recentV, earlier, diff agreement.Value, earlierN int) {
 	if n <= DriftWindow {
 		why := "needs more than " + strconv.Itoa(DriftWindow) + " grades compared with consensus"
 		return agreement.Value{Why: why}, agreement.Value{Why: why}, agreement.Value{Why: why}, 0
 	}
-	late := 0
-	for _, c := range recent {
-		if c.agree {
-			late++
-		}
-	}
+	late := recent.agreeCount
 	cut := n - DriftWindow
 	r, e := float64(late)/float64(DriftWindow), float64(agree-late)/float64(cut)
 	return agreement.Value{V: r, OK: true}, agreement.Value{V: e, OK: true}, agreement.Value{V: r - e, OK: true}, cut

@@ -156,6 +156,9 @@ func incrementalDeskRun(t *testing.T, seed uint64) {
 		if got.Incremental {
 			incremental++
 		}
+		if pp, err := s.ProjectProgress(ctx, p.ID); err != nil || pp != got.Progress {
+			t.Fatalf("after %v: progress %+v, ProjectProgress %+v (%v)", did, got.Progress, pp, err)
+		}
 		want, err := s.loadDesk(ctx, p.ID, nil)
 		if err != nil {
 			t.Fatal(err)
