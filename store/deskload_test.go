@@ -192,3 +192,49 @@ func incrementalDeskRun(t *testing.T, seed uint64) {
 	}
 	t.Logf("%d of %d desks kept incrementally", incremental, steps)
 }
+
+// The log keeps its newest 100,000 entries; a desk older than what is left is rebuilt from
+// scratch (and still right), and a deleted judgment always rebuilds.
+func TestDeskLogPruningRebuilds(t *testing.T) {
+	s := openTest(t)
+	ctx := context.Background()
+	p, _, pairs, users := fixture(t, s, 1, 4, 3)
+	record(t, s, p.ID, RecordedJudgment{PairID: pairs[0], UserID: users[0], Grade: grade(1)},
+		RecordedJudgment{PairID: pairs[0], UserID: users[1], Grade: grade(2)})
+	if _, err := s.Desk(ctx, p.ID); err != nil {
+		t.Fatal(err)
+	}
+	// 100,002 entries of another project, then one retirement here: the trigger prunes.
+	if _, err := s.w.ExecContext(ctx, `WITH RECURSIVE n(i) AS (SELECT 1 UNION ALL SELECT i + 1 FROM n WHERE i < 100002)
+		INSERT INTO desk_log(project_id, judgment_id, kind) SELECT 999, i, 0 FROM n`); err != nil {
+		t.Fatal(err)
+	}
+	record(t, s, p.ID, RecordedJudgment{PairID: pairs[0], UserID: users[0], Grade: grade(3)}) // supersedes
+	var lo, hi, n int64
+	if err := s.r.QueryRowContext(ctx, `SELECT MIN(seq), MAX(seq), COUNT(*) FROM desk_log`).Scan(&lo, &hi, &n); err != nil {
+		t.Fatal(err)
+	}
+	if hi-lo+1 != n || n != 100000 {
+		t.Fatalf("log holds seq %d..%d (%d entries), want the newest 100000 without gaps", lo, hi, n)
+	}
+	d, err := s.Desk(ctx, p.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if d.Incremental {
+		t.Error("a desk older than the log was kept incrementally")
+	}
+	if d.Judgments != 2 || d.Report.Judgments != 2 || d.Assessors[0].Grades[3] != 1 {
+		t.Errorf("after pruning: %d judgments, grades %v", d.Judgments, d.Assessors[0].Grades)
+	}
+	record(t, s, p.ID, RecordedJudgment{PairID: pairs[1], UserID: users[2], Grade: grade(0)})
+	if d, err = s.Desk(ctx, p.ID); err != nil || !d.Incremental || d.Judgments != 3 {
+		t.Fatalf("next change: incremental %v, %d judgments (%v)", d.Incremental, d.Judgments, err)
+	}
+	if _, err := s.w.ExecContext(ctx, `DELETE FROM judgments WHERE pair_id = ? AND user_id = ?`, pairs[1], users[2]); err != nil {
+		t.Fatal(err)
+	}
+	if d, err = s.Desk(ctx, p.ID); err != nil || d.Incremental || d.Judgments != 2 {
+		t.Fatalf("after a deletion: incremental %v, %d judgments (%v)", d.Incremental, d.Judgments, err)
+	}
+}
