@@ -58,15 +58,25 @@ type Desk struct {
 	queries lazy[queryInfo]
 }
 
-// deskRow is one current judgment, packed small: a million of them stay in a few tens of MB.
+// deskRow is one current judgment, packed into 24 bytes: a million of them stay at 24 MB,
+// and the copy a change makes is quick. key holds pair (35 bits), user (24) and grade (4), so
+// ordering by key>>4 orders by pair, then user; idms holds the judgment id (40 bits) and the
+// time spent in ms (24 bits, capped).
 type deskRow struct {
-	pair  int64
-	id    int64
-	user  int64
-	at    int64 // Unix milliseconds
-	ms    int32 // time spent
-	grade int8  // 0.. on the scale; gradeCannot or gradeDisturbing when no grade
+	key  uint64
+	idms uint64
+	at   int64 // Unix milliseconds
 }
+
+func newDeskRow(pair, user int64, grade int8, id int64, ms int32, at int64) deskRow {
+	return deskRow{key: uint64(pair)<<28 | uint64(user)<<4 | uint64(grade)&15, idms: uint64(id)<<24 | uint64(ms)&(1<<24-1), at: at}
+}
+
+func (r deskRow) pair() int64 { return int64(r.key >> 28) }
+func (r deskRow) user() int64 { return int64(r.key>>4) & (1<<24 - 1) }
+func (r deskRow) grade() int8 { return int8(r.key & 15) } // 0.. on the scale, or gradeCannot/gradeDisturbing
+func (r deskRow) id() int64   { return int64(r.idms >> 24) }
+func (r deskRow) ms() int32   { return int32(r.idms & (1<<24 - 1)) }
 
 const (
 	gradeDisturbing = 14

@@ -32,11 +32,11 @@ func syntheticDesk(pairs int) *Desk {
 			if rng.IntN(3) == 0 {
 				g = min(max(truth+rng.IntN(3)-1, 0), 4)
 			}
-			rs = append(rs, deskRow{pair: int64(i + 1), id: int64(3*i + j + 1), user: u, at: base + int64(3*i+j)*2000, ms: int32(2000 + rng.IntN(30000)), grade: int8(g)})
+			rs = append(rs, newDeskRow(int64(i+1), u, int8(g), int64(3*i+j+1), int32(2000+rng.IntN(30000)), base+int64(3*i+j)*2000))
 		}
 		for a := range rs {
 			for b := a + 1; b < len(rs); b++ {
-				if rs[b].user < rs[a].user {
+				if rs[b].user() < rs[a].user() {
 					rs[a], rs[b] = rs[b], rs[a]
 				}
 			}

@@ -17,7 +17,7 @@ import (
 func (d *Desk) activity() {
 	for p := 0; p+1 < len(d.pairs); p++ {
 		for _, r := range d.rows[d.pairs[p]:d.pairs[p+1]] {
-			if r.grade == gradeDisturbing {
+			if r.grade() == gradeDisturbing {
 				d.Flagged++
 				break
 			}
@@ -29,15 +29,15 @@ func (d *Desk) activity() {
 	times := make([]uint64, 0, len(d.rows))
 	first, last := int64(math.MaxInt64), int64(math.MinInt64)
 	for _, r := range d.rows {
-		if r.grade >= gradeDisturbing {
+		if r.grade() >= gradeDisturbing {
 			d.CannotJudge++
 		} else {
 			d.Graded++
 		}
 		day := floorDiv(r.at, 86400000)
 		first, last = min(first, day), max(last, day)
-		if r.ms > 0 {
-			times = append(times, uint64(r.ms))
+		if r.ms() > 0 {
+			times = append(times, uint64(r.ms()))
 		}
 	}
 	d.Judgments = len(d.rows)
@@ -133,8 +133,8 @@ func quantileMs(sorted []uint64, q float64) int {
 func leaveOneOut(rows []deskRow, p int, buf []int8) (int, bool, []int8) {
 	buf = buf[:0]
 	for q, r := range rows {
-		if q != p && r.grade < gradeDisturbing {
-			buf = append(buf, r.grade)
+		if q != p && r.grade() < gradeDisturbing {
+			buf = append(buf, r.grade())
 		}
 	}
 	if len(buf) == 0 {
@@ -164,42 +164,42 @@ func (d *Desk) assessorFigures() {
 		rows := d.rows[d.pairs[p]:d.pairs[p+1]]
 		sorted = sorted[:0]
 		for _, r := range rows {
-			if r.grade < gradeDisturbing {
-				sorted = append(sorted, r.grade)
+			if r.grade() < gradeDisturbing {
+				sorted = append(sorted, r.grade())
 			}
 		}
 		slices.Sort(sorted)
 		m := len(sorted)
 		for _, r := range rows {
-			i, ok := slot[r.user]
+			i, ok := slot[r.user()]
 			if !ok {
 				i = int32(len(accs))
-				slot[r.user] = i
-				accs = append(accs, &acc{f: AssessorFigures{UserID: r.user, Username: d.users[r.user], Grades: make([]int, d.Scale)}})
+				slot[r.user()] = i
+				accs = append(accs, &acc{f: AssessorFigures{UserID: r.user(), Username: d.users[r.user()], Grades: make([]int, d.Scale)}})
 			}
 			a := accs[i]
 			a.f.Judgments++
-			if r.ms > 0 {
-				times = append(times, uint64(i)<<32|uint64(uint32(r.ms)))
+			if r.ms() > 0 {
+				times = append(times, uint64(i)<<32|uint64(uint32(r.ms())))
 				a.nTimes++
 			}
-			if r.grade >= gradeDisturbing {
+			if r.grade() >= gradeDisturbing {
 				a.f.CannotJudge++
 				continue
 			}
-			if int(r.grade) < d.Scale {
-				a.f.Grades[r.grade]++
+			if int(r.grade()) < d.Scale {
+				a.f.Grades[r.grade()]++
 			}
 			if m < 2 {
 				continue
 			}
 			// Lower median of the others: drop one copy of the grade from the sorted grades.
-			pos, _ := slices.BinarySearch(sorted, r.grade)
+			pos, _ := slices.BinarySearch(sorted, r.grade())
 			idx := (m - 2) / 2
 			if pos <= idx {
 				idx++
 			}
-			c := compared{r.at, r.id, sorted[idx] == r.grade}
+			c := compared{r.at, r.id(), sorted[idx] == r.grade()}
 			a.n++
 			if c.agree {
 				a.agree++
@@ -328,13 +328,13 @@ func (d *Desk) ConsensusConfusion(userID int64) [][]int {
 	for p := 0; p+1 < len(d.pairs); p++ {
 		rows := d.rows[d.pairs[p]:d.pairs[p+1]]
 		for i, r := range rows {
-			if r.user != userID || r.grade >= gradeDisturbing || int(r.grade) >= d.Scale {
+			if r.user() != userID || r.grade() >= gradeDisturbing || int(r.grade()) >= d.Scale {
 				continue
 			}
 			var c int
 			var ok bool
 			if c, ok, buf = leaveOneOut(rows, i, buf); ok {
-				out[r.grade][c]++
+				out[r.grade()][c]++
 			}
 		}
 	}

@@ -19,7 +19,7 @@ func refActivity(d *Desk) {
 	for p := 0; p+1 < len(d.pairs); p++ {
 		flagged := false
 		for _, r := range d.rows[d.pairs[p]:d.pairs[p+1]] {
-			if r.grade == gradeDisturbing {
+			if r.grade() == gradeDisturbing {
 				flagged = true
 			}
 		}
@@ -29,14 +29,14 @@ func refActivity(d *Desk) {
 	}
 	for _, r := range d.rows {
 		d.Judgments++
-		if r.grade >= gradeDisturbing {
+		if r.grade() >= gradeDisturbing {
 			d.CannotJudge++
 		} else {
 			d.Graded++
 		}
 		perDay[floorDiv(r.at, 86400000)]++
-		if r.ms > 0 {
-			times = append(times, r.ms)
+		if r.ms() > 0 {
+			times = append(times, r.ms())
 		}
 	}
 	days := make([]int64, 0, len(perDay))
@@ -63,27 +63,27 @@ func refAssessorFigures(d *Desk) {
 	for p := 0; p+1 < len(d.pairs); p++ {
 		rows := d.rows[d.pairs[p]:d.pairs[p+1]]
 		for i, r := range rows {
-			a := by[r.user]
+			a := by[r.user()]
 			if a == nil {
-				a = &acc{f: AssessorFigures{UserID: r.user, Username: d.users[r.user], Grades: make([]int, d.Scale)}}
-				by[r.user] = a
+				a = &acc{f: AssessorFigures{UserID: r.user(), Username: d.users[r.user()], Grades: make([]int, d.Scale)}}
+				by[r.user()] = a
 			}
 			a.f.Judgments++
-			if r.ms > 0 {
-				a.times = append(a.times, r.ms)
+			if r.ms() > 0 {
+				a.times = append(a.times, r.ms())
 			}
-			if r.grade >= gradeDisturbing {
+			if r.grade() >= gradeDisturbing {
 				a.f.CannotJudge++
 				continue
 			}
-			if int(r.grade) < d.Scale {
-				a.f.Grades[r.grade]++
+			if int(r.grade()) < d.Scale {
+				a.f.Grades[r.grade()]++
 			}
 			var c int
 			var ok bool
 			c, ok, buf = leaveOneOut(rows, i, buf)
 			if ok {
-				a.comp = append(a.comp, compared{r.at, r.id, c == int(r.grade)})
+				a.comp = append(a.comp, compared{r.at, r.id(), c == int(r.grade())})
 			}
 		}
 	}

@@ -43,8 +43,8 @@ func TestDeskFiguresEqualPlainComputation(t *testing.T) {
 				if rng.IntN(4) == 0 {
 					at = 1000 * int64(rng.IntN(5)) // many equal timestamps
 				}
-				rows = append(rows, deskRow{pair: int64(p + 1), user: int64(10 + u*7), id: int64(ids[len(rows)]), at: at,
-					ms: int32(rng.IntN(3) * rng.IntN(1<<23)), grade: g}) // below 2^24, as read
+				ms := int32(rng.IntN(3) * rng.IntN(1<<23)) // below 2^24, as read
+				rows = append(rows, newDeskRow(int64(p+1), int64(10+u*7), g, int64(ids[len(rows)]), ms, at))
 			}
 		}
 		fast := &Desk{Scale: scale, users: users, rows: rows, Gold: map[string]int{}, goldPair: map[int64]int{}}

@@ -71,8 +71,8 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 	if err != nil {
 		return nil, err
 	}
-	if maxPair >= 1<<35 {
-		return nil, errors.New("store: pair ids beyond 2^35 do not fit the desk's packing")
+	if maxPair >= 1<<35 || d.seenID >= 1<<39 {
+		return nil, errors.New("store: pair ids beyond 2^35 or judgment ids beyond 2^39 do not fit the desk's packing")
 	}
 	if d.Gold, d.goldPair, err = goldGrades(ctx, tx, projectID); err != nil {
 		return nil, err
@@ -116,10 +116,7 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 }
 
 func compareDeskRows(a, b deskRow) int {
-	if c := cmp.Compare(a.pair, b.pair); c != 0 {
-		return c
-	}
-	return cmp.Compare(a.user, b.user)
+	return cmp.Compare(a.key>>4, b.key>>4)
 }
 
 // deskRetired lists the judgments of the project that stopped counting after log entry
@@ -135,14 +132,14 @@ func deskRetired(ctx context.Context, tx *sql.Tx, projectID, since int64) ([]des
 	var out []deskRow
 	for rows.Next() {
 		var kind int
-		var r deskRow
-		if err := rows.Scan(&kind, &r.id, &r.pair, &r.user); err != nil {
+		var id, pair, user int64
+		if err := rows.Scan(&kind, &id, &pair, &user); err != nil {
 			return nil, false, err
 		}
 		if kind != 0 {
 			return nil, false, nil
 		}
-		out = append(out, r)
+		out = append(out, newDeskRow(pair, user, 0, id, 0, 0))
 	}
 	return out, true, rows.Err()
 }
@@ -218,14 +215,8 @@ func scanDeskRows(rows *sql.Rows, err error) ([]deskRow, error) {
 		if err := rows.Scan(&a, &b, &at); err != nil {
 			return nil, err
 		}
-		out = append(out, deskRow{
-			pair:  a >> 28,
-			user:  (a >> 4) & (1<<24 - 1),
-			grade: int8(a & 15),
-			id:    b >> 24,
-			ms:    int32(b & (1<<24 - 1)),
-			at:    unixMillis(at),
-		})
+		// The query packs pair, user and grade as the key does, and id with time spent.
+		out = append(out, deskRow{key: uint64(a), idms: uint64(b), at: unixMillis(at)})
 	}
 	return out, rows.Err()
 }
@@ -242,7 +233,7 @@ func mergeDeskRows(old, added, retired []deskRow) []deskRow {
 	}
 	var drop []int // positions in old
 	for _, r := range retired {
-		if i := find(r); i < len(old) && old[i].id == r.id {
+		if i := find(r); i < len(old) && old[i].id() == r.id() {
 			drop = append(drop, i)
 		}
 	}
@@ -279,9 +270,9 @@ func (d *Desk) derive() error {
 	d.pairs = d.pairs[:0]
 	var lastPair int64 = -1
 	for i, r := range d.rows {
-		if r.pair != lastPair {
+		if r.pair() != lastPair {
 			d.pairs = append(d.pairs, i)
-			lastPair = r.pair
+			lastPair = r.pair()
 		}
 	}
 	d.pairs = append(d.pairs, len(d.rows))
@@ -301,8 +292,8 @@ func (d *Desk) derive() error {
 	}
 	d.Data.Grow(len(d.rows))
 	for _, r := range d.rows {
-		if r.grade >= 0 && int(r.grade) < d.Scale {
-			if err := d.Data.AddID(r.pair, r.user, int(r.grade)); err != nil {
+		if r.grade() >= 0 && int(r.grade()) < d.Scale {
+			if err := d.Data.AddID(r.pair(), r.user(), int(r.grade())); err != nil {
 				return err
 			}
 		}
