@@ -12,10 +12,12 @@ import (
 
 // Desk is a snapshot of everything the lead's pages compute from a project's current
 // judgments: the agreement report, per-assessor figures, activity, and per-pair summaries for
-// the disagreement queue. It is built in one pass over the judgments and cached per project
-// until project_versions.version changes (triggers bump it on every judgment and pair
-// change), so repeated views are instant and never stale. Adjudications are not part of it:
-// they are small and read fresh.
+// the disagreement queue. It is cached per project until project_versions.version changes
+// (triggers bump it on every judgment and pair change), so repeated views are instant and
+// never stale; the next desk is made from this one and the judgments changed since
+// (store/deskload.go), read from the database in full only when that cannot be done.
+// Adjudications are not part of it: they are small and read fresh. A desk never changes
+// once returned.
 type Desk struct {
 	ProjectID int64
 	Version   int64
