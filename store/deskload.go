@@ -90,14 +90,19 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 		}
 	}
 	if incremental {
-		added, err := scanDeskRows(tx.QueryContext(ctx, deskNewQuery, projectID, old.seenID))
+		rows, err := tx.QueryContext(ctx, deskNewQuery, projectID, old.seenID)
+		added, err := scanDeskRows(rows, err, 0)
 		if err != nil {
 			return nil, err
 		}
 		d.rows = mergeDeskRows(old.rows, added, retired)
 		d.Incremental = true
 	} else {
-		if d.rows, err = scanDeskRows(tx.QueryContext(ctx, deskQuery, projectID)); err != nil {
+		// Room for the judgments pairs.judged counts, so a million rows are not copied
+		// over and over while the slice grows (gold pairs and sources may add a few).
+		hint := d.Progress.Judgments + d.Progress.Judgments/32 + 1024
+		rows, err := tx.QueryContext(ctx, deskQuery, projectID)
+		if d.rows, err = scanDeskRows(rows, err, hint); err != nil {
 			return nil, err
 		}
 		if !slices.IsSortedFunc(d.rows, compareDeskRows) {
@@ -203,12 +208,14 @@ func goldGrades(ctx context.Context, tx *sql.Tx, projectID int64) (map[string]in
 	return gold, goldPair, rows.Err()
 }
 
-func scanDeskRows(rows *sql.Rows, err error) ([]deskRow, error) {
+// scanDeskRows reads the rows of deskQuery or deskNewQuery (with the query's error) into a
+// slice made with the given capacity.
+func scanDeskRows(rows *sql.Rows, err error, capacity int) ([]deskRow, error) {
 	if err != nil {
 		return nil, err
 	}
+	out := make([]deskRow, 0, capacity)
 	defer rows.Close()
-	var out []deskRow
 	var a, b int64
 	var at sql.RawBytes
 	for rows.Next() {
