@@ -6,6 +6,7 @@ import (
 	"runtime"
 	"slices"
 	"sync"
+	"sync/atomic"
 )
 
 // BootstrapOptions configures item-resampling bootstrap intervals.
@@ -14,6 +15,10 @@ type BootstrapOptions struct {
 	Seed       uint64  // replicate r draws from PCG(Seed, r), so results do not depend on Workers
 	Level      float64 // two-sided level, e.g. 0.95 (0 means 0.95)
 	Workers    int     // goroutines; 0 means GOMAXPROCS
+	// Stop, when set, is asked between replicates; once it returns true the bootstrap gives
+	// up and returns a result with Stopped set and no intervals (for a caller whose data went
+	// stale while it ran). It may be called from several goroutines at once.
+	Stop func() bool
 }
 
 // BootCI is a percentile bootstrap interval. Used counts the replicates in
@@ -52,6 +57,7 @@ type BootstrapResult struct {
 	Level              float64  `json:"level"`
 	Alpha              AlphaCIs `json:"alpha"`
 	MeanQuadraticKappa BootCI   `json:"mean_quadratic_kappa"`
+	Stopped            bool     `json:"stopped,omitempty"` // Stop ended it early: no intervals
 }
 
 // Bootstrap resamples the items that have two or more ratings (the only
@@ -99,6 +105,7 @@ func bootstrapOf(ix *index, full *tally, o BootstrapOptions) BootstrapResult {
 		workers = runtime.GOMAXPROCS(0)
 	}
 	workers = min(workers, o.Replicates)
+	var stopped atomic.Bool
 	var wg sync.WaitGroup
 	for w := range workers {
 		wg.Go(func() {
@@ -112,6 +119,10 @@ func bootstrapOf(ix *index, full *tally, o BootstrapOptions) BootstrapResult {
 			mult := make([]int32, len(pairable))
 			n := len(pairable)
 			for r := w; r < o.Replicates; r += workers {
+				if o.Stop != nil && (stopped.Load() || o.Stop()) {
+					stopped.Store(true)
+					return
+				}
 				rng := rand.New(rand.NewPCG(o.Seed, uint64(r)))
 				clear(mult)
 				for range n {
@@ -139,6 +150,14 @@ func bootstrapOf(ix *index, full *tally, o BootstrapOptions) BootstrapResult {
 		})
 	}
 	wg.Wait()
+	if stopped.Load() {
+		w := "bootstrap stopped before it finished"
+		u := BootCI{Lo: undefined(w), Hi: undefined(w)}
+		res.Alpha = AlphaCIs{u, u, u, u}
+		res.MeanQuadraticKappa = u
+		res.Stopped = true
+		return res
+	}
 
 	ci := func(j int) BootCI {
 		xs := make([]float64, 0, o.Replicates)

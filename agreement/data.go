@@ -21,7 +21,8 @@ type Rating struct {
 
 // Data collects judgments on a scale of K grades. Items and raters are keyed
 // either by strings (Add) or by int64 ids (AddID), not both in one Data; an
-// int64 id is named by its decimal form in results. A later judgment for the
+// int64 id is named by its decimal form in results (raters by NameRaters
+// when given). A later judgment for the
 // same item and rater replaces the earlier one (edits supersede).
 //
 // Data interns keys to dense ints once and builds a per-item index lazily on
@@ -37,6 +38,8 @@ type Data struct {
 	itemNames         []string
 	raterNames        []string
 	itemIDs, raterIDs []int64
+	raterLabel        func(int64) string // names of id-keyed raters (NameRaters)
+	lastItem          int32              // item of the latest AddID, since input often comes by item
 
 	jItem, jRater []int32
 	jGrade        []uint8
@@ -142,14 +145,12 @@ func (d *Data) AddID(item, rater int64, g int) error {
 	}
 	if d.keyed == 0 {
 		d.keyed = keyID
-		d.itemID = map[int64]int32{}
 		d.raterID = map[int64]int32{}
 	}
-	it, ok := d.itemID[item]
-	if !ok {
-		it = int32(len(d.itemIDs))
-		d.itemID[item] = it
-		d.itemIDs = append(d.itemIDs, item)
+	it := d.lastItem
+	if len(d.itemIDs) == 0 || d.itemIDs[it] != item {
+		it = d.internItem(item)
+		d.lastItem = it
 	}
 	r, ok := d.raterID[rater]
 	if !ok {
@@ -159,6 +160,57 @@ func (d *Data) AddID(item, rater int64, g int) error {
 	}
 	d.push(it, r, g)
 	return nil
+}
+
+// NameRaters names the raters of id-keyed data (AddID) by name(id) instead of their decimal
+// ids, and orders them by those names as string-keyed data would be: a Data built with
+// AddID(item, id, g) and NameRaters(name) gives the same results as one built with
+// Add(decimal item, name(id), g). Names must be distinct and non-empty; name is called
+// whenever the per-item form is rebuilt.
+func (d *Data) NameRaters(name func(id int64) string) error {
+	if d.keyed == keyString {
+		return errMixedKeys
+	}
+	d.raterLabel = name
+	d.ix = nil
+	return nil
+}
+
+// internItem returns the index of an int64 item, adding it when new. While items arrive in
+// ascending order (as from a sorted query) itemIDs is sorted and no map is kept: a new item
+// is one above the last, an old one is found by binary search.
+func (d *Data) internItem(item int64) int32 {
+	n := len(d.itemIDs)
+	if d.itemID == nil {
+		if n == 0 || item > d.itemIDs[n-1] {
+			d.itemIDs = append(d.itemIDs, item)
+			return int32(n)
+		}
+		if i, ok := slices.BinarySearch(d.itemIDs, item); ok {
+			return int32(i)
+		}
+		d.itemID = make(map[int64]int32, n+1)
+		for i, id := range d.itemIDs {
+			d.itemID[id] = int32(i)
+		}
+	}
+	it, ok := d.itemID[item]
+	if !ok {
+		it = int32(n)
+		d.itemID[item] = it
+		d.itemIDs = append(d.itemIDs, item)
+	}
+	return it
+}
+
+// findItem looks up an int64 item without adding it.
+func (d *Data) findItem(item int64) (int32, bool) {
+	if d.itemID == nil {
+		i, ok := slices.BinarySearch(d.itemIDs, item)
+		return int32(i), ok
+	}
+	it, ok := d.itemID[item]
+	return it, ok
 }
 
 func (d *Data) push(it, r int32, g int) {
@@ -226,19 +278,26 @@ func (d *Data) build() *index {
 	for i := range order {
 		order[i] = int32(i)
 	}
-	if d.keyed == keyID {
+	names := d.raterNames
+	if d.keyed == keyID && d.raterLabel != nil {
+		names = make([]string, nR)
+		for r, id := range d.raterIDs {
+			names[r] = d.raterLabel(id)
+		}
+	}
+	if d.keyed == keyID && d.raterLabel == nil {
 		slices.SortFunc(order, func(a, b int32) int { return cmp.Compare(d.raterIDs[a], d.raterIDs[b]) })
 	} else {
-		slices.SortFunc(order, func(a, b int32) int { return cmp.Compare(d.raterNames[a], d.raterNames[b]) })
+		slices.SortFunc(order, func(a, b int32) int { return cmp.Compare(names[a], names[b]) })
 	}
 	rank := make([]int32, nR)
 	ix.raterNames = make([]string, nR)
 	for pos, r := range order {
 		rank[r] = int32(pos)
-		if d.keyed == keyID {
+		if d.keyed == keyID && d.raterLabel == nil {
 			ix.raterNames[pos] = strconv.FormatInt(d.raterIDs[r], 10)
 		} else {
-			ix.raterNames[pos] = d.raterNames[r]
+			ix.raterNames[pos] = names[r]
 		}
 	}
 

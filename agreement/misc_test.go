@@ -178,6 +178,19 @@ func TestBootstrap(t *testing.T) {
 	if ci := a.MeanQuadraticKappa; !(ci.Lo.V < mk.V && mk.V < ci.Hi.V) {
 		t.Errorf("mean kappa %v not inside [%v, %v]", mk, ci.Lo, ci.Hi)
 	}
+
+	// Stop is asked between replicates: one that never fires changes nothing, one that fires
+	// after a few replicates leaves no interval behind.
+	o = BootstrapOptions{Replicates: 200, Seed: 42, Stop: func() bool { return false }}
+	if s := Bootstrap(d, o); !reflect.DeepEqual(a, s) {
+		t.Error("a Stop that never fires changed the result")
+	}
+	asked := 0
+	o.Workers, o.Stop = 1, func() bool { asked++; return asked > 5 }
+	s := Bootstrap(d, o)
+	if !s.Stopped || s.Alpha.Ordinal.Lo.OK || s.MeanQuadraticKappa.Hi.OK || asked != 6 {
+		t.Errorf("stopped bootstrap: %+v after %d questions", s, asked)
+	}
 }
 
 func TestPercentile(t *testing.T) {

@@ -146,7 +146,7 @@ func goldIndex(d *Data, ix *index, gold map[string]int) ([]int, int) {
 		if d.keyed == keyID {
 			id, err := strconv.ParseInt(name, 10, 64)
 			if err == nil {
-				it, ok = d.itemID[id]
+				it, ok = d.findItem(id)
 			}
 		} else {
 			it, ok = d.itemStr[name]

@@ -4,8 +4,6 @@ import (
 	"context"
 	"database/sql"
 	"errors"
-	"slices"
-	"strconv"
 	"sync"
 	"time"
 
@@ -14,16 +12,20 @@ import (
 
 // Desk is a snapshot of everything the lead's pages compute from a project's current
 // judgments: the agreement report, per-assessor figures, activity, and per-pair summaries for
-// the disagreement queue. It is built in one pass over the judgments and cached per project
-// until project_versions.version changes (triggers bump it on every judgment and pair
-// change), so repeated views are instant and never stale. Adjudications are not part of it:
-// they are small and read fresh.
+// the disagreement queue. It is cached per project until project_versions.version changes
+// (triggers bump it on every judgment and pair change), so repeated views are instant and
+// never stale; the next desk is made from this one and the judgments changed since
+// (store/deskload.go), read from the database in full only when that cannot be done.
+// Adjudications are not part of it: they are small and read fresh. A desk never changes
+// once returned.
 type Desk struct {
 	ProjectID int64
 	Version   int64
 	Scale     int
 	BuiltAt   time.Time
 	BuildTook time.Duration
+	// Incremental tells that the desk was made from the previous one and the changes since.
+	Incremental bool
 
 	// Data holds the current grades exactly as AgreementData builds them (items named by pair
 	// id, raters by username, added in pair order), so the report equals the CLI's.
@@ -44,26 +46,39 @@ type Desk struct {
 	Assessors      []AssessorFigures
 	BootstrapCount int // replicates the bootstrap uses for this data size
 
-	rows     []deskRow // current judgments sorted by pair, then user
-	pairs    []int     // start of each pair's rows in rows; len = pairs with judgments + 1
-	users    map[int64]string
-	goldPair map[int64]int
-	cache    *deskCache
+	rows []deskRow // current judgments sorted by pair, then user; never changed once built
+	// The judgments the desk has seen: every id up to seenID and desk_log up to seenLog, read
+	// in one snapshot, so the next desk reads only what lies beyond (store/deskload.go).
+	seenID, seenLog int64
+	pairs           []int // start of each pair's rows in rows; len = pairs with judgments + 1
+	users           map[int64]string
+	goldPair        map[int64]int
+	cache           *deskCache
 
 	boot    lazy[agreement.BootstrapResult]
 	ds      lazy[dsSnapshot]
 	queries lazy[queryInfo]
 }
 
-// deskRow is one current judgment, packed small: a million of them stay in a few tens of MB.
+// deskRow is one current judgment, packed into 24 bytes: a million of them stay at 24 MB,
+// and the copy a change makes is quick. key holds pair (35 bits), user (24) and grade (4), so
+// ordering by key>>4 orders by pair, then user; idms holds the judgment id (40 bits) and the
+// time spent in ms (24 bits, capped).
 type deskRow struct {
-	pair  int64
-	id    int64
-	user  int64
-	at    int64 // Unix milliseconds
-	ms    int32 // time spent
-	grade int8  // 0.. on the scale; gradeCannot or gradeDisturbing when no grade
+	key  uint64
+	idms uint64
+	at   int64 // Unix milliseconds
 }
+
+func newDeskRow(pair, user int64, grade int8, id int64, ms int32, at int64) deskRow {
+	return deskRow{key: uint64(pair)<<28 | uint64(user)<<4 | uint64(grade)&15, idms: uint64(id)<<24 | uint64(ms)&(1<<24-1), at: at}
+}
+
+func (r deskRow) pair() int64 { return int64(r.key >> 28) }
+func (r deskRow) user() int64 { return int64(r.key>>4) & (1<<24 - 1) }
+func (r deskRow) grade() int8 { return int8(r.key & 15) } // 0.. on the scale, or gradeCannot/gradeDisturbing
+func (r deskRow) id() int64   { return int64(r.idms >> 24) }
+func (r deskRow) ms() int32   { return int32(r.idms & (1<<24 - 1)) }
 
 const (
 	gradeDisturbing = 14
@@ -121,7 +136,30 @@ type deskCache struct {
 	mu       sync.Mutex
 	desks    map[int64]*Desk
 	building map[int64]*sync.Mutex
-	bg       chan struct{} // one background computation at a time
+	latest   map[int64]int64 // newest version seen per project: older desks are stale
+	bg       chan struct{}   // one background computation at a time
+}
+
+// seen records that a project has reached version v.
+func (c *deskCache) seen(projectID, v int64) {
+	c.mu.Lock()
+	if c.latest == nil {
+		c.latest = map[int64]int64{}
+	}
+	c.latest[projectID] = max(c.latest[projectID], v)
+	c.mu.Unlock()
+}
+
+// stale tells that a newer version of the desk's project has been seen, so a slow
+// computation for it can stop: no page will show its result.
+func (d *Desk) stale() bool {
+	c := d.cache
+	if c == nil {
+		return false
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.latest[d.ProjectID] > d.Version
 }
 
 // background runs fn for a desk of a large project, one at a time per store, and skips it
@@ -156,6 +194,7 @@ func (s *Store) Desk(ctx context.Context, projectID int64) (*Desk, error) {
 		return nil, err
 	}
 	c := &s.desks
+	c.seen(projectID, v)
 	c.mu.Lock()
 	if d := c.desks[projectID]; d != nil && d.Version == v {
 		c.mu.Unlock()
@@ -185,137 +224,16 @@ func (s *Store) Desk(ctx context.Context, projectID int64) (*Desk, error) {
 	if d != nil && d.Version == v {
 		return d, nil
 	}
-	d, err = s.buildDesk(ctx, projectID, v)
+	d, err = s.loadDesk(ctx, projectID, d)
 	if err != nil {
 		return nil, err
 	}
 	d.cache = c
+	c.seen(projectID, d.Version)
 	c.mu.Lock()
 	c.desks[projectID] = d
 	c.mu.Unlock()
 	return d, nil
-}
-
-// deskQuery reads a project's current judgments with few columns, since the cost of a
-// million rows is mostly per row and column read: pair, user and grade (or cannot-judge
-// kind) in one integer, judgment id and time spent in another. (Two readers on halves of
-// the pair ids were slower than one on two cores.)
-const deskQuery = `SELECT (j.pair_id << 28) | (j.user_id << 4) |
-		COALESCE(j.grade, CASE j.cannot_judge WHEN 'disturbing' THEN 14 ELSE 15 END),
-		(j.id << 24) | MIN(j.time_spent_ms, 16777215), j.created_at
-	FROM judgments j JOIN pairs p ON p.id = j.pair_id
-	WHERE p.project_id = ?1 AND j.current = 1`
-
-func (s *Store) buildDesk(ctx context.Context, projectID, version int64) (*Desk, error) {
-	start := time.Now()
-	levels, err := s.Scale(ctx, projectID)
-	if err != nil {
-		return nil, err
-	}
-	if len(levels) < 2 {
-		return nil, ErrNotFound
-	}
-	users, err := s.UserNames(ctx)
-	if err != nil {
-		return nil, err
-	}
-	for id := range users {
-		if id >= 1<<24 {
-			return nil, errors.New("store: user ids beyond 2^24 do not fit the desk's packing")
-		}
-	}
-	rows, err := s.deskRows(ctx, projectID)
-	if err != nil {
-		return nil, err
-	}
-	progress, err := s.ProjectProgress(ctx, projectID)
-	if err != nil {
-		return nil, err
-	}
-	slices.SortFunc(rows, func(a, b deskRow) int {
-		if a.pair != b.pair {
-			return int(a.pair - b.pair)
-		}
-		return int(a.user - b.user)
-	})
-
-	gold, goldPair := map[string]int{}, map[int64]int{}
-	grows, err := s.r.QueryContext(ctx, `SELECT id, gold_grade FROM pairs WHERE project_id = ? AND gold_grade IS NOT NULL`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	for grows.Next() {
-		var id int64
-		var g int
-		if err := grows.Scan(&id, &g); err != nil {
-			grows.Close()
-			return nil, err
-		}
-		gold[strconv.FormatInt(id, 10)] = g
-		goldPair[id] = g
-	}
-	grows.Close()
-	if err := grows.Err(); err != nil {
-		return nil, err
-	}
-
-	d := &Desk{ProjectID: projectID, Version: version, Scale: len(levels), rows: rows, users: users, Gold: gold, goldPair: goldPair, Progress: progress}
-	d.Data = agreement.NewData(len(levels))
-	d.Data.Grow(len(rows))
-	var item string
-	var lastPair int64 = -1
-	for i, r := range rows {
-		if r.pair != lastPair {
-			d.pairs = append(d.pairs, i)
-			lastPair = r.pair
-			item = strconv.FormatInt(r.pair, 10)
-		}
-		if r.grade >= 0 && int(r.grade) < len(levels) {
-			if err := d.Data.Add(item, users[r.user], int(r.grade)); err != nil {
-				return nil, err
-			}
-		}
-	}
-	d.pairs = append(d.pairs, len(rows))
-	d.Report = agreement.Compute(d.Data, agreement.Options{Gold: gold})
-	d.BootstrapCount = BootstrapReplicates(d.Report.Judgments)
-	d.activity()
-	d.assessorFigures()
-	d.BuiltAt = time.Now()
-	d.BuildTook = time.Since(start)
-	return d, nil
-}
-
-func (s *Store) deskRows(ctx context.Context, projectID int64) ([]deskRow, error) {
-	var maxPair sql.NullInt64
-	if err := s.r.QueryRowContext(ctx, `SELECT MAX(id) FROM pairs WHERE project_id = ?`, projectID).Scan(&maxPair); err != nil {
-		return nil, err
-	}
-	if maxPair.Int64 >= 1<<35 {
-		return nil, errors.New("store: pair ids beyond 2^35 do not fit the desk's packing")
-	}
-	rows, err := s.r.QueryContext(ctx, deskQuery, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []deskRow
-	var a, b int64
-	var at sql.RawBytes
-	for rows.Next() {
-		if err := rows.Scan(&a, &b, &at); err != nil {
-			return nil, err
-		}
-		out = append(out, deskRow{
-			pair:  a >> 28,
-			user:  (a >> 4) & (1<<24 - 1),
-			grade: int8(a & 15),
-			id:    b >> 24,
-			ms:    int32(b & (1<<24 - 1)),
-			at:    unixMillis(at),
-		})
-	}
-	return out, rows.Err()
 }
 
 // unixMillis reads the store's fixed time layout (2006-01-02T15:04:05.000Z) without the
@@ -387,14 +305,23 @@ func (l *lazy[T]) get(fn func() T, wait bool) (T, bool) {
 
 // Bootstrap returns the bootstrap intervals (alpha, mean quadratic kappa) with
 // BootstrapCount replicates and BootstrapSeed. For small data it waits; for large data it
-// starts them in the background and ok is false until they are done.
+// starts them in the background and ok is false until they are done. A background run stops
+// as soon as a newer version of the project is seen, so it never slows the desk that
+// replaces it; ok stays false for this desk then.
 func (d *Desk) Bootstrap() (agreement.BootstrapResult, bool) {
-	return d.boot.get(func() (r agreement.BootstrapResult) {
-		d.slow(func() {
-			r = agreement.Bootstrap(d.Data, agreement.BootstrapOptions{Replicates: d.BootstrapCount, Seed: BootstrapSeed})
-		})
+	r, ok := d.boot.get(func() (r agreement.BootstrapResult) {
+		o := agreement.BootstrapOptions{Replicates: d.BootstrapCount, Seed: BootstrapSeed}
+		if d.Background() {
+			o.Stop = d.stale
+		}
+		r.Stopped = true // unless it runs: the queue skips desks already replaced
+		d.slow(func() { r = agreement.Bootstrap(d.Data, o) })
 		return r
 	}, !d.Background())
+	if r.Stopped {
+		return agreement.BootstrapResult{}, false
+	}
+	return r, ok
 }
 
 // slow runs a slow computation: at once for small data, else through the background queue.

@@ -2,6 +2,9 @@ package store
 
 import (
 	"cmp"
+	"maps"
+	"math"
+	"math/bits"
 	"slices"
 	"strconv"
 	"time"
@@ -9,43 +12,95 @@ import (
 	"github.com/pertinent/pertinent/agreement"
 )
 
-// activity fills the counts, judgments per day and the spread of time per judgment.
+// activity fills the counts, judgments per day and the spread of time per judgment, in
+// passes over the rows without a map or a comparison sort (a million rows take a few ms).
 func (d *Desk) activity() {
-	perDay := map[int64]int{}
-	times := make([]int32, 0, len(d.rows))
 	for p := 0; p+1 < len(d.pairs); p++ {
-		flagged := false
 		for _, r := range d.rows[d.pairs[p]:d.pairs[p+1]] {
-			if r.grade == gradeDisturbing {
-				flagged = true
+			if r.grade() == gradeDisturbing {
+				d.Flagged++
+				break
 			}
 		}
-		if flagged {
-			d.Flagged++
-		}
 	}
+	if len(d.rows) == 0 {
+		return
+	}
+	times := make([]uint64, 0, len(d.rows))
+	first, last := int64(math.MaxInt64), int64(math.MinInt64)
 	for _, r := range d.rows {
-		d.Judgments++
-		if r.grade >= gradeDisturbing {
+		if r.grade() >= gradeDisturbing {
 			d.CannotJudge++
 		} else {
 			d.Graded++
 		}
-		perDay[floorDiv(r.at, 86400000)]++
-		if r.ms > 0 {
-			times = append(times, r.ms)
+		day := floorDiv(r.at, 86400000)
+		first, last = min(first, day), max(last, day)
+		if r.ms() > 0 {
+			times = append(times, uint64(r.ms()))
 		}
 	}
-	days := make([]int64, 0, len(perDay))
-	for day := range perDay {
-		days = append(days, day)
+	d.Judgments = len(d.rows)
+	if last-first < 1<<20 {
+		perDay := make([]int, last-first+1)
+		for _, r := range d.rows {
+			perDay[floorDiv(r.at, 86400000)-first]++
+		}
+		for i, n := range perDay {
+			if n > 0 {
+				d.PerDay = append(d.PerDay, dayCount(first+int64(i), n))
+			}
+		}
+	} else { // timestamps spread over millennia: count sparsely
+		perDay := map[int64]int{}
+		for _, r := range d.rows {
+			perDay[floorDiv(r.at, 86400000)]++
+		}
+		days := slices.Sorted(maps.Keys(perDay))
+		for _, day := range days {
+			d.PerDay = append(d.PerDay, dayCount(day, perDay[day]))
+		}
 	}
-	slices.Sort(days)
-	for _, day := range days {
-		d.PerDay = append(d.PerDay, DayCount{Day: time.UnixMilli(day * 86400000).UTC().Format("2006-01-02"), Judgments: perDay[day]})
-	}
-	slices.Sort(times)
+	radixSort(times, 24, nil)
 	d.TimeQ1Ms, d.TimeMedianMs, d.TimeQ3Ms = quantileMs(times, 0.25), quantileMs(times, 0.5), quantileMs(times, 0.75)
+}
+
+func dayCount(day int64, n int) DayCount {
+	return DayCount{Day: time.UnixMilli(day * 86400000).UTC().Format("2006-01-02"), Judgments: n}
+}
+
+// radixSort sorts keys by their low bits (a multiple of 8; time spent fits 24) with stable
+// byte-wise counting passes (a byte all keys share costs one counting pass), using buf as
+// scratch space when it is long enough.
+func radixSort(keys []uint64, bits int, buf []uint64) {
+	if len(keys) < 2 {
+		return
+	}
+	if len(buf) < len(keys) {
+		buf = make([]uint64, len(keys))
+	}
+	src, dst := keys, buf[:len(keys)]
+	for shift := 0; shift < bits; shift += 8 {
+		var count [257]int
+		for _, k := range src {
+			count[(k>>shift)&255+1]++
+		}
+		if count[(src[0]>>shift)&255+1] == len(src) {
+			continue // every key has this byte: the pass would not move anything
+		}
+		for i := 1; i < 257; i++ {
+			count[i] += count[i-1]
+		}
+		for _, k := range src {
+			b := (k >> shift) & 255
+			dst[count[b]] = k
+			count[b]++
+		}
+		src, dst = dst, src
+	}
+	if &src[0] != &keys[0] {
+		copy(keys, src)
+	}
 }
 
 func floorDiv(a, b int64) int64 {
@@ -56,18 +111,20 @@ func floorDiv(a, b int64) int64 {
 	return q
 }
 
-// quantileMs is the q-quantile of sorted times by linear interpolation between order
-// statistics (type 7 of Hyndman & Fan 1996, the default of R and numpy); 0 for no data.
-func quantileMs(sorted []int32, q float64) int {
+// quantileMs is the q-quantile of sorted times (in the low 32 bits) by linear interpolation
+// between order statistics (type 7 of Hyndman & Fan 1996, the default of R and numpy); 0 for
+// no data.
+func quantileMs(sorted []uint64, q float64) int {
 	if len(sorted) == 0 {
 		return 0
 	}
+	at := func(i int) int32 { return int32(uint32(sorted[i])) }
 	h := q * float64(len(sorted)-1)
 	i := int(h)
 	if i+1 >= len(sorted) {
-		return int(sorted[len(sorted)-1])
+		return int(at(len(sorted) - 1))
 	}
-	return int(float64(sorted[i]) + (h-float64(i))*float64(sorted[i+1]-sorted[i]) + 0.5)
+	return int(float64(at(i)) + (h-float64(i))*float64(at(i+1)-at(i)) + 0.5)
 }
 
 // leaveOneOut returns, for the judgment at position p of a pair's rows, the lower median of
@@ -76,8 +133,8 @@ func quantileMs(sorted []int32, q float64) int {
 func leaveOneOut(rows []deskRow, p int, buf []int8) (int, bool, []int8) {
 	buf = buf[:0]
 	for q, r := range rows {
-		if q != p && r.grade < gradeDisturbing {
-			buf = append(buf, r.grade)
+		if q != p && r.grade() < gradeDisturbing {
+			buf = append(buf, r.grade())
 		}
 	}
 	if len(buf) == 0 {
@@ -87,56 +144,83 @@ func leaveOneOut(rows []deskRow, p int, buf []int8) (int, bool, []int8) {
 	return int(buf[(len(buf)-1)/2]), true, buf
 }
 
-type compared struct {
-	at, id int64
-	agree  bool
-}
-
-// assessorFigures builds one row per assessor with a current judgment.
+// assessorFigures builds one row per assessor with a current judgment in one pass over the
+// rows: each pair's grades are sorted once for the leave-one-out consensus, medians come from
+// one radix sort of (assessor, time) keys, and drift keeps only each assessor's latest
+// DriftWindow compared judgments.
 func (d *Desk) assessorFigures() {
 	type acc struct {
-		f     AssessorFigures
-		times []int32
-		comp  []compared
+		f      AssessorFigures
+		agree  int // compared judgments equal to consensus
+		n      int // compared judgments
+		recent latest
+		nTimes int
 	}
-	by := map[int64]*acc{}
-	var buf []int8
+	var accs []*acc
+	slot := map[int64]int32{}
+	times := make([]uint64, 0, len(d.rows))
+	var sorted []int8
 	for p := 0; p+1 < len(d.pairs); p++ {
 		rows := d.rows[d.pairs[p]:d.pairs[p+1]]
-		for i, r := range rows {
-			a := by[r.user]
-			if a == nil {
-				a = &acc{f: AssessorFigures{UserID: r.user, Username: d.users[r.user], Grades: make([]int, d.Scale)}}
-				by[r.user] = a
+		sorted = sorted[:0]
+		for _, r := range rows {
+			if r.grade() < gradeDisturbing {
+				sorted = append(sorted, r.grade())
 			}
+		}
+		slices.Sort(sorted)
+		m := len(sorted)
+		for _, r := range rows {
+			i, ok := slot[r.user()]
+			if !ok {
+				i = int32(len(accs))
+				slot[r.user()] = i
+				accs = append(accs, &acc{f: AssessorFigures{UserID: r.user(), Username: d.users[r.user()], Grades: make([]int, d.Scale)}})
+			}
+			a := accs[i]
 			a.f.Judgments++
-			if r.ms > 0 {
-				a.times = append(a.times, r.ms)
+			if r.ms() > 0 {
+				times = append(times, uint64(i)<<32|uint64(uint32(r.ms())))
+				a.nTimes++
 			}
-			if r.grade >= gradeDisturbing {
+			if r.grade() >= gradeDisturbing {
 				a.f.CannotJudge++
 				continue
 			}
-			if int(r.grade) < d.Scale {
-				a.f.Grades[r.grade]++
+			if int(r.grade()) < d.Scale {
+				a.f.Grades[r.grade()]++
 			}
-			var c int
-			var ok bool
-			c, ok, buf = leaveOneOut(rows, i, buf)
-			if ok {
-				a.comp = append(a.comp, compared{r.at, r.id, c == int(r.grade)})
+			if m < 2 {
+				continue
 			}
+			// Lower median of the others: drop one copy of the grade from the sorted grades.
+			pos, _ := slices.BinarySearch(sorted, r.grade())
+			idx := (m - 2) / 2
+			if pos <= idx {
+				idx++
+			}
+			c := compared{r.at, r.id(), sorted[idx] == r.grade()}
+			a.n++
+			if c.agree {
+				a.agree++
+			}
+			a.recent.add(c)
 		}
 	}
+	// By assessor, then time: LSD passes over the time's bytes, then the assessor's.
+	radixSort(times, 32+8*((bits.Len(uint(len(accs)))+7)/8), nil)
+
 	stats := map[string]agreement.RaterStats{}
 	for _, s := range d.Report.RaterStats {
 		stats[s.Rater] = s
 	}
-	for _, a := range by {
+	d.Assessors = make([]AssessorFigures, 0, len(accs))
+	for _, a := range accs {
 		f := &a.f
 		f.CannotShare = float64(f.CannotJudge) / float64(f.Judgments)
-		slices.Sort(a.times)
-		f.MedianMs = quantileMs(a.times, 0.5)
+		n := a.nTimes
+		f.MedianMs = quantileMs(times[:n], 0.5)
+		times = times[n:]
 		if s, ok := stats[f.Username]; ok {
 			f.Stats = s
 		} else {
@@ -145,36 +229,81 @@ func (d *Desk) assessorFigures() {
 				MeanKappaQuadratic: agreement.Value{Why: why}, ConsensusAgreement: agreement.Value{Why: why},
 				ConsensusMAE: agreement.Value{Why: why}, GoldAccuracy: agreement.Value{Why: why}, GoldMAE: agreement.Value{Why: why}}
 		}
-		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = drift(a.comp)
+		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = drift(a.n, a.agree, &a.recent)
 		d.Assessors = append(d.Assessors, *f)
 	}
 	slices.SortFunc(d.Assessors, func(a, b AssessorFigures) int { return cmp.Compare(a.Username, b.Username) })
 }
 
-// drift orders compared judgments by time (then id) and sets the share agreeing with
-// consensus over the last DriftWindow against the share over all earlier ones.
-func drift(comp []compared) (recent, earlier, diff agreement.Value, earlierN int) {
-	if len(comp) <= DriftWindow {
+type compared struct {
+	at, id int64
+	agree  bool
+}
+
+func (c compared) before(o compared) bool {
+	return c.at < o.at || (c.at == o.at && c.id < o.id)
+}
+
+// latest keeps the DriftWindow latest compared judgments (by time, then id) seen so far,
+// sorted, in a ring: buf[head] is the earliest once full. Judgments that come in time order
+// take the O(1) path (the earliest is overwritten); others shift part of the window.
+type latest struct {
+	buf        [DriftWindow]compared
+	head, n    int
+	agreeCount int // agreeing judgments in the window
+}
+
+func (w *latest) at(i int) *compared { return &w.buf[(w.head+i)%DriftWindow] }
+
+func (w *latest) add(c compared) {
+	if w.n == DriftWindow && !w.at(0).before(c) {
+		return // earlier than everything kept
+	}
+	// Position among the kept ones, counted from the end (time order is the usual case).
+	p := w.n
+	for p > 0 && c.before(*w.at(p - 1)) {
+		p--
+	}
+	if w.n < DriftWindow {
+		for i := w.n; i > p; i-- {
+			*w.at(i) = *w.at(i - 1)
+		}
+		w.n++
+	} else {
+		if w.at(0).agree {
+			w.agreeCount--
+		}
+		if p == w.n {
+			// The latest so far: it takes the earliest one's place, which becomes the end.
+			w.buf[w.head] = c
+			w.head = (w.head + 1) % DriftWindow
+			if c.agree {
+				w.agreeCount++
+			}
+			return
+		}
+		// Drop the earliest: shift the ones before p down, then put c just before them.
+		for i := 0; i+1 < p; i++ {
+			*w.at(i) = *w.at(i + 1)
+		}
+		p--
+	}
+	*w.at(p) = c
+	if c.agree {
+		w.agreeCount++
+	}
+}
+
+// drift compares the share of compared judgments agreeing with consensus over the last
+// DriftWindow (recent) with the share over all earlier ones.
+func drift(n, agree int, recent *latest) (recentV, earlier, diff agreement.Value, earlierN int) {
+	if n <= DriftWindow {
 		why := "needs more than " + strconv.Itoa(DriftWindow) + " grades compared with consensus"
 		return agreement.Value{Why: why}, agreement.Value{Why: why}, agreement.Value{Why: why}, 0
 	}
-	slices.SortFunc(comp, func(a, b compared) int {
-		if c := cmp.Compare(a.at, b.at); c != 0 {
-			return c
-		}
-		return cmp.Compare(a.id, b.id)
-	})
-	share := func(cs []compared) float64 {
-		n := 0
-		for _, c := range cs {
-			if c.agree {
-				n++
-			}
-		}
-		return float64(n) / float64(len(cs))
-	}
-	cut := len(comp) - DriftWindow
-	r, e := share(comp[cut:]), share(comp[:cut])
+	late := recent.agreeCount
+	cut := n - DriftWindow
+	r, e := float64(late)/float64(DriftWindow), float64(agree-late)/float64(cut)
 	return agreement.Value{V: r, OK: true}, agreement.Value{V: e, OK: true}, agreement.Value{V: r - e, OK: true}, cut
 }
 
@@ -199,13 +328,13 @@ func (d *Desk) ConsensusConfusion(userID int64) [][]int {
 	for p := 0; p+1 < len(d.pairs); p++ {
 		rows := d.rows[d.pairs[p]:d.pairs[p+1]]
 		for i, r := range rows {
-			if r.user != userID || r.grade >= gradeDisturbing || int(r.grade) >= d.Scale {
+			if r.user() != userID || r.grade() >= gradeDisturbing || int(r.grade()) >= d.Scale {
 				continue
 			}
 			var c int
 			var ok bool
 			if c, ok, buf = leaveOneOut(rows, i, buf); ok {
-				out[r.grade][c]++
+				out[r.grade()][c]++
 			}
 		}
 	}

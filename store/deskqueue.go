@@ -83,20 +83,20 @@ func (d *Desk) queryAgreement(qi queryInfo) []QueryAgreement {
 	by := map[int64]*acc{}
 	for p := 0; p+1 < len(d.pairs); p++ {
 		rows := d.rows[d.pairs[p]:d.pairs[p+1]]
-		q := qi.pairQuery[rows[0].pair]
+		q := qi.pairQuery[rows[0].pair()]
 		a := by[q]
 		if a == nil {
 			a = &acc{data: agreement.NewData(d.Scale), qa: QueryAgreement{Query: qi.queries[q]}}
 			by[q] = a
 		}
-		item := strconv.FormatInt(rows[0].pair, 10)
+		item := strconv.FormatInt(rows[0].pair(), 10)
 		lo, hi, n := 127, -1, 0
 		for _, r := range rows {
-			if r.grade >= gradeDisturbing || int(r.grade) >= d.Scale {
+			if r.grade() >= gradeDisturbing || int(r.grade()) >= d.Scale {
 				continue
 			}
-			a.data.Add(item, strconv.FormatInt(r.user, 10), int(r.grade))
-			lo, hi, n = min(lo, int(r.grade)), max(hi, int(r.grade)), n+1
+			a.data.Add(item, strconv.FormatInt(r.user(), 10), int(r.grade()))
+			lo, hi, n = min(lo, int(r.grade())), max(hi, int(r.grade())), n+1
 		}
 		if n > 0 {
 			a.qa.Pairs++
@@ -253,7 +253,7 @@ func (s *Store) Queue(ctx context.Context, d *Desk, f QueueFilter) ([]QueueItem,
 	var out []QueueItem
 	for p := 0; p+1 < len(d.pairs); p++ {
 		rows := d.rows[d.pairs[p]:d.pairs[p+1]]
-		id := rows[0].pair
+		id := rows[0].pair()
 		q := qi.pairQuery[id]
 		if f.QueryID != 0 && q != f.QueryID {
 			continue
@@ -261,15 +261,15 @@ func (s *Store) Queue(ctx context.Context, d *Desk, f QueueFilter) ([]QueueItem,
 		it := QueueItem{PairID: id, Query: qi.queries[q]}
 		mine := f.UserID == 0
 		for _, r := range rows {
-			mine = mine || r.user == f.UserID
+			mine = mine || r.user() == f.UserID
 			switch {
-			case r.grade == gradeDisturbing:
+			case r.grade() == gradeDisturbing:
 				it.Flagged = true
 				it.Cannot++
-			case r.grade >= gradeDisturbing:
+			case r.grade() >= gradeDisturbing:
 				it.Cannot++
 			default:
-				it.Grades = append(it.Grades, int(r.grade))
+				it.Grades = append(it.Grades, int(r.grade()))
 			}
 		}
 		if !mine {
@@ -299,7 +299,7 @@ func (s *Store) Queue(ctx context.Context, d *Desk, f QueueFilter) ([]QueueItem,
 		}
 		if a, ok := adj[id]; ok {
 			for _, r := range rows {
-				if r.grade < gradeDisturbing && r.at > a.at && int(r.grade) != a.grade {
+				if r.grade() < gradeDisturbing && r.at > a.at && int(r.grade()) != a.grade {
 					it.Reopened = true
 				}
 			}
