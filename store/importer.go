@@ -72,7 +72,9 @@ func newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64, spec Impo
 	if _, err := tx.ExecContext(ctx, `PRAGMA cache_size = -16384`); err != nil {
 		return nil, err
 	}
-
+	if err := im.beginProgress(); err != nil {
+		return nil, err
+	}
 	return im, nil
 }
 
@@ -175,7 +177,7 @@ func (im *importer) finish() error {
 		}
 		settle(im.counter("pairs"), im.pairsGiven, im.pairChanges, added)
 	}
-	return nil
+	return im.settleProgress()
 }
 
 // settle turns rows given, rows changed and rows added into new, updated and unchanged.
