@@ -2,16 +2,21 @@ package store
 
 import "encoding/json"
 
-// The bulk path writes documents and pairs through a single-row and a 32-row form of the
-// same upsert: one statement execution then carries 32 rows, which spares the per-call
-// cost of database/sql and the driver (binding, stepping, resetting), a third of the
-// import's time when each row is its own statement. The SQL stays constant text.
+// The bulk path writes documents and pairs through 1-, 2-, 4-, 8-, 16- and 32-row forms of
+// the same upsert: one statement execution then carries up to 32 rows, which spares the
+// per-call cost of database/sql and the driver (binding, stepping, resetting), a third of
+// the import's time when each row is its own statement. A partly filled buffer (documents
+// are flushed before every batch of pairs that may name them) goes out in at most six
+// statements, one per set bit of its row count. The SQL stays constant text.
 const bulkRows = 32
 
 const (
 	docValues     = `(?, ?, ?, ?, ?, ?, ?)`
-	docValues4    = docValues + ", " + docValues + ", " + docValues + ", " + docValues
-	docValues16   = docValues4 + ", " + docValues4 + ", " + docValues4 + ", " + docValues4
+	docValues2    = docValues + ", " + docValues
+	docValues4    = docValues2 + ", " + docValues2
+	docValues8    = docValues4 + ", " + docValues4
+	docValues16   = docValues8 + ", " + docValues8
+	docValues32   = docValues16 + ", " + docValues16
 	docInsert     = `INSERT INTO documents(project_id, external_id, title, url, body, body_format, metadata) VALUES `
 	docOnConflict = `
 		ON CONFLICT (project_id, external_id) DO UPDATE SET title = excluded.title, url = excluded.url,
@@ -19,36 +24,54 @@ const (
 		WHERE documents.title IS NOT excluded.title OR documents.url IS NOT excluded.url
 			OR documents.body IS NOT excluded.body OR documents.body_format IS NOT excluded.body_format
 			OR documents.metadata IS NOT excluded.metadata`
-	upsertDocument  = docInsert + docValues + docOnConflict
-	upsertDocuments = docInsert + docValues16 + ", " + docValues16 + docOnConflict
-	pairValues      = `(?, ?, (SELECT id FROM documents WHERE project_id = ? AND external_id = ?), ?, ?, ?, ?)`
-	pairValues4     = pairValues + ", " + pairValues + ", " + pairValues + ", " + pairValues
-	pairValues16    = pairValues4 + ", " + pairValues4 + ", " + pairValues4 + ", " + pairValues4
-	pairInsert      = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at) VALUES `
-	pairOnConflict  = `
+	pairValues     = `(?, ?, (SELECT id FROM documents WHERE project_id = ? AND external_id = ?), ?, ?, ?, ?)`
+	pairValues2    = pairValues + ", " + pairValues
+	pairValues4    = pairValues2 + ", " + pairValues2
+	pairValues8    = pairValues4 + ", " + pairValues4
+	pairValues16   = pairValues8 + ", " + pairValues8
+	pairValues32   = pairValues16 + ", " + pairValues16
+	pairInsert     = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at) VALUES `
+	pairOnConflict = `
 		ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority,
 			gold_grade = COALESCE(excluded.gold_grade, pairs.gold_grade)
 		WHERE pairs.priority IS NOT excluded.priority
 			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS NOT excluded.gold_grade)`
-	// Pairs of the bulk path find their document by external id inside SQLite, so the
-	// import keeps no map of a million document ids.
-	upsertRowPair  = pairInsert + pairValues + pairOnConflict
-	upsertRowPairs = pairInsert + pairValues16 + ", " + pairValues16 + pairOnConflict
 )
+
+// upsertDocuments[k] writes 1<<k documents.
+var upsertDocuments = [...]string{
+	docInsert + docValues + docOnConflict,
+	docInsert + docValues2 + docOnConflict,
+	docInsert + docValues4 + docOnConflict,
+	docInsert + docValues8 + docOnConflict,
+	docInsert + docValues16 + docOnConflict,
+	docInsert + docValues32 + docOnConflict,
+}
+
+// upsertRowPairs[k] writes 1<<k pairs. Pairs of the bulk path find their document by
+// external id inside SQLite, so the import keeps no map of a million document ids.
+var upsertRowPairs = [...]string{
+	pairInsert + pairValues + pairOnConflict,
+	pairInsert + pairValues2 + pairOnConflict,
+	pairInsert + pairValues4 + pairOnConflict,
+	pairInsert + pairValues8 + pairOnConflict,
+	pairInsert + pairValues16 + pairOnConflict,
+	pairInsert + pairValues32 + pairOnConflict,
+}
 
 // bulk buffers the parameters of up to bulkRows rows of one upsert and counts the rows
 // given and the rows SQLite changed (inserted or updated; an upsert that finds the row
 // as given changes nothing).
 type bulk struct {
-	one, many      string
+	forms          *[6]string // forms[k] writes 1<<k rows
 	width          int
 	args           []any
 	n              int
 	given, changes int
 }
 
-func newBulk(one, many string, width int) *bulk {
-	return &bulk{one: one, many: many, width: width, args: make([]any, 0, width*bulkRows)}
+func newBulk(forms *[6]string, width int) *bulk {
+	return &bulk{forms: forms, width: width, args: make([]any, 0, width*bulkRows)}
 }
 
 // add buffers one row; full reports whether the buffer should be flushed.
@@ -63,16 +86,16 @@ func (im *importer) flush(b *bulk) error {
 	if b.n == 0 {
 		return nil
 	}
-	if b.n == bulkRows {
-		if err := im.execCount(b, b.many, b.args); err != nil {
+	args := b.args
+	for k := len(b.forms) - 1; k >= 0; k-- {
+		if b.n&(1<<k) == 0 {
+			continue
+		}
+		w := b.width << k
+		if err := im.execCount(b, b.forms[k], args[:w]); err != nil {
 			return err
 		}
-	} else {
-		for i := 0; i < b.n; i++ {
-			if err := im.execCount(b, b.one, b.args[i*b.width:(i+1)*b.width]); err != nil {
-				return err
-			}
-		}
+		args = args[w:]
 	}
 	clear(b.args)
 	b.args, b.n = b.args[:0], 0
@@ -95,7 +118,7 @@ func (im *importer) execCount(b *bulk, query string, args []any) error {
 
 func (im *importer) addDocument(d docArgs) error {
 	if im.docs == nil {
-		im.docs = newBulk(upsertDocument, upsertDocuments, 7)
+		im.docs = newBulk(&upsertDocuments, 7)
 	}
 	if im.docs.add(im.project, d.id, d.title, d.url, d.body, d.format, d.meta) {
 		return im.flush(im.docs)
@@ -107,7 +130,7 @@ func (im *importer) addDocument(d docArgs) error {
 // buffered before it are written first.
 func (im *importer) addRowPair(queryID int64, docExt, origin string, prio int, gold any) error {
 	if im.rowPairs == nil {
-		im.rowPairs = newBulk(upsertRowPair, upsertRowPairs, 8)
+		im.rowPairs = newBulk(&upsertRowPairs, 8)
 	}
 	if im.rowPairs.add(im.project, queryID, im.project, docExt, origin, prio, gold, im.at) {
 		return im.flushRows()
