@@ -10,28 +10,34 @@ import "encoding/json"
 // statements, one per set bit of its row count. The SQL stays constant text.
 const bulkRows = 32
 
+// Values every row of a statement shares (project, origin, time) are bound once as ?1..?3:
+// they appear in the text before the rows' anonymous parameters, which SQLite then numbers
+// from 4 on. That halves the values bound per pair.
 const (
-	docValues     = `(?, ?, ?, ?, ?, ?, ?)`
-	docValues2    = docValues + ", " + docValues
-	docValues4    = docValues2 + ", " + docValues2
-	docValues8    = docValues4 + ", " + docValues4
-	docValues16   = docValues8 + ", " + docValues8
-	docValues32   = docValues16 + ", " + docValues16
-	docInsert     = `INSERT INTO documents(project_id, external_id, title, url, body, body_format, metadata) VALUES `
-	docOnConflict = `
+	docValues   = `(?, ?, ?, ?, ?, ?)`
+	docValues2  = docValues + ", " + docValues
+	docValues4  = docValues2 + ", " + docValues2
+	docValues8  = docValues4 + ", " + docValues4
+	docValues16 = docValues8 + ", " + docValues8
+	docValues32 = docValues16 + ", " + docValues16
+	docInsert   = `INSERT INTO documents(project_id, external_id, title, url, body, body_format, metadata)
+		SELECT ?1, v.column1, v.column2, v.column3, v.column4, v.column5, v.column6 FROM (VALUES `
+	docOnConflict = `) AS v WHERE true
 		ON CONFLICT (project_id, external_id) DO UPDATE SET title = excluded.title, url = excluded.url,
 			body = excluded.body, body_format = excluded.body_format, metadata = excluded.metadata
 		WHERE documents.title IS NOT excluded.title OR documents.url IS NOT excluded.url
 			OR documents.body IS NOT excluded.body OR documents.body_format IS NOT excluded.body_format
 			OR documents.metadata IS NOT excluded.metadata`
-	pairValues     = `(?, ?, (SELECT id FROM documents WHERE project_id = ? AND external_id = ?), ?, ?, ?, ?)`
-	pairValues2    = pairValues + ", " + pairValues
-	pairValues4    = pairValues2 + ", " + pairValues2
-	pairValues8    = pairValues4 + ", " + pairValues4
-	pairValues16   = pairValues8 + ", " + pairValues8
-	pairValues32   = pairValues16 + ", " + pairValues16
-	pairInsert     = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at) VALUES `
-	pairOnConflict = `
+	pairValues   = `(?, ?, ?, ?)`
+	pairValues2  = pairValues + ", " + pairValues
+	pairValues4  = pairValues2 + ", " + pairValues2
+	pairValues8  = pairValues4 + ", " + pairValues4
+	pairValues16 = pairValues8 + ", " + pairValues8
+	pairValues32 = pairValues16 + ", " + pairValues16
+	pairInsert   = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at)
+		SELECT ?1, v.column1, (SELECT id FROM documents WHERE project_id = ?1 AND external_id = v.column2), ?2, v.column3, v.column4, ?3
+		FROM (VALUES `
+	pairOnConflict = `) AS v WHERE true
 		ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority,
 			gold_grade = COALESCE(excluded.gold_grade, pairs.gold_grade)
 		WHERE pairs.priority IS NOT excluded.priority
@@ -65,13 +71,15 @@ var upsertRowPairs = [...]string{
 type bulk struct {
 	forms          *[6]string // forms[k] writes 1<<k rows
 	width          int
-	args           []any
+	shared         []any // ?1, ?2, ...: the same for every row
+	args           []any // the rows' own values, width per row
+	call           []any // shared then one statement's rows
 	n              int
 	given, changes int
 }
 
-func newBulk(forms *[6]string, width int) *bulk {
-	return &bulk{forms: forms, width: width, args: make([]any, 0, width*bulkRows)}
+func newBulk(forms *[6]string, shared, width int) *bulk {
+	return &bulk{forms: forms, width: width, shared: make([]any, shared), args: make([]any, 0, width*bulkRows)}
 }
 
 // add buffers one row; full reports whether the buffer should be flushed.
@@ -107,7 +115,9 @@ func (im *importer) execCount(b *bulk, query string, args []any) error {
 	if err != nil {
 		return err
 	}
-	res, err := st.ExecContext(im.ctx, args...)
+	b.call = append(append(b.call[:0], b.shared...), args...)
+	res, err := st.ExecContext(im.ctx, b.call...)
+	clear(b.call)
 	if err != nil {
 		return err
 	}
@@ -118,9 +128,10 @@ func (im *importer) execCount(b *bulk, query string, args []any) error {
 
 func (im *importer) addDocument(d docArgs) error {
 	if im.docs == nil {
-		im.docs = newBulk(&upsertDocuments, 7)
+		im.docs = newBulk(&upsertDocuments, 1, 6)
+		im.docs.shared[0] = im.project
 	}
-	if im.docs.add(im.project, d.id, d.title, d.url, d.body, d.format, d.meta) {
+	if im.docs.add(d.id, d.title, d.url, d.body, d.format, d.meta) {
 		return im.flush(im.docs)
 	}
 	return nil
@@ -130,9 +141,11 @@ func (im *importer) addDocument(d docArgs) error {
 // buffered before it are written first.
 func (im *importer) addRowPair(queryID int64, docExt, origin string, prio int, gold any) error {
 	if im.rowPairs == nil {
-		im.rowPairs = newBulk(&upsertRowPairs, 8)
+		im.rowPairs = newBulk(&upsertRowPairs, 3, 4)
 	}
-	if im.rowPairs.add(im.project, queryID, im.project, docExt, origin, prio, gold, im.at) {
+	b := im.rowPairs
+	b.shared[0], b.shared[1], b.shared[2] = im.project, origin, im.at
+	if b.add(queryID, docExt, prio, gold) {
 		return im.flushRows()
 	}
 	return nil
