@@ -151,14 +151,15 @@ func (im *importer) addRowPair(queryID int64, docExt, origin string, prio int, g
 	return nil
 }
 
+// flushRows writes the buffered documents, then the buffered pairs, which may name them.
 func (im *importer) flushRows() error {
-	if im.docs != nil {
-		if err := im.flush(im.docs); err != nil {
+	for _, b := range [...]*bulk{im.newDocs, im.docs, im.newPairs, im.rowPairs} {
+		if b == nil {
+			continue
+		}
+		if err := im.flush(b); err != nil {
 			return err
 		}
-	}
-	if im.rowPairs != nil {
-		return im.flush(im.rowPairs)
 	}
 	return nil
 }
