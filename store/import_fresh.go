@@ -7,13 +7,16 @@ package store
 // no lookup of each pair's document by external id. A conflict cannot happen; were one to,
 // the INSERT fails and the import rolls back.
 const (
-	freshDocValues   = `(?, ?, ?, ?, ?, ?, ?)`
-	freshDocValues2  = freshDocValues + ", " + freshDocValues
-	freshDocValues4  = freshDocValues2 + ", " + freshDocValues2
-	freshDocValues8  = freshDocValues4 + ", " + freshDocValues4
-	freshDocValues16 = freshDocValues8 + ", " + freshDocValues8
-	freshDocValues32 = freshDocValues16 + ", " + freshDocValues16
-	freshDocInsert   = `INSERT INTO documents(id, project_id, external_id, title, url, body, body_format, metadata)
+	freshDocValues    = `(?, ?, ?, ?, ?, ?, ?)`
+	freshDocValues2   = freshDocValues + ", " + freshDocValues
+	freshDocValues4   = freshDocValues2 + ", " + freshDocValues2
+	freshDocValues8   = freshDocValues4 + ", " + freshDocValues4
+	freshDocValues16  = freshDocValues8 + ", " + freshDocValues8
+	freshDocValues32  = freshDocValues16 + ", " + freshDocValues16
+	freshDocValues64  = freshDocValues32 + ", " + freshDocValues32
+	freshDocValues128 = freshDocValues64 + ", " + freshDocValues64
+	freshDocValues256 = freshDocValues128 + ", " + freshDocValues128
+	freshDocInsert    = `INSERT INTO documents(id, project_id, external_id, title, url, body, body_format, metadata)
 		SELECT v.column1, ?1, v.column2, v.column3, v.column4, v.column5, v.column6, v.column7 FROM (VALUES `
 	freshPairInsert = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at)
 		SELECT ?1, v.column1, v.column2, ?2, v.column3, v.column4, ?3 FROM (VALUES `
@@ -32,6 +35,9 @@ var insertDocuments = [...]string{
 	freshDocInsert + freshDocValues8 + freshEnd,
 	freshDocInsert + freshDocValues16 + freshEnd,
 	freshDocInsert + freshDocValues32 + freshEnd,
+	freshDocInsert + freshDocValues64 + freshEnd,
+	freshDocInsert + freshDocValues128 + freshEnd,
+	freshDocInsert + freshDocValues256 + freshEnd,
 }
 
 var insertPairs = [...]string{
@@ -41,6 +47,9 @@ var insertPairs = [...]string{
 	freshPairInsert + pairValues8 + freshEnd,
 	freshPairInsert + pairValues16 + freshEnd,
 	freshPairInsert + pairValues32 + freshEnd,
+	freshPairInsert + pairValues64 + freshEnd,
+	freshPairInsert + pairValues128 + freshEnd,
+	freshPairInsert + pairValues256 + freshEnd,
 }
 
 // freshDocID is the id the fresh path gives the file's document number n (from 0).
