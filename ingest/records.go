@@ -40,12 +40,16 @@ const NoGrade = -1
 // PairRow is one row of a combined file carrying a pair with its query and
 // document inline. NewQuery and NewDocument are true on the first row that
 // names that query or document, so a caller inserts each only once.
+// DocumentIndex numbers the file's distinct documents from 0 in the order
+// they first appear, so a caller that stores them in that order can link a
+// later row to its document without looking the id up.
 type PairRow struct {
-	Query       Query
-	Document    Document
-	Pair        Pair
-	NewQuery    bool
-	NewDocument bool
+	Query         Query
+	Document      Document
+	Pair          Pair
+	NewQuery      bool
+	NewDocument   bool
+	DocumentIndex int
 }
 
 var (
@@ -194,12 +198,12 @@ func ReadPairRows(r io.Reader, f Format, o Options, fn func(PairRow) error) erro
 			c.addf(p.Line, "", "duplicate pair (%s, %s) (first at line %d)", quote(q.ID), quote(d.ID), first)
 			continue
 		}
-		first, row.NewQuery = queries.add(q.ID, p.Line, queries.ids.key(q.Text, q.Need))
+		first, row.NewQuery, _ = queries.add(q.ID, p.Line, queries.ids.key(q.Text, q.Need))
 		if first > 0 {
 			c.addf(p.Line, "", "query %s differs from its row at line %d (text or need)", quote(q.ID), first)
 			continue
 		}
-		first, row.NewDocument = docs.add(d.ID, p.Line, docSum(&docs.ids.h, d))
+		first, row.NewDocument, row.DocumentIndex = docs.add(d.ID, p.Line, docSum(&docs.ids.h, d))
 		if first > 0 {
 			c.addf(p.Line, "", "document %s differs from its row at line %d (title, url, body, body_format or metadata)", quote(d.ID), first)
 			continue
@@ -283,36 +287,35 @@ func docSum(h *maphash.Hash, d Document) uint64 {
 	return h.Sum64()
 }
 
-// contentSeen remembers, per id, the line it first appeared on and a hash
-// of its content.
+// contentSeen remembers, per id, the line it first appeared on, a hash of
+// its content and its number among the distinct ids, from 0.
 type contentSeen struct {
 	ids *seen
-	m   map[uint64]struct {
-		line int
-		sum  uint64
-	}
+	m   map[uint64]contentEntry
+}
+
+type contentEntry struct {
+	line int
+	sum  uint64
+	num  int
 }
 
 func newContentSeen() *contentSeen {
-	return &contentSeen{ids: newSeen(), m: map[uint64]struct {
-		line int
-		sum  uint64
-	}{}}
+	return &contentSeen{ids: newSeen(), m: map[uint64]contentEntry{}}
 }
 
-// add returns (0, true) for a new id, (0, false) for a repeat with the same
-// content sum and (first line, false) for a repeat with different content.
-func (s *contentSeen) add(id string, line int, sum uint64) (int, bool) {
+// add returns (0, true, num) for a new id, (0, false, num) for a repeat with
+// the same content sum and (first line, false, num) for a repeat with
+// different content.
+func (s *contentSeen) add(id string, line int, sum uint64) (int, bool, int) {
 	k := s.ids.key(id)
 	if e, ok := s.m[k]; ok {
 		if e.sum != sum {
-			return e.line, false
+			return e.line, false, e.num
 		}
-		return 0, false
+		return 0, false, e.num
 	}
-	s.m[k] = struct {
-		line int
-		sum  uint64
-	}{line, sum}
-	return 0, true
+	n := len(s.m)
+	s.m[k] = contentEntry{line, sum, n}
+	return 0, true, n
 }

@@ -205,6 +205,8 @@ func TestPairRows(t *testing.T) {
 	news := func(r PairRow) [2]bool { return [2]bool{r.NewQuery, r.NewDocument} }
 	mustEqual(t, news(got[1]), [2]bool{false, true})
 	mustEqual(t, news(got[2]), [2]bool{true, false})
+	// d1 is the file's first document, d2 its second, wherever they recur.
+	mustEqual(t, []int{got[0].DocumentIndex, got[1].DocumentIndex, got[2].DocumentIndex}, []int{0, 1, 0})
 
 	bad := "query_id,query_text,doc_id,title,body\n" +
 		"q1,flights,d1,A,a\n" +

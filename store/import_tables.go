@@ -85,6 +85,9 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 	im.counter("documents")
 	im.counter("pairs")
 	origin := "rows:" + f.Name
+	// Only the first file: a second may repeat the first one's documents.
+	fresh := im.fresh
+	im.fresh = false
 	err := pipe(im.done, func(emit func(ingest.PairRow) error) error {
 		return ingest.ReadPairRows(f.R, format, im.options(f.Name), emit)
 	}, func(r ingest.PairRow) error {
@@ -95,14 +98,27 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 				return err
 			}
 		}
+		var gold any
+		if r.Pair.GoldGrade != ingest.NoGrade {
+			gold = r.Pair.GoldGrade
+		}
+		if fresh {
+			if r.NewDocument {
+				d := r.Document
+				args, err := documentArgs(d.ID, d.Title, d.URL, d.Body, d.BodyFormat, d.Meta)
+				if err != nil {
+					return err
+				}
+				if err := im.addFreshDocument(r.DocumentIndex, args); err != nil {
+					return err
+				}
+			}
+			return im.addFreshPair(qid, r.DocumentIndex, origin, r.Pair.Priority, gold)
+		}
 		if r.NewDocument {
 			if err := im.document(r.Document); err != nil {
 				return err
 			}
-		}
-		var gold any
-		if r.Pair.GoldGrade != ingest.NoGrade {
-			gold = r.Pair.GoldGrade
 		}
 		return im.addRowPair(qid, r.Document.ID, origin, r.Pair.Priority, gold)
 	})

@@ -414,12 +414,12 @@ func TestImportRefusesBadSpecs(t *testing.T) {
 }
 
 // bulkRowsCSV has more rows than one bulk statement holds, with a remainder: 45 queries
-// of 3 documents each (135 pairs, 135 documents).
+// of 13 documents each (585 pairs, 585 documents; 585 = 2×256 + 64 + 8 + 1).
 func bulkRowsCSV(edit func(q, d int) (body string, prio int)) string {
 	var b strings.Builder
 	b.WriteString("query_id,query_text,doc_id,title,body,priority\n")
 	for q := range 45 {
-		for d := range 3 {
+		for d := range 13 {
 			body, prio := edit(q, d)
 			fmt.Fprintf(&b, "q%d,query %d,q%d-d%d,Title %d,%s,%d\n", q, q, q, d, d, body, prio)
 		}
@@ -433,13 +433,13 @@ func TestBulkPathCountsAcrossBatches(t *testing.T) {
 	plain := func(q, d int) (string, int) { return "body", d }
 	rep := mustImport(t, s, p, lead.ID, ImportSpec{Kind: ImportRows}, files("bulk.csv", bulkRowsCSV(plain))...)
 	wantCount(t, rep, "queries", 45, 0, 0)
-	wantCount(t, rep, "documents", 135, 0, 0)
-	wantCount(t, rep, "pairs", 135, 0, 0)
+	wantCount(t, rep, "documents", 585, 0, 0)
+	wantCount(t, rep, "pairs", 585, 0, 0)
 	var linked int
 	s.r.QueryRow(`SELECT COUNT(*) FROM pairs x JOIN documents d ON d.id = x.document_id JOIN queries q ON q.id = x.query_id
 		WHERE d.external_id = q.external_id || '-d' || x.priority`).Scan(&linked)
-	if linked != 135 {
-		t.Errorf("%d of 135 pairs link the query and document their row named", linked)
+	if linked != 585 {
+		t.Errorf("%d of 585 pairs link the query and document their row named", linked)
 	}
 	// Five documents get a new body (in several batches), eight pairs a new priority.
 	edited := func(q, d int) (string, int) {
@@ -453,12 +453,12 @@ func TestBulkPathCountsAcrossBatches(t *testing.T) {
 		return body, prio
 	}
 	rep = mustImport(t, s, p, lead.ID, ImportSpec{Kind: ImportRows, DryRun: true}, files("bulk.csv", bulkRowsCSV(edited))...)
-	wantCount(t, rep, "documents", 0, 5, 130)
-	wantCount(t, rep, "pairs", 0, 8, 127)
+	wantCount(t, rep, "documents", 0, 5, 580)
+	wantCount(t, rep, "pairs", 0, 8, 577)
 	rep = mustImport(t, s, p, lead.ID, ImportSpec{Kind: ImportRows}, files("bulk.csv", bulkRowsCSV(edited))...)
 	wantCount(t, rep, "queries", 0, 0, 45)
-	wantCount(t, rep, "documents", 0, 5, 130)
-	wantCount(t, rep, "pairs", 0, 8, 127)
+	wantCount(t, rep, "documents", 0, 5, 580)
+	wantCount(t, rep, "pairs", 0, 8, 577)
 	var n int
 	s.r.QueryRow(`SELECT COUNT(*) FROM documents WHERE body = 'new body'`).Scan(&n)
 	if n != 5 {

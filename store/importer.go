@@ -37,6 +37,8 @@ type importer struct {
 	// for their ids; finish turns these into new, updated and unchanged.
 	pairsGiven, pairChanges int
 	docs, rowPairs          *bulk // the bulk path's buffers; nil until used
+	newDocs, newPairs       *bulk // the same for the fresh path (import_fresh.go)
+	fresh                   bool  // the project had no documents or pairs: see import_fresh.go
 
 	order []string
 	count map[string]*ImportCount
@@ -72,7 +74,12 @@ func newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64, spec Impo
 	if _, err := tx.ExecContext(ctx, `PRAGMA cache_size = -16384`); err != nil {
 		return nil, err
 	}
-
+	if err := tx.QueryRowContext(ctx, projectIsFresh, projectID).Scan(&im.fresh); err != nil {
+		return nil, err
+	}
+	if err := im.beginProgress(); err != nil {
+		return nil, err
+	}
 	return im, nil
 }
 
@@ -157,16 +164,25 @@ func (im *importer) run(files []ImportFile, formats []ingest.Format) error {
 
 // finish settles the counts that come from totals rather than single rows.
 func (im *importer) finish() error {
-	if b := im.rowPairs; b != nil {
+	var docsGiven, docChanges int
+	for _, b := range [...]*bulk{im.rowPairs, im.newPairs, im.docs, im.newDocs} {
+		if b == nil {
+			continue
+		}
+		if b == im.docs || b == im.newDocs {
+			docsGiven += b.given
+			docChanges += b.changes
+			continue
+		}
 		im.pairsGiven += b.given
 		im.pairChanges += b.changes
 	}
-	if b := im.docs; b != nil && b.given > 0 {
+	if docsGiven > 0 {
 		var added int
 		if err := im.tx.QueryRowContext(im.ctx, `SELECT COUNT(*) FROM documents WHERE id > ? AND project_id = ?`, im.maxDoc, im.project).Scan(&added); err != nil {
 			return err
 		}
-		settle(im.counter("documents"), b.given, b.changes, added)
+		settle(im.counter("documents"), docsGiven, docChanges, added)
 	}
 	if im.pairsGiven > 0 {
 		var added int
@@ -175,7 +191,7 @@ func (im *importer) finish() error {
 		}
 		settle(im.counter("pairs"), im.pairsGiven, im.pairChanges, added)
 	}
-	return nil
+	return im.settleProgress()
 }
 
 // settle turns rows given, rows changed and rows added into new, updated and unchanged.
