@@ -107,6 +107,7 @@ func serve(ctx context.Context, st *store.Store, f serverFlags, log *slog.Logger
 	}
 	errc := make(chan error, 1)
 	go func() { errc <- srv.Serve(ln) }()
+	go warmDesks(ctx, st, log)
 	ready(ln.Addr().String())
 	select {
 	case err := <-errc:
@@ -124,4 +125,27 @@ func serve(ctx context.Context, st *store.Store, f serverFlags, log *slog.Logger
 	}
 	log.Info("stopped")
 	return nil
+}
+
+// warmDesks builds every open project's lead figures once at start, in the background, so the
+// first lead to look after a restart does not wait for a read of every judgment; later views
+// keep them current from the changes alone.
+func warmDesks(ctx context.Context, st *store.Store, log *slog.Logger) {
+	projects, err := st.AllProjects(ctx)
+	if err != nil {
+		return
+	}
+	for _, p := range projects {
+		if p.Archived || ctx.Err() != nil {
+			continue
+		}
+		start := time.Now()
+		if _, err := st.Desk(ctx, p.ID); err != nil {
+			if ctx.Err() == nil {
+				log.Warn("could not prepare the lead's figures", "project", p.ID, "err", err)
+			}
+			continue
+		}
+		log.Debug("lead's figures ready", "project", p.ID, "took", time.Since(start))
+	}
 }
