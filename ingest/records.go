@@ -62,44 +62,48 @@ var (
 
 // ReadQueries reads a queries file (CSV or JSONL). Query ids must be unique.
 func ReadQueries(r io.Reader, f Format, o Options, fn func(Query) error) error {
-	o = o.withDefaults()
-	c := o.collector()
-	t, err := newTableReader(r, f, o, c, querySchema)
-	if err != nil {
-		return err
-	}
-	ids := newSeen()
-	for {
-		rec, err := t.next()
-		if err == io.EOF {
-			return c.err()
-		}
-		if err != nil {
-			return err
-		}
-		q, ok := buildQuery(rec, 0, c)
-		if !ok {
-			continue
-		}
-		if first, dup := ids.add(ids.key(q.ID), q.Line); dup {
+	return readUnique(r, f, o, querySchema,
+		func(rec *record, c *collector) (Query, bool) { return buildQuery(rec, 0, c) },
+		func(ids *seen, q Query) uint64 { return ids.key(q.ID) },
+		func(c *collector, rec *record, q Query, first int) {
 			c.addf(rec.lines[0], rec.where(0), "duplicate query id %s (first at line %d)", quote(q.ID), first)
-			continue
-		}
-		if fn != nil && !c.failed() {
-			if err := fn(q); err != nil {
-				return err
-			}
-		}
-	}
+		}, fn)
 }
 
 // ReadDocuments reads a documents file (CSV or JSONL). Document ids must be
 // unique. CSV columns other than the known ones become Meta (empty cells
 // are left out); JSONL carries them in a "meta" object.
 func ReadDocuments(r io.Reader, f Format, o Options, fn func(Document) error) error {
+	return readUnique(r, f, o, docSchema,
+		func(rec *record, c *collector) (Document, bool) { return buildDocument(rec, 0, c) },
+		func(ids *seen, d Document) uint64 { return ids.key(d.ID) },
+		func(c *collector, rec *record, d Document, first int) {
+			c.addf(rec.lines[0], rec.where(0), "duplicate document id %s (first at line %d)", quote(d.ID), first)
+		}, fn)
+}
+
+// ReadPairs reads a pairs file (CSV or JSONL). A (query_id, doc_id) pair
+// may appear once. gold_grade must lie on the scale of Options.Scale.
+func ReadPairs(r io.Reader, f Format, o Options, fn func(Pair) error) error {
+	return readUnique(r, f, o, pairSchema,
+		func(rec *record, c *collector) (Pair, bool) {
+			return buildPair(rec, 0, 1, 2, 3, o.withDefaults().Scale, c)
+		},
+		func(ids *seen, p Pair) uint64 { return ids.key(p.QueryID, p.DocID) },
+		func(c *collector, rec *record, p Pair, first int) {
+			c.addf(p.Line, "", "duplicate pair (%s, %s) (first at line %d)", quote(p.QueryID), quote(p.DocID), first)
+		}, fn)
+}
+
+// readUnique drives a table file whose records carry a key that may appear once: each record
+// is built, a repeated key is reported with the line of its first appearance, and records go
+// to fn until the first problem (the rest of the file is still checked).
+func readUnique[T interface{ line() int }](r io.Reader, f Format, o Options, s *schema,
+	build func(*record, *collector) (T, bool), key func(*seen, T) uint64,
+	dup func(c *collector, rec *record, v T, first int), fn func(T) error) error {
 	o = o.withDefaults()
 	c := o.collector()
-	t, err := newTableReader(r, f, o, c, docSchema)
+	t, err := newTableReader(r, f, o, c, s)
 	if err != nil {
 		return err
 	}
@@ -112,55 +116,25 @@ func ReadDocuments(r io.Reader, f Format, o Options, fn func(Document) error) er
 		if err != nil {
 			return err
 		}
-		d, ok := buildDocument(rec, 0, c)
+		v, ok := build(rec, c)
 		if !ok {
 			continue
 		}
-		if first, dup := ids.add(ids.key(d.ID), d.Line); dup {
-			c.addf(rec.lines[0], rec.where(0), "duplicate document id %s (first at line %d)", quote(d.ID), first)
+		if first, isDup := ids.add(key(ids, v), v.line()); isDup {
+			dup(c, rec, v, first)
 			continue
 		}
 		if fn != nil && !c.failed() {
-			if err := fn(d); err != nil {
+			if err := fn(v); err != nil {
 				return err
 			}
 		}
 	}
 }
 
-// ReadPairs reads a pairs file (CSV or JSONL). A (query_id, doc_id) pair
-// may appear once. gold_grade must lie on the scale of Options.Scale.
-func ReadPairs(r io.Reader, f Format, o Options, fn func(Pair) error) error {
-	o = o.withDefaults()
-	c := o.collector()
-	t, err := newTableReader(r, f, o, c, pairSchema)
-	if err != nil {
-		return err
-	}
-	pairs := newSeen()
-	for {
-		rec, err := t.next()
-		if err == io.EOF {
-			return c.err()
-		}
-		if err != nil {
-			return err
-		}
-		p, ok := buildPair(rec, 0, 1, 2, 3, o.Scale, c)
-		if !ok {
-			continue
-		}
-		if first, dup := pairs.add(pairs.key(p.QueryID, p.DocID), p.Line); dup {
-			c.addf(p.Line, "", "duplicate pair (%s, %s) (first at line %d)", quote(p.QueryID), quote(p.DocID), first)
-			continue
-		}
-		if fn != nil && !c.failed() {
-			if err := fn(p); err != nil {
-				return err
-			}
-		}
-	}
-}
+func (q Query) line() int    { return q.Line }
+func (d Document) line() int { return d.Line }
+func (p Pair) line() int     { return p.Line }
 
 // ReadPairRows reads a combined file (CSV or JSONL) in which every row
 // carries a pair with its query and document. A pair may appear once; a

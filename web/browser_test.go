@@ -14,6 +14,8 @@ import (
 	"github.com/chromedp/cdproto/input"
 	"github.com/chromedp/chromedp"
 	"github.com/chromedp/chromedp/kb"
+
+	"github.com/pertinent/pertinent/internal/reference"
 )
 
 const chromiumPath = "/usr/bin/chromium"
@@ -23,10 +25,7 @@ const chromiumPath = "/usr/bin/chromium"
 func newBrowser(t *testing.T) context.Context {
 	t.Helper()
 	if _, err := os.Stat(chromiumPath); err != nil {
-		if os.Getenv("CI") == "true" {
-			t.Fatalf("browser tests need %s (Debian package chromium): %v", chromiumPath, err)
-		}
-		t.Skipf("skipping: %s not found (install the Debian package chromium)", chromiumPath)
+		reference.Unavailable(t, "browser tests need "+chromiumPath+" (Debian package chromium): "+err.Error())
 	}
 	alloc, cancelAlloc := chromedp.NewExecAllocator(context.Background(),
 		chromedp.ExecPath(chromiumPath),
@@ -38,16 +37,22 @@ func newBrowser(t *testing.T) context.Context {
 		chromedp.Flag("disable-sync", true),
 		chromedp.NoFirstRun,
 		chromedp.UserDataDir(t.TempDir()),
+		chromedp.WindowSize(1280, 900),
 	)
 	ctx, cancelCtx := chromedp.NewContext(alloc)
 	t.Cleanup(func() { cancelCtx(); cancelAlloc() })
 	// The first run starts the browser and must not carry a timeout (it would stop the
-	// browser); later actions share a deadline so a stuck page fails the test.
+	// browser); callers may put a deadline on what follows.
 	if err := chromedp.Do(ctx); err != nil {
 		t.Fatalf("starting %s: %v", chromiumPath, err)
 	}
-	ctx, cancelTimeout := context.WithTimeout(ctx, 2*time.Minute)
-	t.Cleanup(cancelTimeout)
+	return ctx
+}
+
+// withDeadline bounds a browser test, so a stuck page fails it instead of hanging.
+func withDeadline(t *testing.T, ctx context.Context, d time.Duration) context.Context {
+	ctx, cancel := context.WithTimeout(ctx, d)
+	t.Cleanup(cancel)
 	return ctx
 }
 
@@ -132,7 +137,7 @@ func browserSignIn(ctx context.Context, base, username, next string) error {
 // An assessor grades five pairs with the keyboard (one with a note), undoes the last, flags
 // it as disturbing instead; the database then holds exactly that.
 func TestBrowserKeyboardJudging(t *testing.T) {
-	ctx := newBrowser(t)
+	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	dir := screenshotDir(t)
 	a := newJudgingApp(t, judgingSpec{Queries: 2, Docs: 6, Assessors: 1, PerPair: 1,
 		Guidelines: "# Judging reading lamps\n\nGrade how well the lamp suits **reading in bed**.\n\n- Warm light helps.\n- A clamp is a plus."})
@@ -245,7 +250,7 @@ func loadDemoLikeDocument(t *testing.T, a *judgingApp) {
 
 // With JavaScript off, the same flow works through plain form posts and 303 redirects.
 func TestBrowserJudgingWithoutJavaScript(t *testing.T) {
-	ctx := newBrowser(t)
+	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	a := newJudgingApp(t, judgingSpec{Queries: 1, Docs: 3, Assessors: 1, PerPair: 1})
 	must := func(err error) {
 		t.Helper()

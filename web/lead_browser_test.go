@@ -13,53 +13,6 @@ import (
 	"github.com/chromedp/chromedp/kb"
 )
 
-// newLeadBrowser starts headless Chromium with a fresh profile; it fails under CI=true when
-// Chromium is missing and skips elsewhere.
-func newLeadBrowser(t *testing.T) context.Context {
-	t.Helper()
-	const bin = "/usr/bin/chromium"
-	if _, err := os.Stat(bin); err != nil {
-		if os.Getenv("CI") == "true" {
-			t.Fatalf("%s is missing: install Debian's chromium (scripts/test.sh does)", bin)
-		}
-		t.Skipf("%s is missing; skipping the browser test", bin)
-	}
-	opts := []chromedp.ExecAllocatorOption{
-		chromedp.ExecPath(bin),
-		chromedp.Flag("headless", true),
-		chromedp.Flag("no-sandbox", true),
-		chromedp.Flag("disable-gpu", true),
-		chromedp.Flag("disable-background-networking", true),
-		chromedp.Flag("disable-component-update", true),
-		chromedp.Flag("disable-sync", true),
-		chromedp.Flag("no-first-run", true),
-		chromedp.UserDataDir(t.TempDir()),
-		chromedp.WindowSize(1280, 900),
-	}
-	actx, cancelA := chromedp.NewExecAllocator(context.Background(), opts...)
-	ctx, cancelB := chromedp.NewContext(actx)
-	// The first run starts the browser and must not carry a timeout; later ones may.
-	if err := chromedp.Do(ctx); err != nil {
-		cancelB()
-		cancelA()
-		t.Fatalf("starting Chromium: %v", err)
-	}
-	t.Cleanup(func() { cancelB(); cancelA() })
-	return ctx
-}
-
-func leadScreenshotDir(t *testing.T) string {
-	dir := os.Getenv("PERTINENT_SCREENSHOTS")
-	if dir == "" {
-		dir = t.TempDir()
-	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		t.Fatal(err)
-	}
-	t.Logf("screenshots in %s", dir)
-	return dir
-}
-
 func shot(dir, name string) chromedp.Action[chromedp.Void] {
 	return func(ctx context.Context, t *chromedp.Target) (chromedp.Void, error) {
 		buf, err := chromedp.FullScreenshot(100)(ctx, t)
@@ -75,8 +28,8 @@ func shot(dir, name string) chromedp.Action[chromedp.Void] {
 func TestLeadWorksTheQueueByKeyboard(t *testing.T) {
 	a := newTestApp(t)
 	seedLead(t, a)
-	ctx := newLeadBrowser(t)
-	dir := leadScreenshotDir(t)
+	ctx := withDeadline(t, newBrowser(t), 3*time.Minute)
+	dir := screenshotDir(t)
 	base := a.server.URL + "/projects/" + strconv.FormatInt(a.project.ID, 10)
 	row := func(i int) string { return `#queue tr[data-pair="` + strconv.FormatInt(a.pairs[i], 10) + `"]` }
 

@@ -376,7 +376,7 @@ func TestStoredPayloadsNeverRunInTheBrowser(t *testing.T) {
 			name = "policy bypassed"
 		}
 		t.Run(name, func(t *testing.T) {
-			ctx := newLeadBrowser(t)
+			ctx := newBrowser(t)
 			ctx, cancel := context.WithTimeout(ctx, 5*time.Minute)
 			defer cancel()
 			h.t = t

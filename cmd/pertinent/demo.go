@@ -14,16 +14,7 @@ import (
 // runDemo opens (or creates) a demo database, fills it with the invented collection on first
 // use, gives the demo accounts fresh passwords, prints them, and serves the site.
 func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("demo", stderr)
-	f := addServerFlags(fs, "pertinent-demo.db")
-	if err := fs.Parse(args); err != nil {
-		return err
-	}
-	log, err := f.logger(stderr)
-	if err != nil {
-		return err
-	}
-	st, err := store.Open(ctx, *f.db)
+	f, log, st, err := openToServe(ctx, "demo", "pertinent-demo.db", args, stderr)
 	if err != nil {
 		return err
 	}

@@ -44,17 +44,24 @@ func (f serverFlags) logger(w io.Writer) (*slog.Logger, error) {
 	return slog.New(slog.NewTextHandler(w, &slog.HandlerOptions{Level: level})), nil
 }
 
-func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("serve", stderr)
-	f := addServerFlags(fs, "pertinent.db")
+// openToServe parses the server flags of a serving command, makes its logger and opens its
+// database; the caller closes the store.
+func openToServe(ctx context.Context, name, defaultDB string, args []string, stderr io.Writer) (serverFlags, *slog.Logger, *store.Store, error) {
+	fs := newFlags(name, stderr)
+	f := addServerFlags(fs, defaultDB)
 	if err := fs.Parse(args); err != nil {
-		return err
+		return f, nil, nil, err
 	}
 	log, err := f.logger(stderr)
 	if err != nil {
-		return err
+		return f, nil, nil, err
 	}
 	st, err := store.Open(ctx, *f.db)
+	return f, log, st, err
+}
+
+func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	f, log, st, err := openToServe(ctx, "serve", "pertinent.db", args, stderr)
 	if err != nil {
 		return err
 	}
