@@ -173,6 +173,9 @@ func (p *xssPass) signIn(name, next, waitFor string) {
 		chromedp.WaitReady("#username"),
 		chromedp.SendKeys("#username", name),
 		chromedp.SendKeys("#password", testPassword+"\r"),
+		// The sign-in page has a <main> too: wait for the signed-in header first, so a
+		// selector such as "main" is not found on the page that is about to go away.
+		chromedp.WaitReady("form.signout"),
 		chromedp.WaitReady(waitFor),
 	)
 	if err != nil {
