@@ -30,7 +30,7 @@ func (s *Store) AgreementData(ctx context.Context, projectID int64) (*agreement.
 		return nil, nil, err
 	}
 	gold := map[string]int{}
-	rows, err := s.r.QueryContext(ctx, `SELECT id, gold_grade FROM pairs WHERE project_id = ? AND gold_grade IS NOT NULL`, projectID)
+	rows, err := s.r.QueryContext(ctx, `SELECT id, gold_grade FROM pairs INDEXED BY pairs_gold WHERE project_id = ? AND gold_grade IS NOT NULL`, projectID)
 	if err != nil {
 		return nil, nil, err
 	}

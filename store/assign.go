@@ -54,7 +54,9 @@ const (
 		WHERE q.project_id = ?1 AND q.top_priority = ?8 AND q.coverage = ?9 AND q.query_id >= ?10 AND +q.pairs > 0
 		AND EXISTS (SELECT 1 FROM pairs p WHERE p.query_id = q.query_id AND ` + openPair + `)
 		ORDER BY q.query_id LIMIT 1`
-	goldPairSQL = `SELECT p.id FROM pairs p
+	// Named, since the planner may otherwise take an index on project_id alone and walk
+	// every pair of the project to find its few gold ones.
+	goldPairSQL = `SELECT p.id FROM pairs p INDEXED BY pairs_gold
 		WHERE p.project_id = ?1 AND p.gold_grade IS NOT NULL
 		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2)
 		ORDER BY p.query_id = ?3 DESC, random() LIMIT 1`

@@ -16,7 +16,7 @@ type GoldScore struct {
 // "Cannot judge" answers are not graded and do not count.
 func (s *Store) GoldAccuracy(ctx context.Context, projectID int64) ([]GoldScore, error) {
 	rows, err := s.r.QueryContext(ctx, `SELECT u.id, u.username, COUNT(*), SUM(j.grade = p.gold_grade), AVG(ABS(j.grade - p.gold_grade))
-		FROM pairs p JOIN judgments j ON j.pair_id = p.id JOIN users u ON u.id = j.user_id
+		FROM pairs p INDEXED BY pairs_gold JOIN judgments j ON j.pair_id = p.id JOIN users u ON u.id = j.user_id
 		WHERE p.project_id = ? AND p.gold_grade IS NOT NULL AND j.current = 1 AND j.grade IS NOT NULL
 		GROUP BY u.id ORDER BY u.username`, projectID)
 	if err != nil {

@@ -141,7 +141,7 @@ func gradeUses(ctx context.Context, q queryRower, projectID int64) (int, error) 
 	err := q.QueryRowContext(ctx, `SELECT
 		(SELECT COUNT(*) FROM judgments j JOIN pairs x ON x.id = j.pair_id WHERE x.project_id = ?1 AND j.grade IS NOT NULL)
 		+ (SELECT COUNT(*) FROM adjudications a JOIN pairs x ON x.id = a.pair_id WHERE x.project_id = ?1)
-		+ (SELECT COUNT(*) FROM pairs WHERE project_id = ?1 AND gold_grade IS NOT NULL)`, projectID).Scan(&n)
+		+ (SELECT COUNT(*) FROM pairs INDEXED BY pairs_gold WHERE project_id = ?1 AND gold_grade IS NOT NULL)`, projectID).Scan(&n)
 	return n, err
 }
 
