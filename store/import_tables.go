@@ -88,9 +88,25 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 	// Only the first file: a second may repeat the first one's documents.
 	fresh := im.fresh
 	im.fresh = false
-	err := pipe(im.done, func(emit func(ingest.PairRow) error) error {
-		return ingest.ReadPairRows(f.R, format, im.options(f.Name), emit)
-	}, func(r ingest.PairRow) error {
+	// A new document's arguments (its metadata as JSON among them) are made on the
+	// reader's goroutine, which has time to spare; the writer's is the busy one.
+	type row struct {
+		ingest.PairRow
+		doc docArgs
+	}
+	err := pipe(im.done, func(emit func(row) error) error {
+		return ingest.ReadPairRows(f.R, format, im.options(f.Name), func(r ingest.PairRow) error {
+			x := row{PairRow: r}
+			if r.NewDocument {
+				d := r.Document
+				var err error
+				if x.doc, err = documentArgs(d.ID, d.Title, d.URL, d.Body, d.BodyFormat, d.Meta); err != nil {
+					return err
+				}
+			}
+			return emit(x)
+		})
+	}, func(r row) error {
 		qid := im.queryIDs[r.Query.ID]
 		var err error
 		if r.NewQuery || qid == 0 {
@@ -104,19 +120,14 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 		}
 		if fresh {
 			if r.NewDocument {
-				d := r.Document
-				args, err := documentArgs(d.ID, d.Title, d.URL, d.Body, d.BodyFormat, d.Meta)
-				if err != nil {
-					return err
-				}
-				if err := im.addFreshDocument(r.DocumentIndex, args); err != nil {
+				if err := im.addFreshDocument(r.DocumentIndex, r.doc); err != nil {
 					return err
 				}
 			}
 			return im.addFreshPair(qid, r.DocumentIndex, origin, r.Pair.Priority, gold)
 		}
 		if r.NewDocument {
-			if err := im.document(r.Document); err != nil {
+			if err := im.addDocument(r.doc); err != nil {
 				return err
 			}
 		}
