@@ -40,6 +40,11 @@ func checkID(s string) string {
 		if unicode.IsSpace(r) {
 			return fmt.Sprintf("%s contains whitespace (ids must be one token)", quote(s))
 		}
+		// Zero-width spaces, byte order marks and direction marks make two ids that look
+		// the same differ, so a pair or a qrel would silently miss its query or document.
+		if unicode.Is(unicode.Cf, r) {
+			return fmt.Sprintf("%s contains invisible character %U", quote(s), r)
+		}
 	}
 	return ""
 }

@@ -62,7 +62,7 @@ func FuzzPairRowsCSV(f *testing.F) {
 			}
 			want := r
 			want.Query.Line, want.Document.Line, want.Pair.Line = 2, 2, 2
-			want.NewQuery, want.NewDocument = true, true
+			want.NewQuery, want.NewDocument, want.DocumentIndex = true, true, 0
 			if fmt.Sprintf("%#v", back[0]) != fmt.Sprintf("%#v", want) {
 				t.Fatalf("round trip of %q:\n got %#v\nwant %#v", src, back[0], want)
 			}

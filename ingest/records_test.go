@@ -50,7 +50,8 @@ func TestQueriesCSVProblems(t *testing.T) {
 		"q5,a,b\n" + // 7
 		"q6,ab\"c\n" + // 8
 		"q7,\"x\"y\n" + // 9
-		"q8,\xff\n" // 10
+		"q8,\xff\n" + // 10
+		"q\u200b9,nine\n" // 11
 	_, err := queries(t, CSV, src)
 	wantProblems(t, err,
 		`q.csv:3: column 1 (query_id): "q 2" contains whitespace (ids must be one token)`,
@@ -61,6 +62,7 @@ func TestQueriesCSVProblems(t *testing.T) {
 		`q.csv:8: field 2: quote inside an unquoted field (quote the whole field and double inner quotes)`,
 		`q.csv:9: field 2: unexpected 'y' after closing quote`,
 		`q.csv:10: column 2 (text): is not valid UTF-8 at byte 1`,
+		`q.csv:11: column 1 (query_id): "q\u200b9" contains invisible character U+200B`,
 	)
 }
 
