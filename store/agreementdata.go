@@ -29,19 +29,9 @@ func (s *Store) AgreementData(ctx context.Context, projectID int64) (*agreement.
 	if err != nil {
 		return nil, nil, err
 	}
-	gold := map[string]int{}
-	rows, err := s.r.QueryContext(ctx, `SELECT id, gold_grade FROM pairs INDEXED BY pairs_gold WHERE project_id = ? AND gold_grade IS NOT NULL`, projectID)
+	gold, _, err := goldGrades(ctx, s.r, projectID)
 	if err != nil {
 		return nil, nil, err
 	}
-	defer rows.Close()
-	for rows.Next() {
-		var id int64
-		var g int
-		if err := rows.Scan(&id, &g); err != nil {
-			return nil, nil, err
-		}
-		gold[strconv.FormatInt(id, 10)] = g
-	}
-	return d, gold, rows.Err()
+	return d, gold, nil
 }

@@ -189,9 +189,11 @@ func deskProgress(ctx context.Context, tx *sql.Tx, projectID int64) (Progress, e
 	return p, nil
 }
 
-func goldGrades(ctx context.Context, tx *sql.Tx, projectID int64) (map[string]int, map[int64]int, error) {
+// goldGrades reads the project's gold grades, keyed by the pair id as the agreement
+// package names items and by the pair id itself.
+func goldGrades(ctx context.Context, q querier, projectID int64) (map[string]int, map[int64]int, error) {
 	gold, goldPair := map[string]int{}, map[int64]int{}
-	rows, err := tx.QueryContext(ctx, `SELECT id, gold_grade FROM pairs INDEXED BY pairs_gold WHERE project_id = ? AND gold_grade IS NOT NULL`, projectID)
+	rows, err := q.QueryContext(ctx, `SELECT id, gold_grade FROM pairs INDEXED BY pairs_gold WHERE project_id = ? AND gold_grade IS NOT NULL`, projectID)
 	if err != nil {
 		return nil, nil, err
 	}

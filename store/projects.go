@@ -204,9 +204,12 @@ func (f readerFunc) QueryContext(ctx context.Context, q string, args ...any) (*s
 	return f(ctx, q, args...)
 }
 
-func scaleOf(ctx context.Context, q interface {
+// querier is what reads rows: the reader pool, a transaction, or readerFunc.
+type querier interface {
 	QueryContext(context.Context, string, ...any) (*sql.Rows, error)
-}, projectID int64) ([]ScaleLevel, error) {
+}
+
+func scaleOf(ctx context.Context, q querier, projectID int64) ([]ScaleLevel, error) {
 	rows, err := q.QueryContext(ctx, `SELECT grade, label, description FROM scale_levels WHERE project_id = ? ORDER BY grade`, projectID)
 	if err != nil {
 		return nil, err
