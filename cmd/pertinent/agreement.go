@@ -34,9 +34,6 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return nil
-		}
 		return err
 	}
 	if fs.NArg() > 0 {

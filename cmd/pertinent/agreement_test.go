@@ -48,7 +48,7 @@ func cohenCSV() string {
 func agreementCmd(t *testing.T, args ...string) (string, string, error) {
 	t.Helper()
 	var out, errOut bytes.Buffer
-	err := runAgreement(context.Background(), args, &out, &errOut)
+	err := run(context.Background(), append([]string{"agreement"}, args...), &out, &errOut)
 	return out.String(), errOut.String(), err
 }
 

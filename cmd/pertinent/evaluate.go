@@ -4,7 +4,6 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -32,9 +31,6 @@ func runEvaluate(ctx context.Context, args []string, stdout, stderr io.Writer) e
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return nil
-		}
 		return err
 	}
 	if *project == "" || fs.NArg() < 1 || fs.NArg() > 2 {

@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -33,9 +32,6 @@ func runExport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return nil
-		}
 		return err
 	}
 	if fs.NArg() > 0 {

@@ -37,9 +37,7 @@ func main() {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 	if err := run(ctx, os.Args[1:], os.Stdout, os.Stderr); err != nil {
-		if !errors.Is(err, flag.ErrHelp) {
-			fmt.Fprintln(os.Stderr, "pertinent:", err)
-		}
+		fmt.Fprintln(os.Stderr, "pertinent:", err)
 		os.Exit(2)
 	}
 }
@@ -57,7 +55,11 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 		usage(stderr)
 		return fmt.Errorf("unknown command %q", args[0])
 	}
-	return c.run(ctx, args[1:], stdout, stderr)
+	// -h on any command has printed its flags: that is not a failure.
+	if err := c.run(ctx, args[1:], stdout, stderr); !errors.Is(err, flag.ErrHelp) {
+		return err
+	}
+	return nil
 }
 
 func usage(w io.Writer) {
