@@ -56,15 +56,11 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 		if *project == "" {
 			return errors.New("agreement: --db needs --project NAME")
 		}
-		st, err := store.Open(ctx, *dbPath)
+		st, p, err := openProject(ctx, *dbPath, *project)
 		if err != nil {
-			return err
+			return fmt.Errorf("agreement: %w", err)
 		}
 		defer st.Close()
-		p, err := st.ProjectByName(ctx, *project)
-		if err != nil {
-			return fmt.Errorf("agreement: no project named %q in %s", *project, *dbPath)
-		}
 		d, gold, err := st.AgreementData(ctx, p.ID)
 		if err != nil {
 			return err

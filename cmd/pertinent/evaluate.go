@@ -59,15 +59,11 @@ func runEvaluate(ctx context.Context, args []string, stdout, stderr io.Writer) e
 		defer f.Close()
 		runs = append(runs, store.NamedRun{Name: filepath.Base(path), Body: f})
 	}
-	st, err := store.Open(ctx, *dbPath)
+	st, p, err := openProject(ctx, *dbPath, *project)
 	if err != nil {
-		return err
+		return fmt.Errorf("evaluate: %w", err)
 	}
 	defer st.Close()
-	p, err := st.ProjectByName(ctx, *project)
-	if err != nil {
-		return fmt.Errorf("evaluate: no project named %q in %s", *project, *dbPath)
-	}
 	ev, err := st.Evaluate(ctx, p.ID, req, runs)
 	if err != nil {
 		return fmt.Errorf("evaluate: %w", err)

@@ -58,15 +58,11 @@ func runExport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		req.Split.Method, req.Split.Folds = "k-fold", *folds
 	}
 
-	st, err := store.Open(ctx, *dbPath)
+	st, p, err := openProject(ctx, *dbPath, *project)
 	if err != nil {
-		return err
+		return fmt.Errorf("export: %w", err)
 	}
 	defer st.Close()
-	p, err := st.ProjectByName(ctx, *project)
-	if err != nil {
-		return fmt.Errorf("export: no project named %q in %s", *project, *dbPath)
-	}
 	plan, err := st.PlanExport(ctx, p.ID, req)
 	if err != nil {
 		return fmt.Errorf("export: %w", err)

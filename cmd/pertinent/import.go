@@ -52,15 +52,11 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if *project == "" || fs.NArg() == 0 {
 		return errors.New(importHelp)
 	}
-	st, err := store.Open(ctx, *db)
+	st, p, err := openProject(ctx, *db, *project)
 	if err != nil {
 		return err
 	}
 	defer st.Close()
-	p, err := st.ProjectByName(ctx, *project)
-	if err != nil {
-		return fmt.Errorf("no project named %q in %s", *project, *db)
-	}
 
 	var files []store.ImportFile
 	var total int64

@@ -11,6 +11,8 @@ import (
 	"os/signal"
 	"sort"
 	"syscall"
+
+	"github.com/pertinent/pertinent/store"
 )
 
 // command is one subcommand: it parses its own flags from args.
@@ -97,6 +99,24 @@ func envBool(name string, def bool) bool {
 // dbFlag adds the --db flag shared by every command that opens the database.
 func dbFlag(fs *flag.FlagSet, def string) *string {
 	return fs.String("db", env("PERTINENT_DB", def), "SQLite database file (env PERTINENT_DB)")
+}
+
+// openProject opens the database and finds a project by name; the caller closes the store.
+// Only a missing project reads as one: any other error is passed on as it is.
+func openProject(ctx context.Context, db, name string) (*store.Store, store.Project, error) {
+	st, err := store.Open(ctx, db)
+	if err != nil {
+		return nil, store.Project{}, err
+	}
+	p, err := st.ProjectByName(ctx, name)
+	if err != nil {
+		st.Close()
+		if errors.Is(err, store.ErrNotFound) {
+			err = fmt.Errorf("no project named %q in %s", name, db)
+		}
+		return nil, store.Project{}, err
+	}
+	return st, p, nil
 }
 
 func newFlags(name string, stderr io.Writer) *flag.FlagSet {
