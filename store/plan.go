@@ -486,7 +486,10 @@ func (s *Store) AdvanceDesign(ctx context.Context, projectID, by, designID int64
 		if _, err := lockedProject(ctx, tx, projectID); err != nil {
 			return err
 		}
-		return insertChoices(ctx, tx, projectID, designID, plan.Choices)
+		if err := insertChoices(ctx, tx, projectID, designID, plan.Choices); err != nil {
+			return err
+		}
+		return audit(ctx, tx, by, projectID, "design.advance", fmt.Sprintf("design %d", designID), strconv.Itoa(len(plan.Choices))+" pairs released")
 	})
 	if err != nil {
 		return 0, err
@@ -703,4 +706,36 @@ func ScoreTableOf(rep estimate.Report, metric string) estimate.ScoreTable {
 		t.Scores = append(t.Scores, row)
 	}
 	return t
+}
+
+// AdvanceDesigns releases the next wave of every adaptive design of the project that is
+// running low, and returns how many pairs were added. The judging screen calls it when an
+// assessor finds no work, so that adaptive designs never leave people idle.
+func (s *Store) AdvanceDesigns(ctx context.Context, projectID int64) (int, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT id FROM designs WHERE project_id = ? AND kind IN ('decide', 'find') ORDER BY id`, projectID)
+	if err != nil {
+		return 0, err
+	}
+	var ids []int64
+	for rows.Next() {
+		var id int64
+		if err := rows.Scan(&id); err != nil {
+			rows.Close()
+			return 0, err
+		}
+		ids = append(ids, id)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return 0, err
+	}
+	total := 0
+	for _, id := range ids {
+		n, err := s.AdvanceDesign(ctx, projectID, 0, id)
+		if err != nil {
+			return total, err
+		}
+		total += n
+	}
+	return total, nil
 }
