@@ -12,7 +12,6 @@ import (
 
 	"golang.org/x/crypto/bcrypt"
 
-	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -189,5 +188,4 @@ func TestPlanThenEvaluateDesignOnTheCommandLine(t *testing.T) {
 	if err := runPlan(ctx, args, &out, &errOut); err == nil || !strings.Contains(err.Error(), "budget") {
 		t.Errorf("small budget: %v", err)
 	}
-	_ = export.ConsensusMedian
 }
