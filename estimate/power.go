@@ -15,8 +15,7 @@ import (
 // degrees of freedom and noncentrality nc.
 //
 // For x >= 0 it sums the Poisson-weighted series of incomplete beta
-// functions (Lenth, Applied Statistics 38, 1989, algorithm AS 243; A&S
-// 26.7.10's mixture form):
+// functions (Lenth, Applied Statistics 38, 1989, algorithm AS 243):
 //
 //	F(x) = Φ(-δ) + ½ Σ_j [ P_j I_y(j+½, ν/2) + δ/√2 · Q_j I_y(j+1, ν/2) ]
 //
@@ -24,8 +23,9 @@ import (
 // Q_j = e^{-λ} λ^j / Γ(j+3/2). The sum starts at the largest weight (j near
 // λ) and walks both ways (Benton & Krishnamoorthy, CSDA 43, 2003), so a
 // large noncentrality neither underflows e^{-λ} nor needs λ terms before the
-// ones that matter; each incomplete beta comes from gonum rather than from
-// the AS 243 recurrences, whose subtraction loses digits when ν is large.
+// ones that matter. Each incomplete beta is computed directly (gonum's
+// RegIncBeta) instead of by AS 243's running recurrences, so no error
+// carries from term to term.
 // For x < 0, F(x; ν, δ) = 1 - F(-x; ν, -δ).
 func NoncentralTCDF(x, df, nc float64) float64 {
 	switch {
@@ -148,8 +148,8 @@ type Power struct {
 // bootstrap test. The t-test is used here because it needs no resampling
 // (100 runs make 4,950 pairs), gives the same answer every time on the
 // page, the command line and the API, and is the test whose power the
-// query plan (PlanQueries) computes; with tens of queries the two tests
-// seldom disagree by much, but shares from here are not Sakai's figures.
+// query plan (PlanQueries) computes. Shares from here are therefore not
+// directly comparable with Sakai's bootstrap figures.
 func DiscriminativePower(metric string, t ScoreTable, alpha float64) (Power, error) {
 	if alpha == 0 {
 		alpha = 0.05
