@@ -37,9 +37,9 @@ func NoncentralTCDF(x, df, nc float64) float64 {
 		return 0
 	}
 	if x < 0 {
-		return clamp01(1 - nctUpperHalf(-x, df, -nc))
+		return clampPower(1 - nctUpperHalf(-x, df, -nc))
 	}
-	return clamp01(nctUpperHalf(x, df, nc))
+	return clampPower(nctUpperHalf(x, df, nc))
 }
 
 // nctUpperHalf is the noncentral t CDF at x >= 0.
@@ -97,7 +97,7 @@ func nctUpperHalf(x, df, nc float64) float64 {
 	return phi + 0.5*sum
 }
 
-func clamp01(p float64) float64 {
+func clampPower(p float64) float64 {
 	return math.Min(1, math.Max(0, p))
 }
 
@@ -114,16 +114,16 @@ func PairedTPower(n int, minDiff, sd, alpha float64) float64 {
 		return math.NaN()
 	}
 	df := float64(n - 1)
-	crit := studentQuantile(1-alpha/2, df)
+	crit := planTQuantile(1-alpha/2, df)
 	nc := math.Sqrt(float64(n)) * minDiff / sd
 	// P(T > c) + P(T < -c), with P(T < -c; δ) = 1 - P(T <= c; -δ).
 	upper := 1 - NoncentralTCDF(crit, df, nc)
 	lower := 1 - NoncentralTCDF(crit, df, -nc)
-	return clamp01(upper + lower)
+	return clampPower(upper + lower)
 }
 
-// studentQuantile is the p-quantile of Student's t with df degrees of freedom.
-func studentQuantile(p, df float64) float64 {
+// planTQuantile is the p-quantile of Student's t with df degrees of freedom.
+func planTQuantile(p, df float64) float64 {
 	return distuv.StudentsT{Mu: 0, Sigma: 1, Nu: df}.Quantile(p)
 }
 

@@ -71,7 +71,7 @@ func TestNoncentralTCDFCentralClosedForms(t *testing.T) {
 	// α 0.05; by default only the upper rejection region) prints power =
 	// 0.8689528 (value from memory of R's documented example): df 38,
 	// noncentrality √(20/2).
-	crit := studentQuantile(0.975, 38)
+	crit := planTQuantile(0.975, 38)
 	if got := 1 - NoncentralTCDF(crit, 38, math.Sqrt(10)); math.Abs(got-0.8689528) > 5e-8 {
 		t.Errorf("power.t.test(n = 20, delta = 1): %.9f, R 0.8689528", got)
 	}
@@ -223,7 +223,7 @@ func TestDiscriminativePowerAgainstScipy(t *testing.T) {
 	var tabs []ScoreTable
 	var scores [][][]float64
 	for trial := range 4 {
-		tabs = append(tabs, randomTable(rng, 3+trial*2, 8+trial*9))
+		tabs = append(tabs, randomScoreTable(rng, 3+trial*2, 8+trial*9))
 		scores = append(scores, tabs[trial].Scores)
 	}
 	in, _ := json.Marshal(scores)
@@ -270,9 +270,9 @@ print(json.dumps(res))
 	}
 }
 
-// randomTable draws runs whose means differ a little and whose scores share
+// randomScoreTable draws runs whose means differ a little and whose scores share
 // a per-query effect, as real runs do, clipped to [0, 1].
-func randomTable(rng *rand.Rand, runs, queries int) ScoreTable {
+func randomScoreTable(rng *rand.Rand, runs, queries int) ScoreTable {
 	tab := ScoreTable{Runs: make([]string, runs), Queries: make([]string, queries), Scores: make([][]float64, runs)}
 	qe := make([]float64, queries)
 	for q := range qe {

@@ -125,7 +125,7 @@ func PlanQueries(t ScoreTable, req QueryPlanRequest) (QueryPlan, error) {
 	} else {
 		ve := anovaResidualVariance(t.Scores)
 		p.Variance = 2 * ve
-		p.VarianceFrom = fmt.Sprintf("twice the residual variance of a two-way analysis of variance without replication over %d runs × %d queries (V_E = %s), pooling every run as Sakai's topic set size design does", len(t.Runs), len(t.Queries), fmtNum(ve, 3))
+		p.VarianceFrom = fmt.Sprintf("twice the residual variance of a two-way analysis of variance without replication over %d runs × %d queries (V_E = %s), pooling every run as Sakai's topic set size design does", len(t.Runs), len(t.Queries), planNumber(ve, 3))
 	}
 	if !(p.Variance > zeroVarianceShare*tableSpread(t.Scores)) {
 		return QueryPlan{}, errors.New("estimate: the runs' differences are the same on every query, so the table says nothing about how a difference varies from query to query; no number of queries can be planned from it")
@@ -133,13 +133,13 @@ func PlanQueries(t ScoreTable, req QueryPlanRequest) (QueryPlan, error) {
 	sd := math.Sqrt(p.Variance)
 	n, ok := queriesForPower(sd, req.MinDiff, req.Alpha, req.Beta)
 	if !ok {
-		return QueryPlan{}, fmt.Errorf("estimate: detecting a difference of %s would take more than %d queries with this table's variation; ask for a larger difference", fmtNum(req.MinDiff, 3), maxPlannedQueries)
+		return QueryPlan{}, fmt.Errorf("estimate: detecting a difference of %s would take more than %d queries with this table's variation; ask for a larger difference", planNumber(req.MinDiff, 3), maxPlannedQueries)
 	}
 	p.Needed = n
 	if req.HalfWidth > 0 {
 		n, ok := queriesForWidth(sd, req.HalfWidth)
 		if !ok {
-			return QueryPlan{}, fmt.Errorf("estimate: a 95%% interval of ±%s would take more than %d queries with this table's variation; ask for a wider one", fmtNum(req.HalfWidth, 3), maxPlannedQueries)
+			return QueryPlan{}, fmt.Errorf("estimate: a 95%% interval of ±%s would take more than %d queries with this table's variation; ask for a wider one", planNumber(req.HalfWidth, 3), maxPlannedQueries)
 		}
 		p.NeededForWidth = n
 	}
@@ -237,7 +237,7 @@ func queriesForWidth(sd, hw float64) (int, bool) {
 
 // halfWidth95 is t_{0.975, n-1}·sd/√n.
 func halfWidth95(n int, sd float64) float64 {
-	return studentQuantile(0.975, float64(n-1)) * sd / math.Sqrt(float64(n))
+	return planTQuantile(0.975, float64(n-1)) * sd / math.Sqrt(float64(n))
 }
 
 // smallestQueries is the smallest n in [2, maxPlannedQueries] with enough(n),
@@ -265,22 +265,22 @@ func smallestQueries(enough func(int) bool) (int, bool) {
 func planText(p QueryPlan, req QueryPlanRequest) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "About %d queries are needed to detect a difference of %s (α %s, power %s); %d are judged",
-		p.Needed, fmtNum(req.MinDiff, 3), fmtNum(req.Alpha, 3), fmtNum(1-req.Beta, 3), p.Have)
+		p.Needed, planNumber(req.MinDiff, 3), planNumber(req.Alpha, 3), planNumber(1-req.Beta, 3), p.Have)
 	if p.Have >= p.Needed {
 		b.WriteString(", enough")
 	}
 	fmt.Fprintf(&b, ": the 95%% interval of a difference is ±%s now, and the test's power to detect %s is %s.",
-		fmtNum(p.HalfWidthNow, 2), fmtNum(req.MinDiff, 3), fmtNum(p.PowerNow, 2))
+		planNumber(p.HalfWidthNow, 2), planNumber(req.MinDiff, 3), planNumber(p.PowerNow, 2))
 	if p.NeededForWidth > 0 {
 		fmt.Fprintf(&b, " About %d queries bring the 95%% interval of a difference down to ±%s.",
-			p.NeededForWidth, fmtNum(req.HalfWidth, 3))
+			p.NeededForWidth, planNumber(req.HalfWidth, 3))
 	}
 	return b.String()
 }
 
-// fmtNum writes x with at most sig significant digits, dropping trailing
+// planNumber writes x with at most sig significant digits, dropping trailing
 // zeros (0.0641 with 2 digits is "0.064"; 0.8 stays "0.8").
-func fmtNum(x float64, sig int) string {
+func planNumber(x float64, sig int) string {
 	if x == 0 || math.IsNaN(x) || math.IsInf(x, 0) {
 		return strconv.FormatFloat(x, 'g', -1, 64)
 	}

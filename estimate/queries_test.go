@@ -26,7 +26,7 @@ func TestPlanQueriesAgainstStatsmodels(t *testing.T) {
 	var jobs []job
 	var tabs []ScoreTable
 	for _, size := range [][2]int{{3, 12}, {6, 40}, {10, 25}, {4, 70}} {
-		tab := randomTable(rng, size[0], size[1])
+		tab := randomScoreTable(rng, size[0], size[1])
 		tabs = append(tabs, tab)
 		jobs = append(jobs, job{Scores: tab.Scores, MinDiff: 0.03 + 0.02*rng.Float64(), HW: 0.02 + 0.02*rng.Float64()})
 	}
@@ -90,7 +90,7 @@ print(json.dumps(res))
 // 2·V_E is the plain variance of the differences d (algebra); the plan says
 // it used the latter.
 func TestPlanQueriesTwoRuns(t *testing.T) {
-	tab := randomTable(rand.New(rand.NewPCG(3, 9)), 2, 30)
+	tab := randomScoreTable(rand.New(rand.NewPCG(3, 9)), 2, 30)
 	d := make([]float64, 30)
 	for q := range d {
 		d[q] = tab.Scores[1][q] - tab.Scores[0][q]
@@ -131,7 +131,7 @@ func TestPlanQueriesText(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := "About " + strconv.Itoa(p.Needed) + " queries are needed to detect a difference of 0.05 (α 0.05, power 0.8); 40 are judged: the 95% interval of a difference is ±" +
-		fmtNum(p.HalfWidthNow, 2) + " now, and the test's power to detect 0.05 is " + fmtNum(p.PowerNow, 2) +
+		planNumber(p.HalfWidthNow, 2) + " now, and the test's power to detect 0.05 is " + planNumber(p.PowerNow, 2) +
 		". About " + strconv.Itoa(p.NeededForWidth) + " queries bring the 95% interval of a difference down to ±0.04."
 	if p.Text != want {
 		t.Errorf("text\n%q\nwant\n%q", p.Text, want)
@@ -145,29 +145,29 @@ func TestPlanQueriesText(t *testing.T) {
 	}
 }
 
-func TestFmtNum(t *testing.T) {
+func TestPlanNumber(t *testing.T) {
 	for _, c := range []struct {
 		x    float64
 		sig  int
 		want string
 	}{{0.0641, 2, "0.064"}, {0.05, 3, "0.05"}, {1 - 0.2, 3, "0.8"}, {0.123456, 3, "0.123"}, {1234.5, 2, "1234"}, {0.95, 2, "0.95"}, {0.996, 2, "1"}} {
-		if got := fmtNum(c.x, c.sig); got != c.want {
-			t.Errorf("fmtNum(%v, %d) = %q, want %q", c.x, c.sig, got, c.want)
+		if got := planNumber(c.x, c.sig); got != c.want {
+			t.Errorf("planNumber(%v, %d) = %q, want %q", c.x, c.sig, got, c.want)
 		}
 	}
 }
 
 func TestPlanQueriesValidation(t *testing.T) {
-	good := randomTable(rand.New(rand.NewPCG(1, 2)), 3, 10)
+	good := randomScoreTable(rand.New(rand.NewPCG(1, 2)), 3, 10)
 	constant := ScoreTable{Runs: []string{"a", "b", "c"}, Queries: []string{"x", "y", "z"},
 		Scores: [][]float64{{0.25, 0.5, 0.75}, {0.375, 0.625, 0.875}, {0.25, 0.5, 0.75}}}
 	// Constant differences that are not exact in binary leave rounding
 	// residuals of about 1e-17; they still mean no variation.
 	shifted := ScoreTable{Runs: []string{"a", "b"}, Queries: []string{"x", "y", "z"},
 		Scores: [][]float64{{0.3, 0.7, 0.2}, {0.4, 0.8, 0.3}}}
-	nanTab := randomTable(rand.New(rand.NewPCG(1, 2)), 2, 3)
+	nanTab := randomScoreTable(rand.New(rand.NewPCG(1, 2)), 2, 3)
 	nanTab.Scores[1][2] = math.NaN()
-	short := randomTable(rand.New(rand.NewPCG(1, 2)), 2, 3)
+	short := randomScoreTable(rand.New(rand.NewPCG(1, 2)), 2, 3)
 	short.Scores[0] = short.Scores[0][:2]
 	ok := QueryPlanRequest{MinDiff: 0.05}
 	for _, c := range []struct {
