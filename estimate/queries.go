@@ -120,14 +120,14 @@ func PlanQueries(t ScoreTable, req QueryPlanRequest) (QueryPlan, error) {
 	}
 	p := QueryPlan{Have: len(t.Queries)}
 	if len(t.Runs) == 2 {
-		p.Variance = diffVariance(t.Scores[0], t.Scores[1])
+		p.Variance = pairDiffVariance(t.Scores[0], t.Scores[1])
 		p.VarianceFrom = fmt.Sprintf("the variance of the %d per-query differences between the two runs (for two runs the same as twice the residual variance of a two-way analysis of variance)", len(t.Queries))
 	} else {
 		ve := anovaResidualVariance(t.Scores)
 		p.Variance = 2 * ve
 		p.VarianceFrom = fmt.Sprintf("twice the residual variance of a two-way analysis of variance without replication over %d runs × %d queries (V_E = %s), pooling every run as Sakai's topic set size design does", len(t.Runs), len(t.Queries), planNumber(ve, 3))
 	}
-	if !(p.Variance > zeroVarianceShare*tableSpread(t.Scores)) {
+	if !(p.Variance > zeroVarianceShare*scoreSpread(t.Scores)) {
 		return QueryPlan{}, errors.New("estimate: the runs' differences are the same on every query, so the table says nothing about how a difference varies from query to query; no number of queries can be planned from it")
 	}
 	sd := math.Sqrt(p.Variance)
@@ -154,9 +154,9 @@ func PlanQueries(t ScoreTable, req QueryPlanRequest) (QueryPlan, error) {
 // residuals of about 1e-17).
 const zeroVarianceShare = 1e-20
 
-// tableSpread is the mean square of every score about the grand mean, or
+// scoreSpread is the mean square of every score about the grand mean, or
 // the smallest positive float when the table is constant.
-func tableSpread(s [][]float64) float64 {
+func scoreSpread(s [][]float64) float64 {
 	sum, n := 0.0, 0
 	for _, row := range s {
 		for _, v := range row {
@@ -206,8 +206,8 @@ func anovaResidualVariance(s [][]float64) float64 {
 	return ss / float64((m-1)*(n-1))
 }
 
-// diffVariance is the sample variance (n-1 denominator) of b - a.
-func diffVariance(a, b []float64) float64 {
+// pairDiffVariance is the sample variance (n-1 denominator) of b - a.
+func pairDiffVariance(a, b []float64) float64 {
 	n := float64(len(a))
 	mean := 0.0
 	for i := range a {

@@ -99,7 +99,7 @@ func TestPlanQueriesTwoRuns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if math.Abs(p.Variance-2*anovaResidualVariance(tab.Scores)) > 1e-15 || math.Abs(p.Variance-diffVariance(tab.Scores[0], tab.Scores[1])) > 0 {
+	if math.Abs(p.Variance-2*anovaResidualVariance(tab.Scores)) > 1e-15 || math.Abs(p.Variance-pairDiffVariance(tab.Scores[0], tab.Scores[1])) > 0 {
 		t.Errorf("variance %v, 2·V_E %v", p.Variance, 2*anovaResidualVariance(tab.Scores))
 	}
 	if !strings.HasPrefix(p.VarianceFrom, "the variance of the 30 per-query differences") {
