@@ -644,6 +644,12 @@ func (s *Store) DesignQueries(ctx context.Context, projectID, designID int64, me
 	if err != nil {
 		return QueriesReport{}, err
 	}
+	return QueriesFor(rep, metric, req)
+}
+
+// QueriesFor is DesignQueries over a report already read (the design's page reads it once).
+func QueriesFor(rep DesignReport, metric string, req estimate.QueryPlanRequest) (QueriesReport, error) {
+	var err error
 	if metric == "" {
 		metric = "ndcg"
 	}

@@ -330,7 +330,7 @@ func (s *Server) designPage(w http.ResponseWriter, r *http.Request) {
 	}
 	if req, err := data.Queries.request(); err != nil {
 		_, data.QueriesError, _ = userError(err)
-	} else if qp, err := s.store.DesignQueries(r.Context(), p.ID, id, data.Queries.Metric, req); err != nil {
+	} else if qp, err := store.QueriesFor(rep, data.Queries.Metric, req); err != nil {
 		if _, msg, ok := userError(err); ok {
 			data.QueriesError = msg
 		} else {
