@@ -663,6 +663,6 @@ func (m *decideModel) reason(x candidate) string {
 	if x.doc.w < 0 {
 		better = m.d.RunA
 	}
-	return fmt.Sprintf("query %s: %s, %s; a relevant grade favours %s (weight %.3f of the expected ideal DCG)",
-		x.q.id, where(m.d.RunA, x.doc.rankA), where(m.d.RunB, x.doc.rankB), better, x.p)
+	return fmt.Sprintf("query %s: %s, %s; each unit of gain moves the query's NDCG difference about %.3f towards %s",
+		x.q.id, where(m.d.RunA, x.doc.rankA), where(m.d.RunB, x.doc.rankB), x.p, better)
 }
