@@ -10,9 +10,9 @@ import (
 	"github.com/pertinent/pertinent/rankeval"
 )
 
-// defaultWave is how many pairs an adaptive design releases per call when
+// adaptiveDefaultWave is how many pairs an adaptive design releases per call when
 // the design does not say.
-const defaultWave = 20
+const adaptiveDefaultWave = 20
 
 // adaptiveWave returns the wave size of d, or an error for a negative one.
 func adaptiveWave(d Design) (int, error) {
@@ -20,18 +20,18 @@ func adaptiveWave(d Design) (int, error) {
 	case d.Wave < 0:
 		return 0, fmt.Errorf("estimate: wave %d is negative", d.Wave)
 	case d.Wave == 0:
-		return defaultWave, nil
+		return adaptiveDefaultWave, nil
 	}
 	return d.Wave, nil
 }
 
-// runIndex finds a run by name.
-func runIndex(runs []NamedRun, name string) int {
+// adaptiveRunIndex finds a run by name.
+func adaptiveRunIndex(runs []NamedRun, name string) int {
 	return slices.IndexFunc(runs, func(r NamedRun) bool { return r.Name == name })
 }
 
-// runList names the runs for an error message.
-func runList(runs []NamedRun) string {
+// adaptiveRunList names the runs for an error message.
+func adaptiveRunList(runs []NamedRun) string {
 	names := make([]string, len(runs))
 	for i, r := range runs {
 		names[i] = fmt.Sprintf("%q", r.Name)
@@ -42,9 +42,9 @@ func runList(runs []NamedRun) string {
 	return strings.Join(names, ", ")
 }
 
-// checkRunNames refuses unnamed and repeated runs, which would make the
+// adaptiveCheckRunNames refuses unnamed and repeated runs, which would make the
 // choices' reasons ambiguous.
-func checkRunNames(runs []NamedRun) error {
+func adaptiveCheckRunNames(runs []NamedRun) error {
 	seen := make(map[string]bool, len(runs))
 	for _, r := range runs {
 		if r.Name == "" {
@@ -58,10 +58,10 @@ func checkRunNames(runs []NamedRun) error {
 	return nil
 }
 
-// rankedDocs returns the document ids of one query of a run in
+// adaptiveRanked returns the document ids of one query of a run in
 // rankeval.Rank order, refusing what rankeval refuses (a repeated
 // document, a NaN score).
-func rankedDocs(run NamedRun, qid string) ([]string, error) {
+func adaptiveRanked(run NamedRun, qid string) ([]string, error) {
 	ranked := rankeval.Rank(run.Run[qid])
 	ids := make([]string, len(ranked))
 	seen := make(map[string]bool, len(ranked))
@@ -78,9 +78,9 @@ func rankedDocs(run NamedRun, qid string) ([]string, error) {
 	return ids, nil
 }
 
-// gains returns the gain of each grade 0..maxGrade, as rankeval computes
+// adaptiveGains returns the gain of each grade 0..maxGrade, as rankeval computes
 // it.
-func gains(g rankeval.Gain, maxGrade int) ([]float64, error) {
+func adaptiveGains(g rankeval.Gain, maxGrade int) ([]float64, error) {
 	if g != rankeval.GainExponential && g != rankeval.GainLinear {
 		return nil, fmt.Errorf("estimate: unknown gain %d", int(g))
 	}
@@ -98,12 +98,12 @@ func gains(g rankeval.Gain, maxGrade int) ([]float64, error) {
 	return out, nil
 }
 
-// discount is 1/log2(rank+1), rank from 1, as in rankeval.
-func discount(rank int) float64 { return 1 / math.Log2(float64(rank)+1) }
+// adaptiveDiscount is 1/log2(rank+1), rank from 1, as in rankeval.
+func adaptiveDiscount(rank int) float64 { return 1 / math.Log2(float64(rank)+1) }
 
-// checkKnown refuses grades off the scale; -1 marks a pair chosen but not
+// adaptiveCheckKnown refuses grades off the scale; -1 marks a pair chosen but not
 // graded yet.
-func checkKnown(known Labels, maxGrade int) error {
+func adaptiveCheckKnown(known Labels, maxGrade int) error {
 	for q, docs := range known {
 		for doc, l := range docs {
 			if l.Grade < -1 || l.Grade > maxGrade {
@@ -114,22 +114,22 @@ func checkKnown(known Labels, maxGrade int) error {
 	return nil
 }
 
-// labelOf returns the label of a pair and whether the pair is known.
-func labelOf(known Labels, q, doc string) (Label, bool) {
+// adaptiveLabel returns the label of a pair and whether the pair is known.
+func adaptiveLabel(known Labels, q, doc string) (Label, bool) {
 	l, ok := known[q][doc]
 	return l, ok
 }
 
-// querySeed mixes a design's seed with a query id, so that each query's
+// adaptiveQuerySeed mixes a design's seed with a query id, so that each query's
 // random choices stay the same whatever other queries there are.
-func querySeed(q string) uint64 {
+func adaptiveQuerySeed(q string) uint64 {
 	h := fnv.New64a()
 	h.Write([]byte(q))
 	return h.Sum64()
 }
 
-// unionQueries returns the sorted ids of the queries of the given runs.
-func unionQueries(runs ...NamedRun) []string {
+// adaptiveQueries returns the sorted ids of the queries of the given runs.
+func adaptiveQueries(runs ...NamedRun) []string {
 	set := map[string]bool{}
 	for _, r := range runs {
 		for q := range r.Run {

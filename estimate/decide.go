@@ -111,8 +111,8 @@ type decideModel struct {
 	decision Decision
 }
 
-// rankBand places a best rank into the model's bands: 1-3, 4-10, 11+.
-func rankBand(rank int) int {
+// decideBand places a best rank into the model's bands: 1-3, 4-10, 11+.
+func decideBand(rank int) int {
 	switch {
 	case rank <= 3:
 		return 0
@@ -145,21 +145,21 @@ func decideDefaults(d Design, runs []NamedRun) (Design, int, int, error) {
 		return d, 0, 0, err
 	}
 	d.Wave = w
-	if err := checkRunNames(runs); err != nil {
+	if err := adaptiveCheckRunNames(runs); err != nil {
 		return d, 0, 0, err
 	}
 	if d.RunA == "" || d.RunB == "" {
-		return d, 0, 0, fmt.Errorf("estimate: a decide design needs run A and run B (runs: %s)", runList(runs))
+		return d, 0, 0, fmt.Errorf("estimate: a decide design needs run A and run B (runs: %s)", adaptiveRunList(runs))
 	}
 	if d.RunA == d.RunB {
 		return d, 0, 0, fmt.Errorf("estimate: run A and run B are both %q; a decision needs two different runs", d.RunA)
 	}
-	ia, ib := runIndex(runs, d.RunA), runIndex(runs, d.RunB)
+	ia, ib := adaptiveRunIndex(runs, d.RunA), adaptiveRunIndex(runs, d.RunB)
 	if ia < 0 {
-		return d, 0, 0, fmt.Errorf("estimate: run A %q is not among the runs (%s)", d.RunA, runList(runs))
+		return d, 0, 0, fmt.Errorf("estimate: run A %q is not among the runs (%s)", d.RunA, adaptiveRunList(runs))
 	}
 	if ib < 0 {
-		return d, 0, 0, fmt.Errorf("estimate: run B %q is not among the runs (%s)", d.RunB, runList(runs))
+		return d, 0, 0, fmt.Errorf("estimate: run B %q is not among the runs (%s)", d.RunB, adaptiveRunList(runs))
 	}
 	return d, ia, ib, nil
 }
@@ -171,21 +171,21 @@ func newDecideModel(d Design, runs []NamedRun, known Labels, gain rankeval.Gain,
 	if err != nil {
 		return nil, err
 	}
-	g, err := gains(gain, maxGrade)
+	g, err := adaptiveGains(gain, maxGrade)
 	if err != nil {
 		return nil, err
 	}
-	if err := checkKnown(known, maxGrade); err != nil {
+	if err := adaptiveCheckKnown(known, maxGrade); err != nil {
 		return nil, err
 	}
 	m := &decideModel{d: d, gain: g, cumDisc: make([]float64, d.K+1)}
 	for i := 1; i <= d.K; i++ {
-		m.cumDisc[i] = m.cumDisc[i-1] + discount(i)
+		m.cumDisc[i] = m.cumDisc[i-1] + adaptiveDiscount(i)
 	}
 	// Every query of either run or of the labels counts, as rankeval
 	// evaluates every query of the qrels.
 	qset := map[string]bool{}
-	for _, q := range unionQueries(runs[ia], runs[ib]) {
+	for _, q := range adaptiveQueries(runs[ia], runs[ib]) {
 		qset[q] = true
 	}
 	for q := range known {
@@ -202,11 +202,11 @@ func newDecideModel(d Design, runs []NamedRun, known Labels, gain rankeval.Gain,
 		counts[b] = make([]float64, maxGrade+1)
 	}
 	for _, q := range qids {
-		ra, err := rankedDocs(runs[ia], q)
+		ra, err := adaptiveRanked(runs[ia], q)
 		if err != nil {
 			return nil, err
 		}
-		rb, err := rankedDocs(runs[ib], q)
+		rb, err := adaptiveRanked(runs[ib], q)
 		if err != nil {
 			return nil, err
 		}
@@ -227,8 +227,8 @@ func newDecideModel(d Design, runs []NamedRun, known Labels, gain rankeval.Gain,
 			}
 		}
 		for doc, rank := range best {
-			if l, ok := labelOf(known, q, doc); ok && l.Grade >= 0 {
-				counts[rankBand(rank)][l.Grade]++
+			if l, ok := adaptiveLabel(known, q, doc); ok && l.Grade >= 0 {
+				counts[decideBand(rank)][l.Grade]++
 			}
 		}
 		rankIn := func(r []string) map[string]int {
@@ -253,13 +253,13 @@ func newDecideModel(d Design, runs []NamedRun, known Labels, gain rankeval.Gain,
 			doc := &docs[i]
 			doc.rankA, doc.rankB = inA[doc.id], inB[doc.id]
 			if doc.rankB > 0 {
-				doc.w += discount(doc.rankB)
+				doc.w += adaptiveDiscount(doc.rankB)
 			}
 			if doc.rankA > 0 {
-				doc.w -= discount(doc.rankA)
+				doc.w -= adaptiveDiscount(doc.rankA)
 			}
-			doc.band = rankBand(best[doc.id])
-			l, ok := labelOf(known, q, doc.id)
+			doc.band = decideBand(best[doc.id])
+			l, ok := adaptiveLabel(known, q, doc.id)
 			doc.known = ok
 			doc.grade = -1
 			if ok {
@@ -372,7 +372,7 @@ func (m *decideModel) decide() {
 	}
 	slices.Sort(values)
 	c := m.d.Confidence
-	d.Low, d.High = quantile(values, (1-c)/2), quantile(values, (1+c)/2)
+	d.Low, d.High = adaptiveQuantile(values, (1-c)/2), adaptiveQuantile(values, (1+c)/2)
 	d.ProbBBeatsA = float64(above) / float64(draws)
 	probA := float64(below) / float64(draws)
 	d.Certain = d.Unjudged == 0 || m.certainSign() != 0
@@ -389,7 +389,7 @@ func (m *decideModel) certainSign() int {
 	const eps = 1e-12 // below this a bound is rounding, not a sign
 	top := m.gain[len(m.gain)-1]
 	// The smallest positive ideal DCG: a single grade-1 document at rank 1.
-	smallest := m.gain[1] * discount(1)
+	smallest := m.gain[1] * adaptiveDiscount(1)
 	hist := make([]int, len(m.gain))
 	upper, lower := 0.0, 0.0
 	for _, q := range m.queries {
@@ -440,30 +440,30 @@ func (m *decideModel) certainSign() int {
 func (m *decideModel) priority(q *decideQuery, doc *decideDoc) float64 {
 	ideal := q.idcgMean
 	if ideal <= 0 {
-		ideal = m.gain[1] * discount(1)
+		ideal = m.gain[1] * adaptiveDiscount(1)
 	}
 	return math.Abs(doc.w) / ideal
 }
 
-// candidate is an unjudged pair with its priority.
-type candidate struct {
+// decideCandidate is an unjudged pair with its priority.
+type decideCandidate struct {
 	q   *decideQuery
 	doc *decideDoc
 	p   float64
 }
 
-// candidates returns the unjudged pairs, pending ones too, best first
+// decideCandidates returns the unjudged pairs, pending ones too, best first
 // (ties by query, then document id).
-func (m *decideModel) candidates() []candidate {
-	var out []candidate
+func (m *decideModel) decideCandidates() []decideCandidate {
+	var out []decideCandidate
 	for qi := range m.queries {
 		q := &m.queries[qi]
 		for _, di := range q.unjudged {
 			doc := &q.docs[di]
-			out = append(out, candidate{q, doc, m.priority(q, doc)})
+			out = append(out, decideCandidate{q, doc, m.priority(q, doc)})
 		}
 	}
-	slices.SortStableFunc(out, func(x, y candidate) int {
+	slices.SortStableFunc(out, func(x, y decideCandidate) int {
 		if c := cmp.Compare(y.p, x.p); c != 0 {
 			return c
 		}
@@ -482,9 +482,9 @@ func (m *decideModel) candidates() []candidate {
 // the pending pairs are taken out first, then the rest in the order they
 // would be released.
 func (m *decideModel) moreNeeded(sorted []float64) int {
-	mean, sd := meanSD(sorted)
-	c := m.candidates()
-	pending, open := []candidate{}, []candidate{}
+	mean, sd := adaptiveMeanSD(sorted)
+	c := m.decideCandidates()
+	pending, open := []decideCandidate{}, []decideCandidate{}
 	for _, x := range c {
 		if x.doc.known {
 			pending = append(pending, x)
@@ -504,7 +504,7 @@ func (m *decideModel) moreNeeded(sorted []float64) int {
 		}
 		vars[b] = e2 - e*e
 	}
-	contrib := func(x candidate) float64 { return vars[x.doc.band] * x.p * x.p }
+	contrib := func(x decideCandidate) float64 { return vars[x.doc.band] * x.p * x.p }
 	total := 0.0
 	for _, x := range c {
 		total += contrib(x)
@@ -566,9 +566,9 @@ func (m *decideModel) text(probA float64) string {
 	return fmt.Sprintf("Not settled yet (p = %.2f); about %d more judgments%s.", d.ProbBBeatsA, max(d.More, 1), wait)
 }
 
-// quantile of sorted values by linear interpolation between order
+// adaptiveQuantile of sorted values by linear interpolation between order
 // statistics (Hyndman & Fan type 7, numpy's default).
-func quantile(sorted []float64, p float64) float64 {
+func adaptiveQuantile(sorted []float64, p float64) float64 {
 	if len(sorted) == 0 {
 		return 0
 	}
@@ -580,7 +580,7 @@ func quantile(sorted []float64, p float64) float64 {
 	return sorted[lo] + (h-float64(lo))*(sorted[lo+1]-sorted[lo])
 }
 
-func meanSD(v []float64) (float64, float64) {
+func adaptiveMeanSD(v []float64) (float64, float64) {
 	if len(v) == 0 {
 		return 0, 0
 	}
@@ -626,7 +626,7 @@ func PlanDecide(d Design, runs []NamedRun, known Labels, gain rankeval.Gain, max
 	if dec.Settled {
 		return plan, nil
 	}
-	for _, x := range m.candidates() {
+	for _, x := range m.decideCandidates() {
 		if len(plan.Choices) == m.d.Wave {
 			break
 		}
@@ -648,7 +648,7 @@ func PlanDecide(d Design, runs []NamedRun, known Labels, gain rankeval.Gain, max
 }
 
 // reason says in plain words why a pair matters to the decision.
-func (m *decideModel) reason(x candidate) string {
+func (m *decideModel) reason(x decideCandidate) string {
 	where := func(name string, rank int) string {
 		if rank == 0 {
 			return fmt.Sprintf("not in %s's top %d", name, m.d.K)

@@ -10,19 +10,19 @@ import (
 	"github.com/pertinent/pertinent/rankeval"
 )
 
-// simCollection is an invented collection with a complete ground truth.
-type simCollection struct {
+// adaptiveSim is an invented collection with a complete ground truth.
+type adaptiveSim struct {
 	truth rankeval.Qrels
 	runs  []NamedRun
 }
 
-// newSimCollection makes queries of docs documents each; a document's
+// newAdaptiveSim makes queries of docs documents each; a document's
 // true grade is 0..4 with probabilities 0.55, 0.2, 0.12, 0.08, 0.05. Each
 // run scores every document as quality * grade + standard normal noise, so
 // a higher quality ranks relevant documents higher.
-func newSimCollection(seed uint64, queries, docs int, quality map[string]float64, names []string) simCollection {
+func newAdaptiveSim(seed uint64, queries, docs int, quality map[string]float64, names []string) adaptiveSim {
 	rng := rand.New(rand.NewPCG(seed, 7))
-	c := simCollection{truth: rankeval.Qrels{}}
+	c := adaptiveSim{truth: rankeval.Qrels{}}
 	runs := make([]rankeval.Run, len(names))
 	for i := range runs {
 		runs[i] = rankeval.Run{}
@@ -49,7 +49,7 @@ func newSimCollection(seed uint64, queries, docs int, quality map[string]float64
 	return c
 }
 
-func meanNDCG(t *testing.T, q rankeval.Qrels, run rankeval.Run, k int, g rankeval.Gain) float64 {
+func adaptiveMeanNDCG(t *testing.T, q rankeval.Qrels, run rankeval.Run, k int, g rankeval.Gain) float64 {
 	t.Helper()
 	s, err := rankeval.Evaluate(q, run, rankeval.Options{K: k, Gain: g, Threshold: 1, MaxGrade: 4})
 	if err != nil {
@@ -58,10 +58,10 @@ func meanNDCG(t *testing.T, q rankeval.Qrels, run rankeval.Run, k int, g rankeva
 	return s.NDCG
 }
 
-// poolSize is the number of distinct pairs in the top k of the given runs.
-func poolSize(runs []NamedRun, k int) int {
+// adaptivePoolSize is the number of distinct pairs in the top k of the given runs.
+func adaptivePoolSize(runs []NamedRun, k int) int {
 	n := 0
-	for _, q := range unionQueries(runs...) {
+	for _, q := range adaptiveQueries(runs...) {
 		seen := map[string]bool{}
 		for _, r := range runs {
 			ranked := rankeval.Rank(r.Run[q])
@@ -88,12 +88,12 @@ func TestDecideSettlesWithFewerJudgmentsThanPooling(t *testing.T) {
 		if s%2 == 1 {
 			qa, qb = qb, qa
 		}
-		var c simCollection
+		var c adaptiveSim
 		var trueDiff float64
 		for try := uint64(0); ; try++ {
-			c = newSimCollection(1000*s+try, 50, 60, map[string]float64{"A": qa, "B": qb}, []string{"A", "B"})
-			trueDiff = meanNDCG(t, c.truth, c.runs[1].Run, 10, rankeval.GainExponential) -
-				meanNDCG(t, c.truth, c.runs[0].Run, 10, rankeval.GainExponential)
+			c = newAdaptiveSim(1000*s+try, 50, 60, map[string]float64{"A": qa, "B": qb}, []string{"A", "B"})
+			trueDiff = adaptiveMeanNDCG(t, c.truth, c.runs[1].Run, 10, rankeval.GainExponential) -
+				adaptiveMeanNDCG(t, c.truth, c.runs[0].Run, 10, rankeval.GainExponential)
 			if math.Abs(trueDiff) >= 0.05 {
 				break
 			}
@@ -124,7 +124,7 @@ func TestDecideSettlesWithFewerJudgmentsThanPooling(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		pool := poolSize(c.runs, 10)
+		pool := adaptivePoolSize(c.runs, 10)
 		sign := -1.0
 		if dec.ProbBBeatsA >= 0.5 {
 			sign = 1
@@ -155,7 +155,7 @@ func TestDecideSettlesWithFewerJudgmentsThanPooling(t *testing.T) {
 // documents outside both top Ks (they count in the ideal DCG).
 func TestDecideWithEverythingJudgedIsExact(t *testing.T) {
 	for s := range uint64(10) {
-		c := newSimCollection(50+s, 12, 30, map[string]float64{"A": 0.8, "B": 1.0}, []string{"A", "B"})
+		c := newAdaptiveSim(50+s, 12, 30, map[string]float64{"A": 0.8, "B": 1.0}, []string{"A", "B"})
 		for d := range c.truth["q03"] {
 			c.truth["q03"][d] = 0
 		}
@@ -167,7 +167,7 @@ func TestDecideWithEverythingJudgedIsExact(t *testing.T) {
 				known[q], qrels[q] = map[string]Label{}, map[string]int{}
 				for d, g := range docs {
 					// Pooled: only the top 10s (and one deep document) are judged.
-					if pooled && d > "d012" && !inTop(c.runs, q, d, 10) {
+					if pooled && d > "d012" && !adaptiveInTop(c.runs, q, d, 10) {
 						continue
 					}
 					known[q][d] = Label{Grade: g, Prob: 1}
@@ -181,7 +181,7 @@ func TestDecideWithEverythingJudgedIsExact(t *testing.T) {
 					if err != nil {
 						t.Fatal(err)
 					}
-					want := meanNDCG(t, qrels, c.runs[1].Run, k, gain) - meanNDCG(t, qrels, c.runs[0].Run, k, gain)
+					want := adaptiveMeanNDCG(t, qrels, c.runs[1].Run, k, gain) - adaptiveMeanNDCG(t, qrels, c.runs[0].Run, k, gain)
 					if math.Abs(dec.Diff-want) > 1e-12 || math.Abs(dec.Low-want) > 1e-12 || math.Abs(dec.High-want) > 1e-12 {
 						t.Errorf("seed %d pooled %v gain %v k %d: diff %.15f [%g, %g], rankeval %.15f", s, pooled, gain, k, dec.Diff, dec.Low, dec.High, want)
 					}
@@ -201,7 +201,7 @@ func TestDecideWithEverythingJudgedIsExact(t *testing.T) {
 	}
 }
 
-func inTop(runs []NamedRun, q, doc string, k int) bool {
+func adaptiveInTop(runs []NamedRun, q, doc string, k int) bool {
 	for _, r := range runs {
 		ranked := rankeval.Rank(r.Run[q])
 		for i := 0; i < k && i < len(ranked); i++ {
@@ -213,7 +213,7 @@ func inTop(runs []NamedRun, q, doc string, k int) bool {
 	return false
 }
 
-func oneQuery(name string, docs ...string) NamedRun {
+func adaptiveOneQuery(name string, docs ...string) NamedRun {
 	run := rankeval.Run{}
 	for i, d := range docs {
 		run["q"] = append(run["q"], rankeval.ScoredDoc{DocID: d, Score: float64(len(docs) - i)})
@@ -228,13 +228,13 @@ func oneQuery(name string, docs ...string) NamedRun {
 // (tied, by id), then b. A known pair (c, chosen but not graded) is never
 // released again.
 func TestPlanDecideOrdersByWeight(t *testing.T) {
-	runs := []NamedRun{oneQuery("A", "a", "b", "c"), oneQuery("B", "b", "d", "a")}
+	runs := []NamedRun{adaptiveOneQuery("A", "a", "b", "c"), adaptiveOneQuery("B", "b", "d", "a")}
 	d := Design{RunA: "A", RunB: "B", K: 3}
 	plan, err := PlanDecide(d, runs, Labels{}, rankeval.GainExponential, 4)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := choiceDocs(plan); got != "d a c b" {
+	if got := adaptiveChoiceDocs(plan); got != "d a c b" {
 		t.Fatalf("order %q, want %q", got, "d a c b")
 	}
 	for i, c := range plan.Choices {
@@ -249,12 +249,12 @@ func TestPlanDecideOrdersByWeight(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := choiceDocs(plan); got != "d a b" {
+	if got := adaptiveChoiceDocs(plan); got != "d a b" {
 		t.Fatalf("order with c pending %q, want %q", got, "d a b")
 	}
 }
 
-func choiceDocs(p Plan) string {
+func adaptiveChoiceDocs(p Plan) string {
 	var s []string
 	for _, c := range p.Choices {
 		s = append(s, c.Doc)
@@ -268,7 +268,7 @@ func choiceDocs(p Plan) string {
 // rank 2), below B's whatever y is: certain. With x unjudged too, A could
 // reach 24.46 (a tie): not certain.
 func TestDecideCertainByHand(t *testing.T) {
-	runs := []NamedRun{oneQuery("A", "x", "y"), oneQuery("B", "z", "w")}
+	runs := []NamedRun{adaptiveOneQuery("A", "x", "y"), adaptiveOneQuery("B", "z", "w")}
 	d := Design{RunA: "A", RunB: "B", K: 2}
 	known := Labels{"q": {"z": {Grade: 4, Prob: 1}, "w": {Grade: 4, Prob: 1}, "x": {Grade: 0, Prob: 1}}}
 	dec, err := Decide(d, runs, known, rankeval.GainExponential, 4)
@@ -301,12 +301,12 @@ func TestDecideCertainByHand(t *testing.T) {
 
 // TestDecideNotSettledSaysHowMany: nothing judged on a close pair of runs.
 func TestDecideNotSettledSaysHowMany(t *testing.T) {
-	c := newSimCollection(3, 20, 30, map[string]float64{"A": 1, "B": 1.05}, []string{"A", "B"})
+	c := newAdaptiveSim(3, 20, 30, map[string]float64{"A": 1, "B": 1.05}, []string{"A", "B"})
 	dec, err := Decide(Design{RunA: "A", RunB: "B"}, c.runs, Labels{}, rankeval.GainExponential, 4)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if dec.Settled || dec.Judged != 0 || dec.Unjudged != poolSize(c.runs, 10) || !strings.HasPrefix(dec.Text, "Not settled yet") {
+	if dec.Settled || dec.Judged != 0 || dec.Unjudged != adaptivePoolSize(c.runs, 10) || !strings.HasPrefix(dec.Text, "Not settled yet") {
 		t.Errorf("%+v", dec)
 	}
 	if dec.Low > dec.Diff || dec.Diff > dec.High {
@@ -320,7 +320,7 @@ func TestDecideNotSettledSaysHowMany(t *testing.T) {
 }
 
 func TestDecideRefuses(t *testing.T) {
-	runs := []NamedRun{oneQuery("A", "a"), oneQuery("B", "b")}
+	runs := []NamedRun{adaptiveOneQuery("A", "a"), adaptiveOneQuery("B", "b")}
 	for _, c := range []struct {
 		d    Design
 		want string

@@ -48,7 +48,7 @@ func PlanFind(d Design, runs []NamedRun, known Labels, threshold int) (Plan, err
 	if len(runs) == 0 {
 		return Plan{}, fmt.Errorf("estimate: a find design needs at least one run")
 	}
-	if err := checkRunNames(runs); err != nil {
+	if err := adaptiveCheckRunNames(runs); err != nil {
 		return Plan{}, err
 	}
 	wave, err := adaptiveWave(d)
@@ -59,7 +59,7 @@ func PlanFind(d Design, runs []NamedRun, known Labels, threshold int) (Plan, err
 	plan := Plan{Design: d}
 
 	var finders []*finder
-	for _, q := range unionQueries(runs...) {
+	for _, q := range adaptiveQueries(runs...) {
 		f, err := newFinder(d, runs, known, q, threshold)
 		if err != nil {
 			return Plan{}, err
@@ -117,14 +117,14 @@ func newFinder(d Design, runs []NamedRun, known Labels, q string, threshold int)
 	f := &finder{
 		method: d.Method, query: q, threshold: threshold,
 		grade: map[string]int{}, pending: map[string]bool{}, seen: map[string]bool{},
-		rng: rand.New(rand.NewPCG(d.Seed, querySeed(q))),
+		rng: rand.New(rand.NewPCG(d.Seed, adaptiveQuerySeed(q))),
 	}
 	inRuns := map[string]bool{}
 	for _, r := range runs {
 		if _, ok := r.Run[q]; !ok {
 			continue
 		}
-		ids, err := rankedDocs(r, q)
+		ids, err := adaptiveRanked(r, q)
 		if err != nil {
 			return nil, err
 		}

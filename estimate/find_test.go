@@ -10,8 +10,8 @@ import (
 	"github.com/pertinent/pertinent/rankeval"
 )
 
-// judge records true grades for the chosen pairs.
-func judge(known Labels, truth rankeval.Qrels, choices []Choice) {
+// adaptiveJudge records true grades for the chosen pairs.
+func adaptiveJudge(known Labels, truth rankeval.Qrels, choices []Choice) {
 	for _, c := range choices {
 		if known[c.Query] == nil {
 			known[c.Query] = map[string]Label{}
@@ -27,7 +27,7 @@ func judge(known Labels, truth rankeval.Qrels, choices []Choice) {
 // back in front); b is not (r2 in front, but it has nothing left); c, d.
 // Judged one at a time: a e f g b c d.
 func TestMoveToFrontByHand(t *testing.T) {
-	runs := []NamedRun{oneQuery("r1", "a", "b", "c", "d"), oneQuery("r2", "e", "a", "f", "g")}
+	runs := []NamedRun{adaptiveOneQuery("r1", "a", "b", "c", "d"), adaptiveOneQuery("r2", "e", "a", "f", "g")}
 	truth := rankeval.Qrels{"q": {"a": 0, "b": 0, "c": 2, "d": 0, "e": 3, "f": 1, "g": 0}}
 	d := Design{Kind: KindFind, Method: FindMoveToFront, Wave: 1}
 	known := Labels{}
@@ -47,7 +47,7 @@ func TestMoveToFrontByHand(t *testing.T) {
 		}
 		order = append(order, c.Doc)
 		reasons = append(reasons, c.Reason)
-		judge(known, truth, plan.Choices)
+		adaptiveJudge(known, truth, plan.Choices)
 	}
 	if got := strings.Join(order, " "); got != "a e f g b c d" {
 		t.Fatalf("move-to-front judged %q, want %q", got, "a e f g b c d")
@@ -70,7 +70,7 @@ func TestMoveToFrontByHand(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := choiceDocs(plan); got != "a b c" {
+	if got := adaptiveChoiceDocs(plan); got != "a b c" {
 		t.Errorf("first wave %q, want %q", got, "a b c")
 	}
 	// With a graded 0 and b pending: r2 goes in front, e, then a is taken,
@@ -80,7 +80,7 @@ func TestMoveToFrontByHand(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := choiceDocs(plan); got != "e f g c" {
+	if got := adaptiveChoiceDocs(plan); got != "e f g c" {
 		t.Errorf("wave after a = 0, b pending: %q, want %q", got, "e f g c")
 	}
 	if plan.Already != 2 {
@@ -88,10 +88,10 @@ func TestMoveToFrontByHand(t *testing.T) {
 	}
 }
 
-// findCollection: queries of 100 documents, about 10% relevant (grade 1-3);
+// adaptiveFindCollection: queries of 100 documents, about 10% relevant (grade 1-3);
 // run "good" scores 2.5 * relevant + noise, four others 0.3 * relevant +
 // noise. The good run is given third, so neither method starts with it.
-func findCollection(seed uint64, queries int) (rankeval.Qrels, []NamedRun) {
+func adaptiveFindCollection(seed uint64, queries int) (rankeval.Qrels, []NamedRun) {
 	rng := rand.New(rand.NewPCG(seed, 11))
 	truth := rankeval.Qrels{}
 	names := []string{"p1", "p2", "good", "p3", "p4"}
@@ -125,11 +125,11 @@ func findCollection(seed uint64, queries int) (rankeval.Qrels, []NamedRun) {
 	return truth, runs
 }
 
-// poolOrder is judging in depth-pool order: per query rank 1 of every run
+// adaptivePoolOrder is judging in depth-pool order: per query rank 1 of every run
 // (in the runs' order), then rank 2, and so on, each document once; the
 // queries take turns one pair at a time.
-func poolOrder(truth rankeval.Qrels, runs []NamedRun, n, threshold int) int {
-	queries := unionQueries(runs...)
+func adaptivePoolOrder(truth rankeval.Qrels, runs []NamedRun, n, threshold int) int {
+	queries := adaptiveQueries(runs...)
 	per := make([][]string, len(queries))
 	for qi, q := range queries {
 		seen := map[string]bool{}
@@ -171,7 +171,7 @@ func TestFindBeatsPoolOrder(t *testing.T) {
 	checkpoints := []int{100, 200, 400}
 	total := map[string][]int{}
 	for s := range uint64(5) {
-		truth, runs := findCollection(s, 10)
+		truth, runs := adaptiveFindCollection(s, 10)
 		for _, method := range []string{FindMoveToFront, FindBandit} {
 			d := Design{Kind: KindFind, Method: method, Seed: s}
 			known := Labels{}
@@ -191,7 +191,7 @@ func TestFindBeatsPoolOrder(t *testing.T) {
 					}
 				}
 				for _, c := range plan.Choices {
-					judge(known, truth, []Choice{c})
+					adaptiveJudge(known, truth, []Choice{c})
 					judged++
 					if truth[c.Query][c.Doc] >= 1 {
 						found++
@@ -205,7 +205,7 @@ func TestFindBeatsPoolOrder(t *testing.T) {
 				}
 			}
 			for i, n := range checkpoints {
-				pool := poolOrder(truth, runs, n, 1)
+				pool := adaptivePoolOrder(truth, runs, n, 1)
 				t.Logf("collection %d: %s found %d relevant after %d judgments, depth-pool order %d", s, method, at[i], n, pool)
 				if at[i] <= pool {
 					t.Errorf("collection %d: %s found %d relevant after %d judgments, not more than depth-pool order's %d", s, method, at[i], n, pool)
@@ -233,7 +233,7 @@ func TestFindBeatsPoolOrder(t *testing.T) {
 // waiting for grades) to 20 others, the bandit repeats itself with the
 // same seed, and nothing pending comes back.
 func TestFindWaveGoesRoundTheQueries(t *testing.T) {
-	_, runs := findCollection(9, 50)
+	_, runs := adaptiveFindCollection(9, 50)
 	for _, method := range []string{FindBandit, FindMoveToFront} {
 		d := Design{Method: method, Seed: 4}
 		known := Labels{}
@@ -277,7 +277,7 @@ func TestFindWaveGoesRoundTheQueries(t *testing.T) {
 // TestFindEndsWhenEverythingIsKnown: a wave larger than what is left
 // releases the rest and says so.
 func TestFindEndsWhenEverythingIsKnown(t *testing.T) {
-	runs := []NamedRun{oneQuery("r1", "a", "b"), oneQuery("r2", "b", "c")}
+	runs := []NamedRun{adaptiveOneQuery("r1", "a", "b"), adaptiveOneQuery("r2", "b", "c")}
 	for _, method := range []string{FindBandit, FindMoveToFront} {
 		plan, err := PlanFind(Design{Method: method}, runs, Labels{"q": {"b": {Grade: 2, Prob: 1}}}, 1)
 		if err != nil {
@@ -290,7 +290,7 @@ func TestFindEndsWhenEverythingIsKnown(t *testing.T) {
 }
 
 func TestFindRefuses(t *testing.T) {
-	runs := []NamedRun{oneQuery("r1", "a"), oneQuery("r2", "b")}
+	runs := []NamedRun{adaptiveOneQuery("r1", "a"), adaptiveOneQuery("r2", "b")}
 	for _, c := range []struct {
 		d         Design
 		runs      []NamedRun
