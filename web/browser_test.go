@@ -292,4 +292,18 @@ func TestBrowserJudgingWithoutJavaScript(t *testing.T) {
 	if withdrawn != 1 {
 		t.Errorf("undo without JavaScript did not withdraw the judgment")
 	}
+	// On a phone the grade bar at the bottom of the screen is the same form: a tap posts it.
+	must(chromedp.Do(ctx, phone(), chromedp.Reload(), chromedp.WaitReady(chromedp.ID("pair"))))
+	off, err := chromedp.Run(ctx, chromedp.Evaluate[[]string](gradeButtonsOffScreenJS))
+	must(err)
+	if len(off) > 0 {
+		t.Errorf("without JavaScript at 375×812, grade buttons not wholly on screen: %v", off)
+	}
+	must(chromedp.Do(ctx,
+		chromedp.Click(chromedp.CSS(`#pair button[name="grade"][value="1"]`)),
+		chromedp.WaitReady(chromedp.CSS(`#pair input[name="pair"]:not([value="`+first.Value+`"])`)),
+	))
+	if err := a.db().QueryRow(`SELECT grade FROM judgments WHERE pair_id = ? AND current = 1`, first.Value).Scan(&grade); err != nil || grade != 1 {
+		t.Errorf("after a tap on grade 1 in the phone's grade bar: grade %d, %v", grade, err)
+	}
 }

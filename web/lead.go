@@ -463,7 +463,7 @@ func (s *Server) agreementPage(w http.ResponseWriter, r *http.Request) {
 			Linear: figV("cohen-linear:"+key, p.KappaLinear, 3), Plain: figV("cohen:"+key, p.Kappa, 3), Agreement: figPct("cohen-agreement:"+key, p.Agreement)})
 	}
 	data.Heat = newHeatMap("Quadratic-weighted Cohen's kappa for every pair of assessors",
-		"Darker cells agree more; red cells are below chance; crossed cells are undefined. The numbers are in the table below.",
+		"Each cell gives the kappa of two assessors to two decimals, coloured by its Landis & Koch (1977) band: darker cells agree more, red cells are below chance, cells marked – are undefined. The table below has every figure to three decimals.",
 		names, func(i, j int) agreement.Value { return grid[i][j] })
 	for _, m := range agreement.Metrics {
 		data.Alphas = append(data.Alphas, figV("alpha-"+m.String(), rep.KrippendorffAlpha.Get(m), 3))
