@@ -453,7 +453,7 @@ func draw(plan *Plan, d Design, runs []NamedRun, kq map[string]Label, offers []O
 			before = earlierProb(offers, c.best)
 		}
 		ch := Choice{Query: p.query, Doc: c.doc, Stratum: s, Prob: r, Priority: depth + 1 - c.best}
-		ch.Combined = 1 - (1-before)*(1-r)
+		ch.Combined = before + (1-before)*r // 1 - (1-before)(1-r), exact when before is 0
 		switch {
 		case d.Kind == KindDepth:
 			ch.Reason = fmt.Sprintf("rank %d in %s, in the depth-%d pool", c.best, runs[c.run].Name, d.Depth)
