@@ -342,8 +342,8 @@ func TestStratifiedDesignRecordsHowPairsWereChosen(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if rep.Pending != 0 || len(rep.Estimates.Runs) != 3 || len(rep.Estimates.Differences) != 3 {
-		t.Fatalf("after grading: pending %d, %d runs, %d differences", rep.Pending, len(rep.Estimates.Runs), len(rep.Estimates.Differences))
+	if rep.Pending != 0 || len(rep.Estimates.Runs) != 3 || len(rep.Estimates.Differences) != 6 {
+		t.Fatalf("after grading: pending %d, %d runs, %d differences; want 0, 3 and 6 (3 run pairs × NDCG and AP)", rep.Pending, len(rep.Estimates.Runs), len(rep.Estimates.Differences))
 	}
 	for _, r := range rep.Estimates.Runs {
 		if !(r.NDCG.Low <= r.NDCG.Est && r.NDCG.Est <= r.NDCG.High) || r.NDCG.SE <= 0 {
