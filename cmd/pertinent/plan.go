@@ -176,7 +176,7 @@ func writeQueriesText(w io.Writer, qr store.QueriesReport) error {
 // writeDesignText prints "how sure are we?" for a design.
 func writeDesignText(w io.Writer, rep store.DesignReport) error {
 	d := rep.Design
-	fmt.Fprintf(w, "design %d (%s) over %s: %d pairs chosen, %d graded, %d being judged\n",
+	fmt.Fprintf(w, "design %d (%s) over %s: chose %d pairs, %d graded, %d still being judged\n",
 		d.ID, d.Settings.Design.Kind, strings.Join(d.RunNames, ", "), rep.Chosen, rep.Graded, rep.Pending)
 	fmt.Fprintln(w, rep.Signal.Text)
 	o := rep.Estimates.Options
