@@ -55,8 +55,24 @@ type Design struct {
 	// Wave: how many pairs an adaptive design (decide, find) releases at a
 	// time, so that several assessors have work while grades come back.
 	Wave int `json:"wave,omitempty"`
-	// Seed makes the sample repeatable.
+	// Seed makes the sample repeatable. Give every design of a project its
+	// own seed: two designs drawing with the same seed are not independent.
 	Seed uint64 `json:"seed"`
+	// Earlier lists the offers of every sampled plan applied before this
+	// one to these queries (their Plan.Offers). A pair they could have drawn
+	// but did not is not in the project, so only they tell its earlier
+	// probability, which its combined probability needs if drawn now.
+	Earlier []Offer `json:"earlier,omitempty"`
+}
+
+// Offer is the rate a sampled plan gave every pair of one query whose best
+// rank over the runs lies in FromRank..ToRank and that was not certain
+// already.
+type Offer struct {
+	Query    string  `json:"query"`
+	FromRank int     `json:"from_rank"`
+	ToRank   int     `json:"to_rank"`
+	Rate     float64 `json:"rate"`
 }
 
 // NamedRun is one run, its documents per query in any order (ranked here by
@@ -129,4 +145,7 @@ type Plan struct {
 	// Notes say what the design could not do as asked (e.g. the budget ran
 	// out before every query got its top stratum).
 	Notes []string `json:"notes,omitempty"`
+	// Offers records the rates of the sampled strata per query (those
+	// strictly between 0 and 1), for Design.Earlier of the next design.
+	Offers []Offer `json:"offers,omitempty"`
 }

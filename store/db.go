@@ -30,6 +30,7 @@ type Store struct {
 
 	group    groupWriter   // group commit of the judging path (group.go)
 	progress progressCache // judging progress per project, keyed by project_versions
+	runs     runCache      // parsed kept runs (plan_runs.go)
 }
 
 // Open opens (creating if needed) the database file at path and applies pending migrations.

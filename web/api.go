@@ -36,6 +36,8 @@ func (s *Server) apiRoutes(r chi.Router) {
 		r.Use(s.apiProject)
 		r.Get("/export", s.apiExport)
 		r.Post("/evaluate", s.apiEvaluate)
+		r.Get("/designs/{design}", s.apiDesign)
+		r.Get("/designs/{design}/queries", s.apiDesignQueries)
 	})
 	r.NotFound(func(w http.ResponseWriter, r *http.Request) {
 		apiError(w, http.StatusNotFound, "no such endpoint")

@@ -118,6 +118,18 @@ func (s *Server) judgeData(r *http.Request, saved string, withGuidelines bool, t
 		}
 		turn = &store.Turn{Next: pair, NoWork: err != nil}
 	}
+	if turn.NoWork {
+		// An adaptive judging design may have its next wave ready once the last grades are in.
+		if n, err := s.store.AdvanceDesigns(r.Context(), p.ID); err != nil {
+			return d, err
+		} else if n > 0 {
+			pair, err := s.store.NextPair(r.Context(), p.ID, u.ID)
+			if err != nil && !errors.Is(err, store.ErrNoWork) {
+				return d, err
+			}
+			turn = &store.Turn{Next: pair, NoWork: err != nil}
+		}
+	}
 	if !turn.NoWork {
 		d.Pair = &turn.Next
 		d.Body = documentBody(turn.Next.Document)

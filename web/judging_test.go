@@ -118,7 +118,7 @@ func TestAssessorNeverSeesAnotherAssessorsWork(t *testing.T) {
 		p = strings.ReplaceAll(p, "/*", "/app.js")
 		// A's own id and the pairs A judged are the likeliest places for A's work to leak.
 		p = strings.NewReplacer("{user}", fmt.Sprint(ua.ID), "{pair}", fmt.Sprint(offeredPair(body)),
-			"{revision}", "1", "{token}", "1", "{evaluation}", "1", "{job}", "1").Replace(p)
+			"{revision}", "1", "{token}", "1", "{evaluation}", "1", "{design}", "1", "{job}", "1").Replace(p)
 		if strings.Contains(p, "{") {
 			return errors.New("route with an unknown parameter: " + route)
 		}

@@ -79,6 +79,11 @@ var routeAccess = map[string]access{
 	"GET /projects/{project}/evaluations/{evaluation}":               projectLead,
 	"GET /projects/{project}/evaluations/{evaluation}/per-query.csv": projectLead,
 	"POST /projects/{project}/evaluations/{evaluation}/send":         projectLead,
+	"GET /projects/{project}/plan":                                   projectLead,
+	"POST /projects/{project}/plan":                                  projectLead,
+	"POST /projects/{project}/plan/runs":                             projectLead,
+	"GET /projects/{project}/plan/{design}":                          projectLead,
+	"POST /projects/{project}/plan/{design}/advance":                 projectLead,
 	"GET /admin/users":                                               adminOnly,
 	"POST /admin/users":                                              adminOnly,
 	"POST /admin/users/{user}/disable":                               adminOnly,
@@ -91,6 +96,8 @@ var routeAccess = map[string]access{
 	"GET /api/v1/projects":                                           apiToken,
 	"GET /api/v1/projects/{project}/export":                          apiToken,
 	"POST /api/v1/projects/{project}/evaluate":                       apiToken,
+	"GET /api/v1/projects/{project}/designs/{design}":                apiToken,
+	"GET /api/v1/projects/{project}/designs/{design}/queries":        apiToken,
 }
 
 // TestEveryRouteEnforcesItsRoles walks the router itself and requests every route as an
@@ -108,7 +115,7 @@ func TestEveryRouteEnforcesItsRoles(t *testing.T) {
 		"{pair}", fmt.Sprint(a.pairs[0]),
 		"{user}", fmt.Sprint(a.users["bea"].ID),
 		"{revision}", fmt.Sprint(g.ID),
-		"{token}", "999999", "{evaluation}", "999999", "{job}", "nothing",
+		"{token}", "999999", "{evaluation}", "999999", "{design}", "999999", "{job}", "nothing",
 		"*", "app.js",
 	)
 	type route struct{ method, pattern string }

@@ -124,6 +124,7 @@ func (s *Server) routes() chi.Router {
 			})
 			r.Group(s.projectAdminRoutes)
 			r.Group(s.exportRoutes)
+			r.Group(s.planRoutes)
 		})
 		r.Route("/admin", func(r chi.Router) {
 			r.Use(s.requireAdmin)

@@ -42,8 +42,12 @@ type demoAccount struct {
 // on the demo accounts: passwords are never kept in clear, so each start prints new ones.
 func seedDemo(ctx context.Context, st *store.Store) ([]demoAccount, error) {
 	if _, err := st.ProjectByName(ctx, demoProjectName); errors.Is(err, store.ErrNotFound) {
-		if err := loadDemoCollection(ctx, st, buildDemoCollection()); err != nil {
+		c := buildDemoCollection()
+		if err := loadDemoCollection(ctx, st, c); err != nil {
 			return nil, fmt.Errorf("demo collection: %w", err)
+		}
+		if err := keepDemoRuns(ctx, st, c); err != nil {
+			return nil, fmt.Errorf("demo runs: %w", err)
 		}
 	} else if err != nil {
 		return nil, err

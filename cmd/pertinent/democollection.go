@@ -415,3 +415,40 @@ func demoJudged(q, ai, n int) bool {
 	}
 	return false
 }
+
+// demoRuns are two invented rankers' runs over the demo candidates, kept in the project so that
+// Plan judging has something to plan from: "shop-keywords" ranks by the grade with much noise,
+// "shop-attributes" with less.
+func demoRuns(c demoCollection) map[string]string {
+	rng := rand.New(rand.NewPCG(demoSeed+2, 11))
+	out := map[string]string{}
+	for _, r := range []struct {
+		name  string
+		noise float64
+	}{{"shop-keywords.run", 1.6}, {"shop-attributes.run", 0.7}} {
+		var b strings.Builder
+		rank := map[int]int{}
+		for _, p := range c.pairs {
+			rank[p.query]++
+			score := float64(p.truth) + rng.NormFloat64()*r.noise
+			fmt.Fprintf(&b, "%s Q0 %s %d %.6f %s\n", demoQueries[p.query].id, c.items[p.item].doc.ExternalID, rank[p.query], score, strings.TrimSuffix(r.name, ".run"))
+		}
+		out[r.name] = b.String()
+	}
+	return out
+}
+
+// keepDemoRuns keeps the demo runs in the demo project.
+func keepDemoRuns(ctx context.Context, st *store.Store, c demoCollection) error {
+	p, err := st.ProjectByName(ctx, demoProjectName)
+	if err != nil {
+		return err
+	}
+	runs := demoRuns(c)
+	for _, name := range []string{"shop-attributes.run", "shop-keywords.run"} {
+		if _, err := st.KeepRun(ctx, p.ID, 0, name, strings.NewReader(runs[name])); err != nil {
+			return fmt.Errorf("%s: %w", name, err)
+		}
+	}
+	return nil
+}

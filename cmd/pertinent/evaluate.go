@@ -25,13 +25,17 @@ func runEvaluate(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	gain := fs.String("gain", "exponential", "NDCG gain: exponential (2^g-1) or linear (g)")
 	threshold := fs.Int("threshold", 2, "grades at or above this are relevant for P@k and MAP")
 	asJSON := fs.Bool("json", false, "print one JSON object instead of tables")
+	design := fs.Int64("design", 0, "print the estimates of this judging design (see pertinent plan) instead of scoring run files")
 	policy := policyFlags(fs)
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: pertinent evaluate --db FILE --project NAME [--k 10] [--gain exponential|linear] [--threshold 2] [policy flags] [--json] RUN [RUN2]")
+		fmt.Fprintln(stderr, "usage: pertinent evaluate --db FILE --project NAME [--k 10] [--gain exponential|linear] [--threshold 2] [policy flags] [--json] RUN [RUN2]\n       pertinent evaluate --db FILE --project NAME --design ID [--json]")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
 		return err
+	}
+	if *project != "" && *design > 0 {
+		return evaluateDesign(ctx, *dbPath, *project, *design, *asJSON, stdout)
 	}
 	if *project == "" || fs.NArg() < 1 || fs.NArg() > 2 {
 		fs.Usage()
@@ -158,4 +162,23 @@ func defined(v float64, ok bool) string {
 		return "–"
 	}
 	return strings.TrimSpace(fmt.Sprintf("%.4f", v))
+}
+
+// evaluateDesign prints the estimates of a judging design: what its page and the API show.
+func evaluateDesign(ctx context.Context, db, project string, id int64, asJSON bool, stdout io.Writer) error {
+	st, p, err := openProject(ctx, db, project)
+	if err != nil {
+		return fmt.Errorf("evaluate: %w", err)
+	}
+	defer st.Close()
+	rep, err := st.DesignEstimate(ctx, p.ID, id)
+	if err != nil {
+		return fmt.Errorf("evaluate: %w", err)
+	}
+	if asJSON {
+		enc := json.NewEncoder(stdout)
+		enc.SetIndent("", "  ")
+		return enc.Encode(rep)
+	}
+	return writeDesignText(stdout, rep)
 }

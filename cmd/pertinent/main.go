@@ -31,6 +31,7 @@ var commands = map[string]command{
 	"agreement": {runAgreement, "inter-assessor agreement of a CSV of judgments or of a project"},
 	"export":    {runExport, "write a project's final grades as a training set (SVMlight, qrels, CSV, JSONL) with a manifest"},
 	"evaluate":  {runEvaluate, "score a ranker's run, or compare two, against a project's final grades"},
+	"plan":      {runPlan, "choose which pairs to judge from kept runs, under a judging design"},
 	"project":   {runProject, "create and list projects, add people to them"},
 	"import":    {runImport, "bring queries, documents, pairs, runs, qrels or features into a project"},
 }

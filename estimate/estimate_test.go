@@ -1,0 +1,238 @@
+package estimate
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/pertinent/pertinent/rankeval"
+)
+
+// randomCollection has runs with tied scores (scores on a coarse grid),
+// documents the labels lack (unjudged) and labelled documents no run has,
+// queries some runs lack and queries without a relevant document.
+func randomCollection(seed uint64) ([]NamedRun, rankeval.Qrels) {
+	rng := rand.New(rand.NewPCG(seed, 1))
+	q := rankeval.Qrels{}
+	nq := 5 + rng.IntN(10)
+	runs := make([]NamedRun, 2+rng.IntN(3))
+	for i := range runs {
+		runs[i] = NamedRun{Name: fmt.Sprintf("r%d", i), Run: rankeval.Run{}}
+	}
+	for qi := range nq {
+		qid := fmt.Sprintf("q%d", qi)
+		q[qid] = map[string]int{}
+		ndocs := 5 + rng.IntN(40)
+		for d := range ndocs {
+			if rng.Float64() < 0.8 {
+				g := 0
+				if qi%4 != 3 { // every fourth query has nothing relevant
+					g = rng.IntN(5)
+				}
+				q[qid][fmt.Sprintf("d%d", d)] = g
+			}
+		}
+		for i := range runs {
+			if rng.Float64() < 0.1 {
+				continue // the run lacks this query
+			}
+			var docs []rankeval.ScoredDoc
+			for d := range ndocs + 5 {
+				if rng.Float64() < 0.6 {
+					docs = append(docs, rankeval.ScoredDoc{DocID: fmt.Sprintf("d%d", d), Score: float64(rng.IntN(8))})
+				}
+			}
+			runs[i].Run[qid] = docs
+		}
+	}
+	return runs, q
+}
+
+// With every pair judged in full the estimates are rankeval's figures.
+func TestFullJudgmentEqualsRankeval(t *testing.T) {
+	for seed := range uint64(20) {
+		runs, q := randomCollection(seed)
+		labels := fullLabels(q)
+		for _, gain := range []rankeval.Gain{rankeval.GainExponential, rankeval.GainLinear} {
+			for _, k := range []int{0, 5, 10} {
+				for _, thr := range []int{1, 2} {
+					o := Options{K: k, Gain: gain, Threshold: thr, MaxGrade: 4}
+					rep, err := Estimate(runs, labels, o)
+					if err != nil {
+						t.Fatal(err)
+					}
+					for i, r := range runs {
+						want, err := rankeval.Evaluate(q, r.Run, rankeval.Options{K: k, Gain: gain, Threshold: thr, MaxGrade: 4})
+						if err != nil {
+							t.Fatal(err)
+						}
+						got := rep.Runs[i]
+						where := fmt.Sprintf("seed %d gain %v k %d threshold %d run %s", seed, gain, k, thr, r.Name)
+						if got.NDCGQueries != want.NDCGQueries || got.APQueries != want.APQueries {
+							t.Fatalf("%s: defined queries %d/%d, want %d/%d", where, got.NDCGQueries, got.APQueries, want.NDCGQueries, want.APQueries)
+						}
+						near(t, where+" NDCG", got.NDCG.Est, want.NDCG, 1e-12)
+						near(t, where+" MAP", got.AP.Est, want.MAP, 1e-12)
+						near(t, where+" judged", got.JudgedAtK, want.Judged, 1e-12)
+						if got.NDCG.SE != 0 || got.AP.SE != 0 {
+							t.Fatalf("%s: SE %v %v with every pair certain", where, got.NDCG.SE, got.AP.SE)
+						}
+						for j, qs := range want.PerQuery {
+							pq := got.PerQuery[j]
+							if pq.Query != qs.Query || pq.NDCGDefined != qs.NDCGDefined || pq.APDefined != qs.APDefined {
+								t.Fatalf("%s query %s: %+v vs %+v", where, qs.Query, pq, qs)
+							}
+							near(t, where+" "+qs.Query+" NDCG", pq.NDCG.Est, qs.NDCG, 1e-12)
+							near(t, where+" "+qs.Query+" AP", pq.AP.Est, qs.AP, 1e-12)
+						}
+					}
+					for _, d := range rep.Differences {
+						if d.Diff.SE != 0 {
+							t.Fatalf("difference %s-%s %s: SE %v with every pair certain", d.B, d.A, d.Metric, d.Diff.SE)
+						}
+					}
+				}
+			}
+		}
+	}
+}
+
+func near(t *testing.T, what string, got, want, tol float64) {
+	t.Helper()
+	if math.Abs(got-want) > tol {
+		t.Fatalf("%s: got %.15g, want %.15g", what, got, want)
+	}
+}
+
+// The ideal DCG from fractional counts interpolates the cumulative
+// discount linearly (worked by hand from the definition).
+func TestIdealDCGFractionalCounts(t *testing.T) {
+	o := Options{K: 10, Gain: rankeval.GainLinear}
+	// 1.5 documents of grade 1: D(1.5) = 1 + 0.5/log2(3).
+	got, d := idealDCG([]float64{3, 1.5}, o)
+	near(t, "IDCG", got, 1+0.5/math.Log2(3), 1e-15)
+	near(t, "slope", d[1], 1/math.Log2(3), 1e-15)
+	// Grades 2 (0.5 docs) and 1 (1 doc), linear gain: steps of 1 at b_2 = 0.5
+	// and b_1 = 1.5: D(0.5) + D(1.5) = 0.5 + 1 + 0.5/log2(3).
+	got, d = idealDCG([]float64{0, 1, 0.5}, o)
+	near(t, "IDCG", got, 1.5+0.5/math.Log2(3), 1e-15)
+	near(t, "slope grade 2", d[2], 1+1/math.Log2(3), 1e-15)
+	// Capped at K: beyond it adding weight changes nothing.
+	got, d = idealDCG([]float64{0, 12.5}, Options{K: 10, Gain: rankeval.GainLinear})
+	near(t, "IDCG capped", got, cumDiscount(10), 1e-15)
+	near(t, "slope capped", d[1], 0, 0)
+}
+
+// RBP's base and residual on a small ranking, worked by hand from
+// RBP = (1-p) sum_i r_i p^(i-1) (Moffat & Zobel, TOIS 2008): grades 4,
+// (unjudged), 2 with top grade 4 and p = 0.8 give base 0.2·1 + 0.2·0.64·0.5
+// = 0.264 and residual 0.2·0.8 + 0.8^3 = 0.672.
+func TestRBPResidual(t *testing.T) {
+	runs := []NamedRun{{Name: "a", Run: rankeval.Run{"q": {{DocID: "x", Score: 3}, {DocID: "y", Score: 2}, {DocID: "z", Score: 1}}}}}
+	labels := Labels{"q": {"x": {Grade: 4, Prob: 1}, "z": {Grade: 2, Prob: 1}}}
+	rep, err := Estimate(runs, labels, Options{MaxGrade: 4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	q := rep.Runs[0].PerQuery[0]
+	near(t, "RBP", q.RBP, 0.264, 1e-12)
+	near(t, "residual", q.RBPResidual, 0.672, 1e-12)
+	// A pending pair is unjudged too.
+	labels["q"]["y"] = Label{Grade: -1, Prob: 1, Stratum: 5}
+	rep, _ = Estimate(runs, labels, Options{MaxGrade: 4})
+	near(t, "residual with y pending", rep.Runs[0].PerQuery[0].RBPResidual, 0.672, 1e-12)
+	if rep.Pending != 1 || rep.Judged != 2 {
+		t.Fatalf("pending %d judged %d", rep.Pending, rep.Judged)
+	}
+}
+
+// Pairs chosen but not graded are made up for within their cell: the same
+// estimate and SE as if the graded pairs had been drawn with probability
+// Prob·graded/chosen and the others never drawn.
+func TestResponseAdjustment(t *testing.T) {
+	c := invent(3, 4, 60, 40, []float64{0.5, 1.5})
+	pending, drawn := Labels{}, Labels{}
+	rng := rand.New(rand.NewPCG(5, 5))
+	for q, docs := range c.truth {
+		pending[q], drawn[q] = map[string]Label{}, map[string]Label{}
+		for _, d := range sortedKeys(docs) {
+			if rng.Float64() < 0.5 {
+				continue
+			}
+			pending[q][d] = Label{Grade: docs[d], Prob: 0.5, Stratum: 1}
+		}
+		// Grade every other chosen pair; count per cell.
+		i, graded := 0, 0
+		for _, d := range sortedKeys(pending[q]) {
+			if i%2 == 1 {
+				pending[q][d] = Label{Grade: -1, Prob: 0.5, Stratum: 1}
+			} else {
+				graded++
+			}
+			i++
+		}
+		for _, d := range sortedKeys(pending[q]) {
+			if l := pending[q][d]; l.Grade >= 0 {
+				drawn[q][d] = Label{Grade: l.Grade, Prob: 0.5 * float64(graded) / float64(len(pending[q])), Stratum: 1}
+			}
+		}
+	}
+	o := Options{K: 10, MaxGrade: 4}
+	a, err := Estimate(c.runs, pending, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, _ := Estimate(c.runs, drawn, o)
+	for i := range a.Runs {
+		near(t, "NDCG", a.Runs[i].NDCG.Est, b.Runs[i].NDCG.Est, 1e-12)
+		near(t, "NDCG SE", a.Runs[i].NDCG.SE, b.Runs[i].NDCG.SE, 1e-12)
+		near(t, "AP", a.Runs[i].AP.Est, b.Runs[i].AP.Est, 1e-12)
+		near(t, "AP SE", a.Runs[i].AP.SE, b.Runs[i].AP.SE, 1e-12)
+	}
+	if a.Pending == 0 || a.Runs[0].NDCG.SE == 0 {
+		t.Fatalf("pending %d, SE %v: the check checks nothing", a.Pending, a.Runs[0].NDCG.SE)
+	}
+}
+
+// The linearised variance is checked against a numerical derivative: the
+// SE of one query's NDCG and AP from finite differences of the estimate
+// in each weight.
+func TestVarianceMatchesNumericalDerivatives(t *testing.T) {
+	c := invent(11, 1, 80, 60, []float64{0.7})
+	plan, err := MakePlan(Design{Kind: KindStratified, Depth: 3, MaxDepth: 60, Budget: 30, Seed: 2}, c.runs, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	labels := labelsOf(c.truth, plan.Choices, nil)
+	o := Options{K: 10, MaxGrade: 4}
+	rep, err := Estimate(c.runs, labels, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	q := sortedKeys(labels)[0]
+	vN, vA := 0.0, 0.0
+	const h = 1e-6
+	for _, d := range sortedKeys(labels[q]) {
+		l := labels[q][d]
+		if l.Prob == 1 {
+			continue
+		}
+		w := 1 / l.Prob
+		up, down := copyLabels(labels), copyLabels(labels)
+		up[q][d] = Label{Grade: l.Grade, Prob: 1 / (w + h), Stratum: l.Stratum}
+		down[q][d] = Label{Grade: l.Grade, Prob: 1 / (w - h), Stratum: l.Stratum}
+		ru, _ := Estimate(c.runs, up, o)
+		rd, _ := Estimate(c.runs, down, o)
+		dn := (ru.Runs[0].NDCG.Est - rd.Runs[0].NDCG.Est) / (2 * h)
+		da := (ru.Runs[0].AP.Est - rd.Runs[0].AP.Est) / (2 * h)
+		vf := (1 - l.Prob) / (l.Prob * l.Prob)
+		vN += vf * dn * dn
+		vA += vf * da * da
+	}
+	near(t, "NDCG SE", rep.Runs[0].NDCG.SE, math.Sqrt(vN), 1e-6)
+	near(t, "AP SE", rep.Runs[0].AP.SE, math.Sqrt(vA), 1e-6)
+	if vN == 0 {
+		t.Fatal("no sampled pair: the check checks nothing")
+	}
+}

@@ -1,0 +1,428 @@
+package web
+
+import (
+	"fmt"
+	"net/http"
+	"net/url"
+	"strconv"
+	"strings"
+
+	"github.com/go-chi/chi/v5"
+
+	"github.com/pertinent/pertinent/estimate"
+	"github.com/pertinent/pertinent/rankeval"
+	"github.com/pertinent/pertinent/store"
+)
+
+// planRoutes are the lead's "Plan judging" and "How sure are we?" pages.
+func (s *Server) planRoutes(r chi.Router) {
+	r.Use(s.requireProjectRole(store.RoleLead))
+	r.Get("/plan", s.planPage)
+	r.Post("/plan", s.planSubmit)
+	r.Post("/plan/runs", s.planKeepRuns)
+	r.Get("/plan/{design}", s.designPage)
+	r.Post("/plan/{design}/advance", s.designAdvance)
+}
+
+// planForm is the design form as typed, so a refused form comes back as it was.
+type planForm struct {
+	Kind, Depth, MaxDepth, Budget, PerQuery, K, Confidence, Method, Wave, Gain, Threshold string
+	BreakTies                                                                             bool
+	Runs                                                                                  map[int64]bool
+}
+
+func defaultPlanForm() planForm {
+	return planForm{Kind: "stratified", Depth: "10", MaxDepth: "100", Budget: "", PerQuery: "", K: "10",
+		Confidence: "0.95", Method: estimate.FindBandit, Wave: "20", Gain: "exponential", Threshold: "2", Runs: map[int64]bool{}}
+}
+
+func readPlanForm(v url.Values) planForm {
+	f := defaultPlanForm()
+	set := func(dst *string, name string) {
+		if x := strings.TrimSpace(v.Get(name)); x != "" || v.Has(name) {
+			*dst = x
+		}
+	}
+	set(&f.Kind, "kind")
+	set(&f.Depth, "depth")
+	set(&f.MaxDepth, "max_depth")
+	set(&f.Budget, "budget")
+	set(&f.PerQuery, "per_query")
+	set(&f.K, "k")
+	set(&f.Confidence, "confidence")
+	set(&f.Method, "method")
+	set(&f.Wave, "wave")
+	set(&f.Gain, "gain")
+	set(&f.Threshold, "threshold")
+	f.BreakTies = v.Get("break_ties") != ""
+	for _, id := range v["run"] {
+		if n, err := strconv.ParseInt(id, 10, 64); err == nil {
+			f.Runs[n] = true
+		}
+	}
+	return f
+}
+
+// request turns the form into a plan request; run order follows the kept runs' order.
+func (f planForm) request(kept []store.KeptRun) (store.PlanRequest, error) {
+	var req store.PlanRequest
+	num := func(name, s string, def int) (int, error) {
+		if s == "" {
+			return def, nil
+		}
+		n, err := strconv.Atoi(s)
+		if err != nil || n < 0 {
+			return 0, storeInvalid(fmt.Sprintf("%s: %q is not a whole number of 0 or more", name, s))
+		}
+		return n, nil
+	}
+	d := estimate.Design{Kind: estimate.Kind(f.Kind), Method: f.Method}
+	var err error
+	if d.Depth, err = num("Depth", f.Depth, 10); err != nil {
+		return req, err
+	}
+	if d.MaxDepth, err = num("Deepest rank", f.MaxDepth, 100); err != nil {
+		return req, err
+	}
+	if d.Budget, err = num("Budget", f.Budget, 0); err != nil {
+		return req, err
+	}
+	if d.PerQuery, err = num("Budget per query", f.PerQuery, 0); err != nil {
+		return req, err
+	}
+	if d.K, err = num("Cut-off k", f.K, 10); err != nil {
+		return req, err
+	}
+	if d.Wave, err = num("Wave", f.Wave, 20); err != nil {
+		return req, err
+	}
+	if f.Confidence != "" {
+		c, err := strconv.ParseFloat(f.Confidence, 64)
+		if err != nil || c <= 0.5 || c >= 1 {
+			return req, storeInvalid(fmt.Sprintf("Confidence: %q should be a number between 0.5 and 1, such as 0.95", f.Confidence))
+		}
+		d.Confidence = c
+	}
+	req.Settings.Design = d
+	switch f.Gain {
+	case "exponential", "":
+		req.Settings.Gain = rankeval.GainExponential
+	case "linear":
+		req.Settings.Gain = rankeval.GainLinear
+	default:
+		return req, storeInvalid(fmt.Sprintf("NDCG gain %q: choose exponential or linear", f.Gain))
+	}
+	if req.Settings.Threshold, err = num("Relevant from grade", f.Threshold, 2); err != nil {
+		return req, err
+	}
+	req.Settings.BreakTies = f.BreakTies
+	for _, kr := range kept {
+		if f.Runs[kr.ID] {
+			req.Runs = append(req.Runs, kr.ID)
+		}
+	}
+	return req, nil
+}
+
+type planData struct {
+	Form    planForm
+	Kept    []store.KeptRun
+	Designs []store.Design
+	Preview *store.PlanOutcome
+	Error   string
+	Notices []string
+}
+
+func (s *Server) planPage(w http.ResponseWriter, r *http.Request) {
+	f := defaultPlanForm()
+	s.renderPlan(w, r, http.StatusOK, f, nil, "")
+}
+
+func (s *Server) renderPlan(w http.ResponseWriter, r *http.Request, status int, f planForm, preview *store.PlanOutcome, msg string) {
+	p := currentProject(r)
+	kept, err := s.store.KeptRuns(r.Context(), p.ID)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	designs, err := s.store.Designs(r.Context(), p.ID)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	if len(f.Runs) == 0 && status == http.StatusOK && preview == nil {
+		for _, kr := range kept {
+			f.Runs[kr.ID] = true
+		}
+	}
+	data := planData{Form: f, Kept: kept, Designs: designs, Preview: preview, Error: msg, Notices: s.flashes(w, r, "plan")}
+	s.render(w, r, status, "plan", "", s.newView(r, "Plan judging: "+p.Name, data))
+}
+
+// planKeepRuns keeps the uploaded run files for planning.
+func (s *Server) planKeepRuns(w http.ResponseWriter, r *http.Request) {
+	p := currentProject(r)
+	u, _ := currentUser(r)
+	r.Body = http.MaxBytesReader(w, r.Body, maxRunUpload)
+	if err := r.ParseMultipartForm(4 << 20); err != nil {
+		s.renderPlan(w, r, http.StatusBadRequest, defaultPlanForm(), nil, "Choose one or more run files (at most 256 MB together).")
+		return
+	}
+	defer r.MultipartForm.RemoveAll()
+	var kept []string
+	for _, fh := range r.MultipartForm.File["runs"] {
+		if fh.Size == 0 && fh.Filename == "" {
+			continue
+		}
+		file, err := fh.Open()
+		if err != nil {
+			s.storeError(w, r, err)
+			return
+		}
+		kr, err := s.store.KeepRun(r.Context(), p.ID, u.ID, runName(fh), file)
+		file.Close()
+		if err != nil {
+			if status, msg, ok := userError(err); ok {
+				s.renderPlan(w, r, status, defaultPlanForm(), nil, msg)
+				return
+			}
+			s.storeError(w, r, err)
+			return
+		}
+		kept = append(kept, kr.Name)
+	}
+	if len(kept) == 0 {
+		s.renderPlan(w, r, http.StatusBadRequest, defaultPlanForm(), nil, "Choose one or more run files.")
+		return
+	}
+	s.flash(w, r, "plan", "Kept "+strings.Join(kept, ", ")+".")
+	http.Redirect(w, r, fmt.Sprintf("/projects/%d/plan", p.ID), http.StatusSeeOther)
+}
+
+// planSubmit previews a design (counts only) or sends its pairs to judging.
+func (s *Server) planSubmit(w http.ResponseWriter, r *http.Request) {
+	p := currentProject(r)
+	u, _ := currentUser(r)
+	if err := r.ParseForm(); err != nil {
+		s.fail(w, r, http.StatusBadRequest, "The form could not be read.")
+		return
+	}
+	f := readPlanForm(r.PostForm)
+	kept, err := s.store.KeptRuns(r.Context(), p.ID)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	req, err := f.request(kept)
+	if err == nil {
+		req.DryRun = r.PostForm.Get("action") != "send"
+		var out store.PlanOutcome
+		if out, err = s.store.PlanJudging(r.Context(), p.ID, u.ID, req); err == nil {
+			if out.DryRun {
+				s.renderPlan(w, r, http.StatusOK, f, &out, "")
+				return
+			}
+			s.flash(w, r, "design", fmt.Sprintf("Sent %d new pairs to judging (%d already in the project).", out.Added, out.Raised))
+			http.Redirect(w, r, fmt.Sprintf("/projects/%d/plan/%d", p.ID, out.DesignID), http.StatusSeeOther)
+			return
+		}
+	}
+	if status, msg, ok := userError(err); ok {
+		s.renderPlan(w, r, status, f, nil, msg)
+		return
+	}
+	s.storeError(w, r, err)
+}
+
+// queriesForm is the query-count planner's form, read from the page's URL.
+type queriesForm struct {
+	Metric, MinDiff, Alpha, Power, HalfWidth string
+}
+
+func readQueriesForm(v url.Values) queriesForm {
+	f := queriesForm{Metric: "ndcg", MinDiff: "0.05", Alpha: "0.05", Power: "0.8", HalfWidth: ""}
+	for name, dst := range map[string]*string{"metric": &f.Metric, "min_diff": &f.MinDiff, "alpha": &f.Alpha, "power": &f.Power, "half_width": &f.HalfWidth} {
+		if v.Has(name) {
+			*dst = strings.TrimSpace(v.Get(name))
+		}
+	}
+	return f
+}
+
+func (f queriesForm) request() (estimate.QueryPlanRequest, error) {
+	var req estimate.QueryPlanRequest
+	parse := func(name, s string, lo, hi float64) (float64, error) {
+		if s == "" {
+			return 0, nil
+		}
+		x, err := strconv.ParseFloat(s, 64)
+		if err != nil || x <= lo || x >= hi {
+			return 0, storeInvalid(fmt.Sprintf("%s: %q should be a number between %g and %g", name, s, lo, hi))
+		}
+		return x, nil
+	}
+	var err error
+	if req.MinDiff, err = parse("Smallest difference", f.MinDiff, 0, 1); err != nil {
+		return req, err
+	}
+	if req.Alpha, err = parse("Significance level α", f.Alpha, 0, 0.5); err != nil {
+		return req, err
+	}
+	power, err := parse("Power", f.Power, 0, 1)
+	if err != nil {
+		return req, err
+	}
+	if power > 0 {
+		req.Beta = 1 - power
+	}
+	if req.HalfWidth, err = parse("Interval half-width", f.HalfWidth, 0, 1); err != nil {
+		return req, err
+	}
+	return req, nil
+}
+
+type designData struct {
+	Report       store.DesignReport
+	Runs         []designRunView
+	Differences  []estimate.Difference
+	Queries      queriesForm
+	QueryPlan    *store.QueriesReport
+	QueriesError string
+	Notices      []string
+	Kind         string
+}
+
+type designRunView struct {
+	Run                  estimate.RunEstimate
+	NDCG, AP             string
+	Judged, RBP, Residue string
+}
+
+// interval formats an estimate with its interval.
+func interval(iv estimate.Interval) string {
+	return fmt.Sprintf("%.4f [%.4f, %.4f]", iv.Est, iv.Low, iv.High)
+}
+
+// designPage is "How sure are we?": the estimates of one design's runs.
+func (s *Server) designPage(w http.ResponseWriter, r *http.Request) {
+	p := currentProject(r)
+	u, _ := currentUser(r)
+	id, ok := idParam(r, "design")
+	if !ok {
+		s.fail(w, r, http.StatusNotFound, "There is no such judging design.")
+		return
+	}
+	// An adaptive design tops up its next wave whenever the lead looks.
+	if _, err := s.store.AdvanceDesign(r.Context(), p.ID, u.ID, id); err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	rep, err := s.store.DesignEstimate(r.Context(), p.ID, id)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	data := designData{Report: rep, Differences: rep.Estimates.Differences, Queries: readQueriesForm(r.URL.Query()),
+		Notices: s.flashes(w, r, "design"), Kind: kindName(rep.Design.Settings.Design.Kind)}
+	for _, re := range rep.Estimates.Runs {
+		data.Runs = append(data.Runs, designRunView{Run: re, NDCG: interval(re.NDCG), AP: interval(re.AP),
+			Judged: f4(re.JudgedAtK), RBP: f4(re.RBP), Residue: f4(re.RBPResidual)})
+	}
+	if req, err := data.Queries.request(); err != nil {
+		_, data.QueriesError, _ = userError(err)
+	} else if qp, err := store.QueriesFor(rep, data.Queries.Metric, req); err != nil {
+		if _, msg, ok := userError(err); ok {
+			data.QueriesError = msg
+		} else {
+			s.storeError(w, r, err)
+			return
+		}
+	} else {
+		data.QueryPlan = &qp
+	}
+	s.render(w, r, http.StatusOK, "design", "", s.newView(r, "How sure are we? "+p.Name, data))
+}
+
+// designAdvance releases an adaptive design's next wave now.
+func (s *Server) designAdvance(w http.ResponseWriter, r *http.Request) {
+	p := currentProject(r)
+	u, _ := currentUser(r)
+	id, ok := idParam(r, "design")
+	if !ok {
+		s.fail(w, r, http.StatusNotFound, "There is no such judging design.")
+		return
+	}
+	n, err := s.store.AdvanceDesign(r.Context(), p.ID, u.ID, id)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	msg := fmt.Sprintf("Sent %d more pairs to judging.", n)
+	if n == 0 {
+		msg = "Nothing more to send now: enough pairs are waiting for grades, the question is settled, or the budget is spent."
+	}
+	s.flash(w, r, "design", msg)
+	http.Redirect(w, r, fmt.Sprintf("/projects/%d/plan/%d", p.ID, id), http.StatusSeeOther)
+}
+
+// kindName is a design's kind in the page's words.
+func kindName(k estimate.Kind) string {
+	switch k {
+	case estimate.KindDepth:
+		return "Judge everything to a depth"
+	case estimate.KindStratified:
+		return "Judge the top, sample deeper"
+	case estimate.KindDecide:
+		return "Decide A versus B"
+	case estimate.KindFind:
+		return "Find relevant documents fast"
+	}
+	return string(k)
+}
+
+// apiDesign answers with a design's estimates, as the page shows them.
+func (s *Server) apiDesign(w http.ResponseWriter, r *http.Request) {
+	id, ok := idParam(r, "design")
+	if !ok {
+		apiError(w, http.StatusNotFound, "no such judging design")
+		return
+	}
+	rep, err := s.store.DesignEstimate(r.Context(), currentProject(r).ID, id)
+	if err != nil {
+		s.apiStoreError(w, r, err)
+		return
+	}
+	apiJSON(w, rep)
+}
+
+// apiDesignQueries answers with the query-count planner of a design.
+func (s *Server) apiDesignQueries(w http.ResponseWriter, r *http.Request) {
+	id, ok := idParam(r, "design")
+	if !ok {
+		apiError(w, http.StatusNotFound, "no such judging design")
+		return
+	}
+	f := readQueriesForm(r.URL.Query())
+	req, err := f.request()
+	if err != nil {
+		s.apiStoreError(w, r, err)
+		return
+	}
+	qp, err := s.store.DesignQueries(r.Context(), currentProject(r).ID, id, f.Metric, req)
+	if err != nil {
+		s.apiStoreError(w, r, err)
+		return
+	}
+	apiJSON(w, qp)
+}
+
+// storeInvalid is a form value the lead should change, shown as the store's own refusals are.
+func storeInvalid(msg string) error { return &store.Error{Code: store.CodeInvalid, Message: msg} }
+
+func init() {
+	funcs["f3"] = func(v float64) string { return strconv.FormatFloat(v, 'f', 3, 64) }
+	funcs["pct"] = func(v float64) string { return strconv.FormatFloat(100*v, 'f', 1, 64) + "%" }
+	funcs["interval"] = interval
+	funcs["kindName"] = kindName
+	funcs["checked"] = func(m map[int64]bool, id int64) bool { return m[id] }
+}
