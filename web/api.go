@@ -34,8 +34,8 @@ func (s *Server) apiRoutes(r chi.Router) {
 	r.Get("/projects", s.apiProjects)
 	r.Route("/projects/{project}", func(r chi.Router) {
 		r.Use(s.apiProject)
-		r.Get("/export", s.apiExport)
-		r.Post("/evaluate", s.apiEvaluate)
+		r.With(s.longTransfer).Get("/export", s.apiExport)
+		r.With(s.longTransfer).Post("/evaluate", s.apiEvaluate)
 	})
 	r.NotFound(func(w http.ResponseWriter, r *http.Request) {
 		apiError(w, http.StatusNotFound, "no such endpoint")

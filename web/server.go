@@ -4,6 +4,7 @@
 package web
 
 import (
+	"cmp"
 	"context"
 	"embed"
 	"fmt"
@@ -33,6 +34,12 @@ type Options struct {
 	// SessionTTL is how long a sign-in lasts; zero means 12 hours.
 	SessionTTL time.Duration
 	Logger     *slog.Logger
+	// ReadTimeout and WriteTimeout bound reading a whole request and writing its response
+	// (HTTPServer); zero means 60 seconds each.
+	ReadTimeout, WriteTimeout time.Duration
+	// TransferTimeout replaces both on the routes that move large files: import uploads,
+	// export downloads and run uploads. Zero means one hour.
+	TransferTimeout time.Duration
 }
 
 // Server is the HTTP side of pertinent.
@@ -57,6 +64,9 @@ func New(ctx context.Context, st *store.Store, opts Options) (*Server, error) {
 	if opts.SessionTTL == 0 {
 		opts.SessionTTL = 12 * time.Hour
 	}
+	opts.ReadTimeout = cmp.Or(opts.ReadTimeout, defaultReadTimeout)
+	opts.WriteTimeout = cmp.Or(opts.WriteTimeout, defaultWriteTimeout)
+	opts.TransferTimeout = cmp.Or(opts.TransferTimeout, defaultTransferTimeout)
 	hashKey, blockKey, err := st.SessionKeys(ctx)
 	if err != nil {
 		return nil, fmt.Errorf("web: session keys: %w", err)
@@ -119,7 +129,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)
 				r.Post("/pairs/{pair}/adjudicate", s.adjudicateSubmit)
 				r.Get("/import", s.importPage)
-				r.Post("/import", s.importSubmit)
+				r.With(s.longTransfer).Post("/import", s.importSubmit)
 				r.Get("/import/{job}", s.importStatus)
 			})
 			r.Group(s.projectAdminRoutes)

@@ -104,14 +104,7 @@ func serve(ctx context.Context, st *store.Store, f serverFlags, log *slog.Logger
 		}
 		defer stop()
 	}
-	srv := &http.Server{
-		Handler:           h,
-		ReadHeaderTimeout: 10 * time.Second,
-		ReadTimeout:       60 * time.Second,
-		WriteTimeout:      60 * time.Second,
-		IdleTimeout:       120 * time.Second,
-		ErrorLog:          slog.NewLogLogger(log.Handler(), slog.LevelWarn),
-	}
+	srv := h.HTTPServer() // general timeouts; import uploads and exports extend their own
 	errc := make(chan error, 1)
 	go func() { errc <- srv.Serve(ln) }()
 	go warmDesks(ctx, st, log)
