@@ -4,12 +4,8 @@ import "slices"
 
 // ItemConsensus is the grade each simple rule gives one item.
 //
-//   - Median is the lower median: for an even count, the smaller of the two
-//     middle grades (a grade is always on the scale, and the rule never
-//     rounds up relevance nobody gave).
-//   - Majority is the most frequent grade; ties go to the grade closest to
-//     the item's median (for even counts the midpoint of the two middle
-//     grades), then to the lower grade.
+//   - Median is the lower median (MedianGrade).
+//   - Majority is the most frequent grade, ties broken as MajorityGrade says.
 //   - Mean is the average grade.
 type ItemConsensus struct {
 	Item     string  `json:"item"`
@@ -25,46 +21,90 @@ func Consensus(d *Data) []ItemConsensus {
 	ix := d.built()
 	out := make([]ItemConsensus, ix.nItems())
 	buf := make([]uint8, 0, ix.maxM)
-	counts := make([]int, ix.k)
 	for i := range out {
 		gs := ix.grade[ix.start[i]:ix.start[i+1]]
 		buf = append(buf[:0], gs...)
 		slices.Sort(buf)
-		clear(counts)
 		sum := 0
 		for _, g := range buf {
-			counts[g]++
 			sum += int(g)
 		}
 		out[i] = ItemConsensus{
 			Item:     d.itemName(int32(i)),
 			N:        len(buf),
-			Median:   int(buf[(len(buf)-1)/2]),
-			Majority: majority(counts, buf),
+			Median:   int(LowerMedian(buf)),
+			Majority: majoritySorted(buf),
 			Mean:     float64(sum) / float64(len(buf)),
 		}
 	}
 	return out
 }
 
-// majority applies the tie rule of ItemConsensus; sorted holds the grades.
-func majority(counts []int, sorted []uint8) int {
+// GradeValue is an integer type grades are held in: int for plain lists, int8 and
+// uint8 in packed rows.
+type GradeValue interface{ ~int | ~int8 | ~uint8 }
+
+// MedianGrade is the lower median of grades (in any order, not empty): for an even
+// count the smaller of the two middle grades, so the result is always a grade on the
+// scale and never rounds up relevance nobody gave. The label policy's "median".
+func MedianGrade(grades []int) int {
+	return LowerMedian(sortedCopy(grades))
+}
+
+// MajorityGrade is the most frequent of grades (in any order, not empty). Among equally
+// frequent grades the one closest to the median wins, where the median of an even count
+// is the midpoint of the two middle grades (as in {1,1,2,4,4,5}: 1 and 4 tie, the
+// midpoint of 2 and 4 is 3, so 4); a grade as far below as another is above it loses to
+// the lower one. The midpoint rather than the lower median keeps the tie-break centred:
+// the lower grade is preferred once, at the last step, not twice. The label policy's
+// "majority" and the adjudication page's.
+func MajorityGrade(grades []int) int {
+	return majoritySorted(sortedCopy(grades))
+}
+
+// LowerMedian is MedianGrade of grades already sorted ascending.
+func LowerMedian[G GradeValue](sorted []G) G {
+	return sorted[(len(sorted)-1)/2]
+}
+
+// LeaveOneOutMedian is the lower median of sorted (ascending) with one copy of g taken
+// out: the consensus of the other raters against which a rater's grade g is compared.
+// sorted must hold g and at least one other grade.
+func LeaveOneOutMedian[G GradeValue](sorted []G, g G) G {
+	pos, _ := slices.BinarySearch(sorted, g)
+	// The lower median of the m-1 others is at index (m-2)/2 of the rest; at or after
+	// the removed copy, the rest is shifted by one.
+	idx := (len(sorted) - 2) / 2
+	if pos <= idx {
+		idx++
+	}
+	return sorted[idx]
+}
+
+func sortedCopy(gs []int) []int {
+	s := slices.Clone(gs)
+	slices.Sort(s)
+	return s
+}
+
+// majoritySorted is MajorityGrade of grades sorted ascending.
+func majoritySorted[G GradeValue](sorted []G) int {
 	n := len(sorted)
 	mid2 := int(sorted[(n-1)/2]) + int(sorted[n/2]) // twice the median
-	best, bestC, bestD := -1, -1, 0
-	for g, c := range counts {
-		if c == 0 {
-			continue
+	best, bestC, bestD := 0, -1, 0
+	for i := 0; i < n; {
+		g := sorted[i]
+		j := i + 1
+		for j < n && sorted[j] == g {
+			j++
 		}
-		dist := 2*g - mid2
-		if dist < 0 {
-			dist = -dist
-		}
-		// Ascending g: strictly better count or strictly closer wins, so
-		// the lower grade keeps full ties.
+		c, dist := j-i, absInt(2*int(g)-mid2)
+		// Runs come in ascending order: only a strictly higher count or a strictly
+		// closer grade replaces the best, so full ties keep the lower grade.
 		if c > bestC || (c == bestC && dist < bestD) {
-			best, bestC, bestD = g, c, dist
+			best, bestC, bestD = int(g), c, dist
 		}
+		i = j
 	}
 	return best
 }

@@ -87,14 +87,7 @@ func raterStatsOf(d *Data, ix *index, pairs []PairKappa, gold map[string]int) ([
 			if m < 2 {
 				continue
 			}
-			// Lower median of the m-1 others: drop one copy of g from
-			// the sorted grades and take index (m-2)/2 of the rest.
-			pos, _ := slices.BinarySearch(sorted, gs[p])
-			idx := (m - 2) / 2
-			if pos <= idx {
-				idx++
-			}
-			c := int(sorted[idx])
+			c := int(LeaveOneOutMedian(sorted, gs[p]))
 			out[r].ConsensusItems++
 			if c == g {
 				consAgree[r]++

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
+
+	"github.com/pertinent/pertinent/agreement"
 )
 
 // Consensus is how a final grade is formed from several judgments.
@@ -11,8 +13,8 @@ type Consensus string
 
 // Consensus methods.
 const (
-	ConsensusMedian     Consensus = "median"      // lower median
-	ConsensusMajority   Consensus = "majority"    // ties: closest to the median, then lower
+	ConsensusMedian     Consensus = "median"      // lower median: agreement.MedianGrade
+	ConsensusMajority   Consensus = "majority"    // ties: agreement.MajorityGrade
 	ConsensusMean       Consensus = "mean"        // rounded half up
 	ConsensusDawidSkene Consensus = "dawid-skene" // precomputed per pair (Dawid & Skene 1979)
 )
@@ -102,9 +104,9 @@ func (p LabelPolicy) Apply(in PairLabels) Decision {
 	of := " of " + strconv.Itoa(n)
 	switch p.Consensus {
 	case ConsensusMedian:
-		return Decision{Grade: medianGrade(in.Grades), Decided: "median" + of, Include: true}
+		return Decision{Grade: agreement.MedianGrade(in.Grades), Decided: "median" + of, Include: true}
 	case ConsensusMajority:
-		return Decision{Grade: majorityGrade(in.Grades), Decided: "majority" + of, Include: true}
+		return Decision{Grade: agreement.MajorityGrade(in.Grades), Decided: "majority" + of, Include: true}
 	case ConsensusMean:
 		return Decision{Grade: meanGrade(in.Grades), Decided: "mean" + of, Include: true}
 	case ConsensusDawidSkene:
@@ -123,7 +125,7 @@ func (p LabelPolicy) Describe() string {
 	case ConsensusMedian:
 		method = "the median grade (lower median on even counts)"
 	case ConsensusMajority:
-		method = "the majority grade (ties go to the grade closest to the median, then the lower)"
+		method = "the majority grade (ties go to the grade closest to the median, the midpoint of the two middle grades on even counts, then the lower)"
 	case ConsensusMean:
 		method = "the mean grade rounded half up"
 	case ConsensusDawidSkene:

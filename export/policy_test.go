@@ -2,6 +2,8 @@ package export
 
 import (
 	"testing"
+
+	"github.com/pertinent/pertinent/agreement"
 )
 
 func intp(i int) *int { return &i }
@@ -12,23 +14,23 @@ func TestConsensusHelpers(t *testing.T) {
 		median, major, mean int
 	}{
 		{[]int{2}, 2, 2, 2},
-		{[]int{1, 3}, 1, 1, 2},          // lower median 1; majority tie 1,3 both 0 from median 1 -> 1; mean 2.0
+		{[]int{1, 3}, 1, 1, 2},          // lower median 1; majority tie 1,3 both 1 from the midpoint 2 -> lower 1; mean 2.0
 		{[]int{3, 0, 4}, 3, 3, 2},       // all once: 3 is the median; mean 7/3 = 2.33 -> 2
 		{[]int{0, 1}, 0, 0, 1},          // mean 0.5 rounds half up to 1
 		{[]int{2, 2, 4, 4, 0}, 2, 2, 2}, // tie 2 vs 4 around median 2 -> 2; mean 12/5 = 2.4 -> 2
 		{[]int{4, 4, 1, 1, 2, 3}, 2, 1, 3},
-		// majority tie 4 and 1 (twice each), median 2: |1-2| = 1 < |4-2| = 2 -> 1; mean 15/6 = 2.5 -> 3
+		// majority tie 4 and 1 (twice each), median the midpoint 2.5 of 2 and 3: both 1.5 away -> lower 1; mean 15/6 = 2.5 -> 3
 		{[]int{0, 0, 0, 4}, 0, 0, 1}, // mean 1.0
 		{[]int{3, 4, 4}, 4, 4, 4},    // mean 11/3 = 3.67 -> 4
 		{[]int{1, 2, 2, 3}, 2, 2, 2}, // mean 2.0
-		{[]int{2, 3}, 2, 2, 3},       // majority tie 2 vs 3, both near median 2: 2 is at distance 0; mean 2.5 -> 3
-		{[]int{1, 3, 3, 1}, 1, 1, 2}, // tie 1 vs 3 around median 1 -> 1
+		{[]int{2, 3}, 2, 2, 3},       // majority tie 2 vs 3, both 0.5 from the midpoint 2.5 -> lower 2; mean 2.5 -> 3
+		{[]int{1, 3, 3, 1}, 1, 1, 2}, // tie 1 vs 3 around the midpoint 2 -> lower 1
 	}
 	for _, c := range cases {
-		if got := medianGrade(c.gs); got != c.median {
+		if got := agreement.MedianGrade(c.gs); got != c.median {
 			t.Errorf("median %v = %d, want %d", c.gs, got, c.median)
 		}
-		if got := majorityGrade(c.gs); got != c.major {
+		if got := agreement.MajorityGrade(c.gs); got != c.major {
 			t.Errorf("majority %v = %d, want %d", c.gs, got, c.major)
 		}
 		if got := meanGrade(c.gs); got != c.mean {
@@ -39,7 +41,7 @@ func TestConsensusHelpers(t *testing.T) {
 
 func TestMajorityTieEquidistantTakesLower(t *testing.T) {
 	// 1 and 3 twice each, 2 once: median 2; 1 and 3 are both one away -> 1
-	if got := majorityGrade([]int{1, 1, 3, 3, 2}); got != 1 {
+	if got := agreement.MajorityGrade([]int{1, 1, 3, 3, 2}); got != 1 {
 		t.Errorf("got %d", got)
 	}
 }

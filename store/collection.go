@@ -1,9 +1,10 @@
 package store
 
 import (
+	"cmp"
 	"context"
 	"database/sql"
-	"encoding/json"
+	"errors"
 )
 
 // Query is a searcher's query within a project.
@@ -26,41 +27,49 @@ type Document struct {
 }
 
 // Loader adds queries, documents and pairs to one project inside a single transaction:
-// everything given to one Load call is stored, or nothing is.
+// everything given to one Load call is stored, or nothing is. It writes through the
+// import's own statements (upsertQuery, upsertDocuments, upsertPair) and encodes documents
+// as the import does, so a row added here and the same row imported end up the same; it is
+// for code that builds a collection in Go (the demo, the load test, tests), while files go
+// through Import.
 type Loader struct {
-	ctx     context.Context
-	s       *Store
-	tx      *sql.Tx
-	project int64
-	query   *sql.Stmt
-	doc     *sql.Stmt
-	pair    *sql.Stmt
+	ctx      context.Context
+	s        *Store
+	tx       *sql.Tx
+	project  int64
+	query    *sql.Stmt
+	findQ    *sql.Stmt
+	doc      *sql.Stmt
+	findD    *sql.Stmt
+	pair     *sql.Stmt
+	findPair *sql.Stmt
 }
 
 // Load runs fn with a Loader for the project and commits when fn returns nil.
 func (s *Store) Load(ctx context.Context, projectID int64, fn func(*Loader) error) error {
 	return s.write(ctx, func(tx *sql.Tx) error {
 		l := &Loader{ctx: ctx, s: s, tx: tx, project: projectID}
-		var err error
-		if l.query, err = tx.PrepareContext(ctx, `INSERT INTO queries(project_id, external_id, text, need) VALUES (?, ?, ?, ?)
-			ON CONFLICT (project_id, external_id) DO UPDATE SET text = excluded.text, need = excluded.need RETURNING id`); err != nil {
-			return err
+		var stmts []*sql.Stmt
+		defer func() {
+			for _, st := range stmts {
+				st.Close()
+			}
+		}()
+		var first error
+		keep := func(st *sql.Stmt, err error) *sql.Stmt {
+			if err != nil {
+				first = cmp.Or(first, err)
+				return nil
+			}
+			stmts = append(stmts, st)
+			return st
 		}
-		defer l.query.Close()
-		if l.doc, err = tx.PrepareContext(ctx, `INSERT INTO documents(project_id, external_id, title, url, body, body_format, metadata)
-			VALUES (?, ?, ?, ?, ?, ?, ?)
-			ON CONFLICT (project_id, external_id) DO UPDATE SET title = excluded.title, url = excluded.url,
-				body = excluded.body, body_format = excluded.body_format, metadata = excluded.metadata RETURNING id`); err != nil {
-			return err
+		l.query, l.findQ = keep(tx.PrepareContext(ctx, upsertQuery)), keep(tx.PrepareContext(ctx, findQuery))
+		l.doc, l.findD = keep(tx.PrepareContext(ctx, upsertDocument)), keep(tx.PrepareContext(ctx, findDocument))
+		l.pair, l.findPair = keep(tx.PrepareContext(ctx, upsertPair)), keep(tx.PrepareContext(ctx, findPair))
+		if first != nil {
+			return first
 		}
-		defer l.doc.Close()
-		if l.pair, err = tx.PrepareContext(ctx, `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, gold_grade, created_at)
-			VALUES (?, ?, ?, ?, ?, ?, ?)
-			ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority, gold_grade = excluded.gold_grade
-			RETURNING id`); err != nil {
-			return err
-		}
-		defer l.pair.Close()
 		return fn(l)
 	})
 }
@@ -69,20 +78,27 @@ func (s *Store) Load(ctx context.Context, projectID int64, fn func(*Loader) erro
 func (l *Loader) Query(q Query) (int64, error) {
 	var id int64
 	err := l.query.QueryRowContext(l.ctx, l.project, q.ExternalID, q.Text, q.Need).Scan(&id)
+	if errors.Is(err, sql.ErrNoRows) { // unchanged: the upsert returns no row
+		err = l.findQ.QueryRowContext(l.ctx, l.project, q.ExternalID).Scan(&id)
+	}
 	return id, err
 }
 
-// Document adds or updates a document by its external id and returns its id.
+// Document adds or updates a document by its external id and returns its id. Metadata
+// that cannot be stored as given is a CodeInvalid error.
 func (l *Loader) Document(d Document) (int64, error) {
 	if d.BodyFormat == "" {
 		d.BodyFormat = "text"
 	}
-	meta := []byte("{}")
-	if len(d.Metadata) > 0 {
-		meta, _ = json.Marshal(d.Metadata)
+	a, err := documentArgs(d.ExternalID, d.Title, d.URL, d.Body, d.BodyFormat, d.Metadata)
+	if err != nil {
+		return 0, err
+	}
+	if _, err := l.doc.ExecContext(l.ctx, l.project, a.id, a.title, a.url, a.body, a.format, a.meta); err != nil {
+		return 0, err
 	}
 	var id int64
-	err := l.doc.QueryRowContext(l.ctx, l.project, d.ExternalID, d.Title, d.URL, d.Body, d.BodyFormat, string(meta)).Scan(&id)
+	err = l.findD.QueryRowContext(l.ctx, l.project, d.ExternalID).Scan(&id)
 	return id, err
 }
 
@@ -94,14 +110,19 @@ type PairSpec struct {
 	GoldGrade           *int // set for a gold pair
 }
 
-// Pair adds a pair, or updates its priority and gold grade, and returns its id.
+// Pair adds a pair, or updates its priority and, when given, its gold grade (a pair added
+// again without one keeps the gold grade it has, as in a pairs import), and returns its id.
 func (l *Loader) Pair(p PairSpec) (int64, error) {
 	var gold any
 	if p.GoldGrade != nil {
 		gold = *p.GoldGrade
 	}
+	if _, err := l.pair.ExecContext(l.ctx, l.project, p.QueryID, p.DocumentID, p.Origin, p.Priority, gold, now()); err != nil {
+		return 0, err
+	}
 	var id int64
-	err := l.pair.QueryRowContext(l.ctx, l.project, p.QueryID, p.DocumentID, p.Origin, p.Priority, gold, now()).Scan(&id)
+	var had sql.NullInt64
+	err := l.findPair.QueryRowContext(l.ctx, l.project, p.QueryID, p.DocumentID).Scan(&id, &had)
 	return id, err
 }
 

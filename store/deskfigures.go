@@ -132,16 +132,16 @@ func quantileMs(sorted []uint64, q float64) int {
 // when nobody else graded the pair.
 func leaveOneOut(rows []deskRow, p int, buf []int8) (int, bool, []int8) {
 	buf = buf[:0]
-	for q, r := range rows {
-		if q != p && r.grade() < gradeDisturbing {
+	for _, r := range rows {
+		if r.grade() < gradeDisturbing {
 			buf = append(buf, r.grade())
 		}
 	}
-	if len(buf) == 0 {
+	if len(buf) < 2 {
 		return 0, false, buf
 	}
 	slices.Sort(buf)
-	return int(buf[(len(buf)-1)/2]), true, buf
+	return int(agreement.LeaveOneOutMedian(buf, rows[p].grade())), true, buf
 }
 
 // assessorFigures builds one row per assessor with a current judgment in one pass over the
@@ -193,13 +193,7 @@ func (d *Desk) assessorFigures() {
 			if m < 2 {
 				continue
 			}
-			// Lower median of the others: drop one copy of the grade from the sorted grades.
-			pos, _ := slices.BinarySearch(sorted, r.grade())
-			idx := (m - 2) / 2
-			if pos <= idx {
-				idx++
-			}
-			c := compared{r.at, r.id(), sorted[idx] == r.grade()}
+			c := compared{r.at, r.id(), agreement.LeaveOneOutMedian(sorted, r.grade()) == r.grade()}
 			a.n++
 			if c.agree {
 				a.agree++

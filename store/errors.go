@@ -1,6 +1,11 @@
 package store
 
-import "errors"
+import (
+	"errors"
+
+	"modernc.org/sqlite"
+	sqlite3 "modernc.org/sqlite/lib"
+)
 
 // Code classifies a store error so the web layer can choose a status without reading messages.
 type Code int
@@ -39,3 +44,19 @@ var (
 	// ErrNoWork is returned by NextPair when nothing is left for this assessor.
 	ErrNoWork = errorf(CodeNotFound, "no pairs left to judge")
 )
+
+// isUniqueViolation reports whether err is the engine refusing a duplicate key: a UNIQUE
+// index or a PRIMARY KEY. It reads the driver's extended result code, not the message, which
+// a trigger's RAISE can imitate and a driver update can reword; another engine would answer
+// this from its own codes here.
+func isUniqueViolation(err error) bool {
+	var e *sqlite.Error
+	if !errors.As(err, &e) {
+		return false
+	}
+	switch e.Code() {
+	case sqlite3.SQLITE_CONSTRAINT_UNIQUE, sqlite3.SQLITE_CONSTRAINT_PRIMARYKEY:
+		return true
+	}
+	return false
+}

@@ -1,6 +1,10 @@
 package store
 
-import "encoding/json"
+import (
+	"encoding/json"
+	"strconv"
+	"unicode/utf8"
+)
 
 // The bulk path writes documents and pairs through 1-, 2-, 4-, ... 256-row forms of the
 // same statement: one execution then carries up to 256 rows, which spares the per-call cost
@@ -54,9 +58,12 @@ const (
 			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS NOT excluded.gold_grade)`
 )
 
+// upsertDocument writes one document; the Loader uses it too.
+const upsertDocument = docInsert + docValues + docOnConflict
+
 // upsertDocuments[k] writes 1<<k documents.
 var upsertDocuments = [...]string{
-	docInsert + docValues + docOnConflict,
+	upsertDocument,
 	docInsert + docValues2 + docOnConflict,
 	docInsert + docValues4 + docOnConflict,
 	docInsert + docValues8 + docOnConflict,
@@ -187,6 +194,13 @@ type docArgs struct {
 func documentArgs(id, title, url, body, format string, meta map[string]string) (docArgs, error) {
 	m := "{}"
 	if len(meta) > 0 {
+		// JSON would replace bytes that are not UTF-8 without a word; the parsers refuse
+		// such input, and so does this for values that come from elsewhere.
+		for k, v := range meta {
+			if !utf8.ValidString(k) || !utf8.ValidString(v) {
+				return docArgs{}, errorf(CodeInvalid, "document "+strconv.Quote(id)+": metadata "+strconv.QuoteToASCII(k)+" is not valid UTF-8")
+			}
+		}
 		b, err := json.Marshal(meta) // keys sorted: equal metadata gives equal text
 		if err != nil {
 			return docArgs{}, err

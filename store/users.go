@@ -280,7 +280,3 @@ func (s *Store) ChangePassword(ctx context.Context, userID int64, current, next 
 		return audit(ctx, tx, userID, 0, "password.change", userRef(userID), "")
 	})
 }
-
-func isUniqueViolation(err error) bool {
-	return err != nil && strings.Contains(err.Error(), "UNIQUE constraint failed")
-}

@@ -34,8 +34,8 @@ func (s *Server) apiRoutes(r chi.Router) {
 	r.Get("/projects", s.apiProjects)
 	r.Route("/projects/{project}", func(r chi.Router) {
 		r.Use(s.apiProject)
-		r.Get("/export", s.apiExport)
-		r.Post("/evaluate", s.apiEvaluate)
+		r.With(s.longTransfer).Get("/export", s.apiExport)
+		r.With(s.longTransfer).Post("/evaluate", s.apiEvaluate)
 		r.Get("/designs/{design}", s.apiDesign)
 		r.Get("/designs/{design}/queries", s.apiDesignQueries)
 	})

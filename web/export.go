@@ -17,9 +17,9 @@ import (
 func (s *Server) exportRoutes(r chi.Router) {
 	r.Use(s.requireProjectRole(store.RoleLead))
 	r.Get("/export", s.exportPage)
-	r.Get("/export.zip", s.exportZip)
+	r.With(s.longTransfer).Get("/export.zip", s.exportZip)
 	r.Get("/evaluate", s.evaluatePage)
-	r.Post("/evaluate", s.evaluateRuns)
+	r.With(s.longTransfer).Post("/evaluate", s.evaluateRuns)
 	r.Get("/evaluations/{evaluation}", s.evaluationPage)
 	r.Get("/evaluations/{evaluation}/per-query.csv", s.evaluationCSV)
 	r.Post("/evaluations/{evaluation}/send", s.sendUnjudged)

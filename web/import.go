@@ -25,8 +25,10 @@ import (
 
 // Imports run in the background so a long one can show its progress: the upload is
 // streamed to temporary files (never held in memory), the import reads them through a
-// byte counter, and the page polls a small status fragment. Jobs live in this process
-// only; a finished one is kept for an hour so its report can be read again.
+// byte counter, and the page polls a small status fragment. Jobs belong to their Server
+// and live in this process only (ids are random, each job is shown only within its own
+// project); a finished one is kept for an hour so its report can be read again. Stopping
+// the server drains them (Server.Shutdown).
 
 // maxUpload bounds one import's files together.
 const maxUpload = 4 << 30
@@ -48,14 +50,34 @@ type importJob struct {
 	failure  string
 }
 
+// importJobs are a Server's imports: running jobs, and finished ones kept for their report.
+// The uploads and jobs it holds run on ctx, which drain cancels when the server stops.
 type importJobs struct {
-	mu   sync.Mutex
-	jobs map[string]*importJob
+	mu     sync.Mutex
+	jobs   map[string]*importJob
+	closed bool
+	wg     sync.WaitGroup
+	ctx    context.Context
+	cancel context.CancelFunc
 }
 
-// jobs is shared by the servers of this process; job ids are random, and each job is
-// shown only within its own project.
-var jobs = &importJobs{jobs: map[string]*importJob{}}
+func newImportJobs(ctx context.Context) *importJobs {
+	ctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
+	return &importJobs{jobs: map[string]*importJob{}, ctx: ctx, cancel: cancel}
+}
+
+// hold counts an upload or a job as running, so drain waits for it; false once draining.
+func (j *importJobs) hold() bool {
+	j.mu.Lock()
+	defer j.mu.Unlock()
+	if j.closed {
+		return false
+	}
+	j.wg.Add(1)
+	return true
+}
+
+func (j *importJobs) release() { j.wg.Done() }
 
 func (j *importJobs) add(job *importJob) {
 	j.mu.Lock()
@@ -78,6 +100,37 @@ func (j *importJobs) get(id string, projectID int64) *importJob {
 		return job
 	}
 	return nil
+}
+
+// drain refuses new imports, gives the running uploads and jobs up to wait to finish, then
+// cancels them: an import stops at its next batch and rolls back (it is one transaction),
+// an upload stops reading, and each removes its temporary files. It returns once all have,
+// or when ctx ends first; interrupted reports whether any had to be cancelled.
+func (j *importJobs) drain(ctx context.Context, wait time.Duration) (interrupted bool, err error) {
+	j.mu.Lock()
+	j.closed = true
+	j.mu.Unlock()
+	done := make(chan struct{})
+	go func() {
+		j.wg.Wait()
+		close(done)
+	}()
+	timer := time.NewTimer(wait)
+	defer timer.Stop()
+	select {
+	case <-done:
+		j.cancel()
+		return false, nil
+	case <-timer.C:
+	case <-ctx.Done():
+	}
+	j.cancel()
+	select {
+	case <-done:
+		return true, nil
+	case <-ctx.Done():
+		return true, ctx.Err()
+	}
 }
 
 // importView is what the import page and its status fragment show.
@@ -138,8 +191,16 @@ func (s *Server) importPage(w http.ResponseWriter, r *http.Request) {
 func (s *Server) importSubmit(w http.ResponseWriter, r *http.Request) {
 	p := currentProject(r)
 	u, _ := currentUser(r)
+	if !s.jobs.hold() {
+		s.fail(w, r, http.StatusServiceUnavailable, "The server is stopping; send the import again once it is back.")
+		return
+	}
+	defer s.jobs.release()
+	// A stop that cannot wait for the upload ends its reading (and so its temporary files).
+	stop := context.AfterFunc(s.jobs.ctx, func() { http.NewResponseController(w).SetReadDeadline(time.Now()) })
+	defer stop()
 	r.Body = http.MaxBytesReader(w, r.Body, maxUpload)
-	form, tmp, err := receiveUpload(r)
+	form, tmp, err := receiveUpload(r, s.opts.UploadDir)
 	if err != nil {
 		removeAll(tmp)
 		v := importView{Kinds: store.ImportKinds, Problem: err.Error(), Defaults: form}
@@ -153,8 +214,17 @@ func (s *Server) importSubmit(w http.ResponseWriter, r *http.Request) {
 		job.files = append(job.files, f.name)
 		job.total += f.size
 	}
-	jobs.add(job)
-	go s.runImportJob(job, u.ID, spec, tmp)
+	s.jobs.add(job)
+	if !s.jobs.hold() { // the server began to stop during the upload
+		removeAll(tmp)
+		job.finish(store.ImportReport{}, errInterrupted)
+		s.fail(w, r, http.StatusServiceUnavailable, "The server is stopping; send the import again once it is back.")
+		return
+	}
+	go func() {
+		defer s.jobs.release()
+		s.runImportJob(s.jobs.ctx, job, u.ID, spec, tmp)
+	}()
 	http.Redirect(w, r, fmt.Sprintf("/projects/%d/import/%s", p.ID, job.id), http.StatusSeeOther)
 }
 
@@ -172,7 +242,7 @@ func removeAll(tmp []upload) {
 
 // receiveUpload reads the multipart form part by part: fields into the form, each file
 // straight to a temporary file.
-func receiveUpload(r *http.Request) (importForm, []upload, error) {
+func receiveUpload(r *http.Request, dir string) (importForm, []upload, error) {
 	form := importForm{Depth: store.DefaultPoolDepth}
 	var tmp []upload
 	mr, err := r.MultipartReader()
@@ -192,7 +262,7 @@ func receiveUpload(r *http.Request) (importForm, []upload, error) {
 				part.Close()
 				continue
 			}
-			up, err := saveFile(part)
+			up, err := saveFile(part, dir)
 			part.Close()
 			if up.path != "" {
 				tmp = append(tmp, up)
@@ -235,9 +305,9 @@ func receiveUpload(r *http.Request) (importForm, []upload, error) {
 	return form, tmp, nil
 }
 
-func saveFile(part *multipart.Part) (upload, error) {
+func saveFile(part *multipart.Part, dir string) (upload, error) {
 	up := upload{name: filepath.Base(part.FileName())}
-	f, err := os.CreateTemp("", "pertinent-import-*")
+	f, err := os.CreateTemp(dir, "pertinent-import-*")
 	if err != nil {
 		return up, err
 	}
@@ -264,7 +334,10 @@ func (c countingReader) Read(p []byte) (int, error) {
 	return n, err
 }
 
-func (s *Server) runImportJob(job *importJob, by int64, spec store.ImportSpec, tmp []upload) {
+// errInterrupted is what a job reports when the server stopped before it finished.
+var errInterrupted = errors.New("interrupted by a stop of the server")
+
+func (s *Server) runImportJob(ctx context.Context, job *importJob, by int64, spec store.ImportSpec, tmp []upload) {
 	defer removeAll(tmp)
 	var files []store.ImportFile
 	var rep store.ImportReport
@@ -279,8 +352,22 @@ func (s *Server) runImportJob(job *importJob, by int64, spec store.ImportSpec, t
 		files = append(files, store.ImportFile{Name: up.name, R: countingReader{f, &job.read}})
 	}
 	if err == nil {
-		rep, err = s.store.Import(context.Background(), job.projectID, by, spec, files)
+		rep, err = s.store.Import(ctx, job.projectID, by, spec, files)
 	}
+	var ps *ingest.Problems
+	var se *store.Error
+	switch {
+	case err == nil, errors.As(err, &ps), errors.As(err, &se):
+	case ctx.Err() != nil:
+		err = errInterrupted
+	default:
+		s.log.Error("import failed", "project", job.projectID, "err", err)
+	}
+	job.finish(rep, err)
+}
+
+// finish records a job's outcome for its status page.
+func (job *importJob) finish(rep store.ImportReport, err error) {
 	job.mu.Lock()
 	defer job.mu.Unlock()
 	job.done, job.finished, job.report = true, time.Now(), rep
@@ -291,8 +378,9 @@ func (s *Server) runImportJob(job *importJob, by int64, spec store.ImportSpec, t
 		job.problems = ps
 	case errors.As(err, &se):
 		job.failure = se.Message
+	case errors.Is(err, errInterrupted):
+		job.failure = "The import was interrupted because the server stopped; nothing was changed."
 	case err != nil:
-		s.log.Error("import failed", "project", job.projectID, "err", err)
 		job.failure = "The import failed on our side; nothing was changed."
 	}
 }
@@ -306,7 +394,7 @@ func newJobID() string {
 // importStatus shows a job: the whole page, or with htmx the status fragment it polls.
 func (s *Server) importStatus(w http.ResponseWriter, r *http.Request) {
 	p := currentProject(r)
-	job := jobs.get(chi.URLParam(r, "job"), p.ID)
+	job := s.jobs.get(chi.URLParam(r, "job"), p.ID)
 	if job == nil {
 		s.fail(w, r, http.StatusNotFound, "There is no such import (imports are kept for an hour after they finish).")
 		return

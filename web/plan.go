@@ -19,7 +19,7 @@ func (s *Server) planRoutes(r chi.Router) {
 	r.Use(s.requireProjectRole(store.RoleLead))
 	r.Get("/plan", s.planPage)
 	r.Post("/plan", s.planSubmit)
-	r.Post("/plan/runs", s.planKeepRuns)
+	r.With(s.longTransfer).Post("/plan/runs", s.planKeepRuns)
 	r.Get("/plan/{design}", s.designPage)
 	r.Post("/plan/{design}/advance", s.designAdvance)
 }

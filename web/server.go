@@ -4,6 +4,7 @@
 package web
 
 import (
+	"cmp"
 	"context"
 	"embed"
 	"fmt"
@@ -33,6 +34,18 @@ type Options struct {
 	// SessionTTL is how long a sign-in lasts; zero means 12 hours.
 	SessionTTL time.Duration
 	Logger     *slog.Logger
+	// ReadTimeout and WriteTimeout bound reading a whole request and writing its response
+	// (HTTPServer); zero means 60 seconds each.
+	ReadTimeout, WriteTimeout time.Duration
+	// TransferTimeout replaces both on the routes that move large files: import uploads,
+	// export downloads and run uploads. Zero means one hour.
+	TransferTimeout time.Duration
+	// UploadDir holds an import's uploaded files until its job ends; empty means the
+	// system's temporary directory.
+	UploadDir string
+	// ImportWait is how long Shutdown lets running imports finish before it interrupts
+	// them; zero means 30 seconds.
+	ImportWait time.Duration
 }
 
 // Server is the HTTP side of pertinent.
@@ -44,6 +57,7 @@ type Server struct {
 	cookies  *sessions.CookieStore
 	throttle *throttle
 	router   chi.Router
+	jobs     *importJobs // imports: uploads in progress, running and finished jobs
 
 	guidelines guidelinesCache // rendered guidelines by revision (markdown.go)
 	controls   controlsCache   // the judging form's buttons by scale (judge.go)
@@ -57,6 +71,10 @@ func New(ctx context.Context, st *store.Store, opts Options) (*Server, error) {
 	if opts.SessionTTL == 0 {
 		opts.SessionTTL = 12 * time.Hour
 	}
+	opts.ReadTimeout = cmp.Or(opts.ReadTimeout, defaultReadTimeout)
+	opts.WriteTimeout = cmp.Or(opts.WriteTimeout, defaultWriteTimeout)
+	opts.TransferTimeout = cmp.Or(opts.TransferTimeout, defaultTransferTimeout)
+	opts.ImportWait = cmp.Or(opts.ImportWait, 30*time.Second)
 	hashKey, blockKey, err := st.SessionKeys(ctx)
 	if err != nil {
 		return nil, fmt.Errorf("web: session keys: %w", err)
@@ -67,9 +85,21 @@ func New(ctx context.Context, st *store.Store, opts Options) (*Server, error) {
 	}
 	cs := sessions.NewCookieStore(hashKey, blockKey)
 	cs.Options = &sessions.Options{Path: "/", MaxAge: int(opts.SessionTTL.Seconds()), HttpOnly: true, SameSite: http.SameSiteLaxMode}
-	s := &Server{store: st, log: opts.Logger, opts: opts, pages: p, cookies: cs, throttle: newThrottle()}
+	s := &Server{store: st, log: opts.Logger, opts: opts, pages: p, cookies: cs, throttle: newThrottle(), jobs: newImportJobs(ctx)}
 	s.router = s.routes()
 	return s, nil
+}
+
+// Shutdown stops the server's background imports: no new one starts, running ones get
+// Options.ImportWait to finish, then are interrupted, roll back and remove their uploaded
+// files. It returns when all have, or when ctx ends first. Call it after the http.Server's
+// own Shutdown.
+func (s *Server) Shutdown(ctx context.Context) error {
+	interrupted, err := s.jobs.drain(ctx, s.opts.ImportWait)
+	if interrupted {
+		s.log.WarnContext(ctx, "imports still running at the stop were interrupted and rolled back")
+	}
+	return err
 }
 
 // ServeHTTP makes Server an http.Handler.
@@ -119,7 +149,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)
 				r.Post("/pairs/{pair}/adjudicate", s.adjudicateSubmit)
 				r.Get("/import", s.importPage)
-				r.Post("/import", s.importSubmit)
+				r.With(s.longTransfer).Post("/import", s.importSubmit)
 				r.Get("/import/{job}", s.importStatus)
 			})
 			r.Group(s.projectAdminRoutes)

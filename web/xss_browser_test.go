@@ -235,7 +235,7 @@ func (p *xssPass) run() {
 		t.Fatalf("the self-check payload did not run: the test could not see an attack either (%v)", err)
 	}
 	for range 100 {
-		if len(h.rec.hits) > 0 {
+		if h.rec.seen() > 0 {
 			break
 		}
 		time.Sleep(50 * time.Millisecond)

@@ -104,14 +104,7 @@ func serve(ctx context.Context, st *store.Store, f serverFlags, log *slog.Logger
 		}
 		defer stop()
 	}
-	srv := &http.Server{
-		Handler:           h,
-		ReadHeaderTimeout: 10 * time.Second,
-		ReadTimeout:       60 * time.Second,
-		WriteTimeout:      60 * time.Second,
-		IdleTimeout:       120 * time.Second,
-		ErrorLog:          slog.NewLogLogger(log.Handler(), slog.LevelWarn),
-	}
+	srv := h.HTTPServer() // general timeouts; import uploads and exports extend their own
 	errc := make(chan error, 1)
 	go func() { errc <- srv.Serve(ln) }()
 	go warmDesks(ctx, st, log)
@@ -124,7 +117,15 @@ func serve(ctx context.Context, st *store.Store, f serverFlags, log *slog.Logger
 	log.Info("shutting down: finishing requests in flight")
 	shutCtx, cancel := context.WithTimeout(context.Background(), 15*time.Second)
 	defer cancel()
-	if err := srv.Shutdown(shutCtx); err != nil {
+	err = srv.Shutdown(shutCtx)
+	// Then the imports running in the background: 30 s to finish, then rolled back; a
+	// minute in all, so a stuck one cannot hold the stop forever.
+	jobCtx, cancelJobs := context.WithTimeout(context.Background(), time.Minute)
+	defer cancelJobs()
+	if jerr := h.Shutdown(jobCtx); err == nil {
+		err = jerr
+	}
+	if err != nil {
 		return err
 	}
 	if err := <-errc; !errors.Is(err, http.ErrServerClosed) {
