@@ -3,6 +3,7 @@ package web
 import (
 	"fmt"
 	"net/http"
+	"strconv"
 	"time"
 
 	"github.com/pertinent/pertinent/store"
@@ -74,4 +75,30 @@ func (s *Server) myWorkChange(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	s.render(w, r, http.StatusOK, "mine", "mywork", s.newView(r, "", d))
+}
+
+type feedbackData struct {
+	Items []store.FeedbackItem
+	CSV   string
+}
+
+// feedbackPage shows an assessor where their grade differed from the final grade, with the
+// lead's rationale; nothing about the other assessors.
+func (s *Server) feedbackPage(w http.ResponseWriter, r *http.Request) {
+	u, _ := currentUser(r)
+	items, err := s.store.Feedback(r.Context(), currentProject(r).ID, u.ID)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	if wantsCSV(r) {
+		var rows [][]string
+		for _, f := range items {
+			rows = append(rows, []string{f.Query.ExternalID, f.Query.Text, f.Document.ExternalID, f.Document.Title,
+				strconv.Itoa(f.Grade), strconv.Itoa(f.FinalGrade), f.Rationale, f.At.Format(time.RFC3339)})
+		}
+		writeCSV(w, "feedback", []string{"query", "query_text", "document", "title", "your_grade", "final_grade", "rationale", "adjudicated_at"}, rows)
+		return
+	}
+	s.render(w, r, http.StatusOK, "feedback", "", s.newView(r, "Feedback: "+currentProject(r).Name, feedbackData{Items: items, CSV: csvURL(r, "")}))
 }
