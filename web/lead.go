@@ -1,7 +1,6 @@
 package web
 
 import (
-	"encoding/csv"
 	"net/http"
 	"strconv"
 
@@ -63,36 +62,6 @@ func seconds(ms int) string {
 
 func figMs(name string, ms int) figure {
 	return figure{Name: name, OK: true, Text: seconds(ms), Value: strconv.Itoa(ms)}
-}
-
-// wantsCSV tells whether the request asks for the page's table as CSV.
-func wantsCSV(r *http.Request) bool { return r.URL.Query().Get("format") == "csv" }
-
-// writeCSV sends one table as a CSV download.
-func writeCSV(w http.ResponseWriter, name string, header []string, rows [][]string) {
-	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
-	w.Header().Set("Content-Disposition", `attachment; filename="`+name+`.csv"`)
-	w.Header().Set("Cache-Control", "no-store")
-	cw := csv.NewWriter(w)
-	cw.Write(header)
-	cw.WriteAll(rows)
-}
-
-func csvValue(v agreement.Value) string {
-	if !v.OK {
-		return ""
-	}
-	return strconv.FormatFloat(v.V, 'g', -1, 64)
-}
-
-// csvURL is the current page's address asking for one of its tables as CSV.
-func csvURL(r *http.Request, table string) string {
-	q := r.URL.Query()
-	q.Set("format", "csv")
-	if table != "" {
-		q.Set("table", table)
-	}
-	return r.URL.Path + "?" + q.Encode()
 }
 
 func (s *Server) desk(w http.ResponseWriter, r *http.Request) (*store.Desk, bool) {

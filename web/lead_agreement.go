@@ -27,17 +27,20 @@ type queryRow struct {
 }
 
 type agreementData struct {
-	Heat      heatMap
-	Pairs     []pairRow
-	Alphas    []figure
-	Grades    []gradeRow
-	Queries   []queryRow
-	Sort      string
-	Sorts     []sortLink
-	CSVPairs  string
-	CSVGrades string
-	CSVQuery  string
-	Report    agreement.Report
+	Heat    heatMap
+	Pairs   []pairRow
+	Alphas  []figure
+	Grades  []gradeRow
+	Queries []queryRow
+	Sort    string
+	Sorts   []sortLink
+	Tables  agreementTables
+	Report  agreement.Report
+}
+
+// agreementTables are the agreement page's downloads.
+type agreementTables struct {
+	Pairs, Alphas, Grades, Queries table
 }
 
 type sortLink struct {
@@ -62,7 +65,7 @@ func (s *Server) agreementPage(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
-	data := agreementData{Report: rep, Sort: sortKey, CSVPairs: csvURL(r, "pairs"), CSVGrades: csvURL(r, "grades"), CSVQuery: csvURL(r, "queries")}
+	data := agreementData{Report: rep, Sort: sortKey}
 	names := d.Data.RaterNames()
 	at := map[string]int{}
 	for i, n := range names {
@@ -101,26 +104,25 @@ func (s *Server) agreementPage(w http.ResponseWriter, r *http.Request) {
 	for _, k := range [][2]string{{"alpha", "alpha"}, {"agreement", "exact agreement"}, {"spread", "mean spread"}, {"pairs", "pairs"}, {"query", "query id"}} {
 		data.Sorts = append(data.Sorts, sortLink{Key: k[0], Label: k[1], Href: "?sort=" + k[0], Current: k[0] == sortKey})
 	}
-	if wantsCSV(r) {
-		var rows [][]string
-		switch r.URL.Query().Get("table") {
-		case "grades":
-			for _, g := range rep.Fleiss.PerGrade {
-				rows = append(rows, []string{strconv.Itoa(g.Grade), strconv.FormatFloat(g.Proportion, 'g', -1, 64), csvValue(g.Kappa), csvValue(g.SE)})
-			}
-			writeCSV(w, "fleiss-per-grade", []string{"grade", "share", "kappa", "null_se"}, rows)
-		case "queries":
-			for _, q := range queries {
-				rows = append(rows, []string{q.Query.ExternalID, q.Query.Text, strconv.Itoa(q.Pairs), strconv.Itoa(q.Pairable), strconv.Itoa(q.Judgments),
-					csvValue(q.Alpha), csvValue(q.PercentAgreement), csvValue(q.MeanSpread)})
-			}
-			writeCSV(w, "query-agreement", []string{"query", "text", "pairs", "pairable", "grades", "alpha_ordinal", "exact_agreement", "mean_spread"}, rows)
-		default:
-			for _, p := range rep.Cohen {
-				rows = append(rows, []string{p.A, p.B, strconv.Itoa(p.N), csvValue(p.Kappa), csvValue(p.KappaLinear), csvValue(p.KappaQuadratic), csvValue(p.Agreement)})
-			}
-			writeCSV(w, "cohen-pairs", []string{"a", "b", "n", "kappa", "kappa_linear", "kappa_quadratic", "agreement"}, rows)
-		}
+	t := &data.Tables
+	t.Pairs = table{Name: "pairs", File: "cohen-pairs", Columns: cols("a", "", "b", "", "n", "", "kappa", "", "kappa_linear", "", "kappa_quadratic", "", "agreement", "")}
+	for _, p := range rep.Cohen {
+		t.Pairs.Rows = append(t.Pairs.Rows, []string{p.A, p.B, strconv.Itoa(p.N), csvValue(p.Kappa), csvValue(p.KappaLinear), csvValue(p.KappaQuadratic), csvValue(p.Agreement)})
+	}
+	t.Alphas = table{Name: "alphas", File: "krippendorff-alpha", Columns: cols("metric", "", "alpha", "")}
+	for _, m := range agreement.Metrics {
+		t.Alphas.Rows = append(t.Alphas.Rows, []string{m.String(), csvValue(rep.KrippendorffAlpha.Get(m))})
+	}
+	t.Grades = table{Name: "grades", File: "fleiss-per-grade", Columns: cols("grade", "", "share", "", "kappa", "", "null_se", "")}
+	for _, g := range rep.Fleiss.PerGrade {
+		t.Grades.Rows = append(t.Grades.Rows, []string{strconv.Itoa(g.Grade), csvFloat(g.Proportion), csvValue(g.Kappa), csvValue(g.SE)})
+	}
+	t.Queries = table{Name: "queries", File: "query-agreement", Columns: cols("query", "", "text", "", "pairs", "", "pairable", "", "grades", "", "alpha_ordinal", "", "exact_agreement", "", "mean_spread", "")}
+	for _, q := range queries {
+		t.Queries.Rows = append(t.Queries.Rows, []string{q.Query.ExternalID, q.Query.Text, strconv.Itoa(q.Pairs), strconv.Itoa(q.Pairable), strconv.Itoa(q.Judgments),
+			csvValue(q.Alpha), csvValue(q.PercentAgreement), csvValue(q.MeanSpread)})
+	}
+	if s.offerTables(w, r, &t.Pairs, &t.Alphas, &t.Grades, &t.Queries) {
 		return
 	}
 	s.render(w, r, http.StatusOK, "agreement", "", s.newView(r, "Agreement: "+currentProject(r).Name, data))

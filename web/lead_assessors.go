@@ -27,7 +27,7 @@ type assessorRow struct {
 type assessorsData struct {
 	Rows   []assessorRow
 	Window int
-	CSV    string
+	Table  table
 }
 
 func (s *Server) assessorsPage(w http.ResponseWriter, r *http.Request) {
@@ -35,7 +35,7 @@ func (s *Server) assessorsPage(w http.ResponseWriter, r *http.Request) {
 	if !ok {
 		return
 	}
-	data := assessorsData{Window: store.DriftWindow, CSV: csvURL(r, "")}
+	data := assessorsData{Window: store.DriftWindow}
 	for _, a := range d.Assessors {
 		u := a.Username
 		row := assessorRow{AssessorFigures: a,
@@ -63,19 +63,15 @@ func (s *Server) assessorsPage(w http.ResponseWriter, r *http.Request) {
 		row.Chart = newBarChart("grades-"+strconv.FormatInt(a.UserID, 10), "Grades given by "+u, row.GradeText, labels, a.Grades, 90, 28, true)
 		data.Rows = append(data.Rows, row)
 	}
-	if wantsCSV(r) {
-		var rows [][]string
-		for _, x := range data.Rows {
-			grades := make([]string, len(x.Grades))
-			for i, n := range x.Grades {
-				grades[i] = strconv.Itoa(n)
-			}
-			rows = append(rows, []string{x.Username, strconv.Itoa(x.Judgments), strconv.Itoa(x.MedianMs), strconv.FormatFloat(x.CannotShare, 'g', -1, 64),
-				strings.Join(grades, " "), csvValue(x.Stats.MeanKappaQuadratic), csvValue(x.Stats.ConsensusAgreement), csvValue(x.Stats.ConsensusMAE),
-				csvValue(x.Stats.GoldAccuracy), csvValue(x.Stats.GoldMAE), csvValue(x.DriftRecent), csvValue(x.DriftEarlier), csvValue(x.Drift)})
-		}
-		writeCSV(w, "assessors", []string{"assessor", "judgments", "median_ms", "cannot_judge_share", "grade_counts", "mean_quadratic_kappa",
-			"consensus_agreement", "consensus_mae", "gold_accuracy", "gold_mae", "recent_consensus_agreement", "earlier_consensus_agreement", "drift"}, rows)
+	data.Table = table{Name: "assessors", File: "assessors", Columns: cols("assessor", "", "judgments", "", "median_ms", "", "cannot_judge_share", "",
+		"grade_counts", "", "mean_quadratic_kappa", "", "consensus_agreement", "", "consensus_mae", "", "gold_accuracy", "", "gold_mae", "",
+		"recent_consensus_agreement", "", "earlier_consensus_agreement", "", "drift", "")}
+	for _, x := range data.Rows {
+		data.Table.Rows = append(data.Table.Rows, []string{x.Username, strconv.Itoa(x.Judgments), strconv.Itoa(x.MedianMs), csvFloat(x.CannotShare),
+			gradeList(x.Grades), csvValue(x.Stats.MeanKappaQuadratic), csvValue(x.Stats.ConsensusAgreement), csvValue(x.Stats.ConsensusMAE),
+			csvValue(x.Stats.GoldAccuracy), csvValue(x.Stats.GoldMAE), csvValue(x.DriftRecent), csvValue(x.DriftEarlier), csvValue(x.Drift)})
+	}
+	if s.offerTables(w, r, &data.Table) {
 		return
 	}
 	s.render(w, r, http.StatusOK, "assessors", "", s.newView(r, "Assessors: "+currentProject(r).Name, data))
@@ -136,7 +132,7 @@ type assessorData struct {
 	Figures    store.AssessorFigures
 	Consensus  matrix
 	Colleagues []colleague
-	CSV        string
+	Table      table
 }
 
 func (s *Server) assessorPage(w http.ResponseWriter, r *http.Request) {
@@ -158,25 +154,24 @@ func (s *Server) assessorPage(w http.ResponseWriter, r *http.Request) {
 			t[i][j] = int64(n)
 		}
 	}
-	data := assessorData{Figures: a, Consensus: newMatrix(a.Username+"'s grade (rows) against consensus (columns)", "consensus", t), CSV: csvURL(r, "")}
+	data := assessorData{Figures: a, Consensus: newMatrix(a.Username+"'s grade (rows) against consensus (columns)", "consensus", t)}
 	for _, p := range d.ColleagueKappas(a.Username) {
 		data.Colleagues = append(data.Colleagues, colleague{Pair: p, Kappa: figV("kappa:"+p.B, p.KappaQuadratic, 3),
 			Matrix: newMatrix(a.Username+" (rows) against "+p.B+" (columns)", p.B, p.Table)})
 	}
-	if wantsCSV(r) {
-		var rows [][]string
-		add := func(against string, t [][]int64) {
-			for g, row := range t {
-				for h, n := range row {
-					rows = append(rows, []string{against, strconv.Itoa(g), strconv.Itoa(h), strconv.FormatInt(n, 10)})
-				}
+	data.Table = table{Name: "confusion", File: "confusion-" + a.Username, Columns: cols("against", "", "grade", "", "other_grade", "", "pairs", "")}
+	add := func(against string, t [][]int64) {
+		for g, row := range t {
+			for h, n := range row {
+				data.Table.Rows = append(data.Table.Rows, []string{against, strconv.Itoa(g), strconv.Itoa(h), strconv.FormatInt(n, 10)})
 			}
 		}
-		add("consensus", t)
-		for _, c := range data.Colleagues {
-			add(c.Pair.B, c.Pair.Table)
-		}
-		writeCSV(w, "confusion-"+a.Username, []string{"against", "grade", "other_grade", "pairs"}, rows)
+	}
+	add("consensus", t)
+	for _, c := range data.Colleagues {
+		add(c.Pair.B, c.Pair.Table)
+	}
+	if s.offerTables(w, r, &data.Table) {
 		return
 	}
 	s.render(w, r, http.StatusOK, "assessor", "", s.newView(r, a.Username+": "+currentProject(r).Name, data))

@@ -36,12 +36,16 @@ type overviewData struct {
 	Flagged     figure
 	Replicates  int
 	Background  bool
-	CSVFigures  string
-	CSVDays     string
+	Tables      overviewTables
 	PairsWithJ  int
 	GeneratedIn string
 	// FlaggedPairs lists pairs answered "cannot judge", disturbing ones first; never who flagged.
 	FlaggedPairs []flaggedRow
+}
+
+// overviewTables are the overview's downloads; the page draws figures and flagged pairs itself.
+type overviewTables struct {
+	Figures, Days, Flagged table
 }
 
 type flaggedRow struct {
@@ -84,7 +88,6 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 		TimeMedian: figMs("time-median", d.TimeMedianMs), TimeQ1: figMs("time-q1", d.TimeQ1Ms), TimeQ3: figMs("time-q3", d.TimeQ3Ms),
 		Flagged:    figN("flagged", d.Flagged),
 		Replicates: d.BootstrapCount, Background: d.Background(),
-		CSVFigures: csvURL(r, "figures"), CSVDays: csvURL(r, "days"),
 		GeneratedIn: d.BuildTook.Round(time.Millisecond).String(),
 	}
 	flagged, err := s.store.FlaggedPairs(r.Context(), currentProject(r).ID, 100)
@@ -102,25 +105,25 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 	}
 	data.PerDay = newBarChart("perday", "Judgments per day", fmt.Sprintf("%d days from %s; the numbers are in the table beside.", len(labels), first(labels)), labels, counts, 560, 160, false)
 
-	if wantsCSV(r) {
-		if r.URL.Query().Get("table") == "days" {
-			rows := make([][]string, len(d.PerDay))
-			for i, c := range d.PerDay {
-				rows[i] = []string{c.Day, strconv.Itoa(c.Judgments)}
-			}
-			writeCSV(w, "judgments-per-day", []string{"day", "judgments"}, rows)
-			return
-		}
-		var rows [][]string
-		for _, f := range data.Figures {
-			rows = append(rows, []string{f.Name, f.Value, "", "", "", ""})
-		}
-		rows = append(rows, []string{"time-per-judgment-ms", strconv.Itoa(d.TimeMedianMs), strconv.Itoa(d.TimeQ1Ms), strconv.Itoa(d.TimeQ3Ms), "", "median; interquartile range"},
-			[]string{"flagged", strconv.Itoa(d.Flagged), "", "", "", ""})
-		for _, h := range data.Headline {
-			rows = append(rows, []string{h.Value.Name, h.Value.Value, h.Lo.Value, h.Hi.Value, h.Band, h.Interval})
-		}
-		writeCSV(w, "overview", []string{"figure", "value", "lo", "hi", "band", "note"}, rows)
+	t := &data.Tables
+	t.Figures = table{Name: "figures", File: "overview", Columns: cols("figure", "", "value", "", "lo", "", "hi", "", "band", "", "note", "")}
+	for _, f := range data.Figures {
+		t.Figures.Rows = append(t.Figures.Rows, []string{f.Name, f.Value, "", "", "", ""})
+	}
+	t.Figures.Rows = append(t.Figures.Rows, []string{"time-per-judgment-ms", strconv.Itoa(d.TimeMedianMs), strconv.Itoa(d.TimeQ1Ms), strconv.Itoa(d.TimeQ3Ms), "", "median; interquartile range"},
+		[]string{"flagged", strconv.Itoa(d.Flagged), "", "", "", ""})
+	for _, h := range data.Headline {
+		t.Figures.Rows = append(t.Figures.Rows, []string{h.Value.Name, h.Value.Value, h.Lo.Value, h.Hi.Value, h.Band, h.Interval})
+	}
+	t.Days = table{Name: "days", File: "judgments-per-day", Class: "compact", Columns: []column{{Key: "day", Label: "Day (UTC)"}, {Key: "judgments", Label: "Judgments", Class: "num"}}}
+	for _, c := range d.PerDay {
+		t.Days.Rows = append(t.Days.Rows, []string{c.Day, strconv.Itoa(c.Judgments)})
+	}
+	t.Flagged = table{Name: "flagged", File: "flagged-pairs", Columns: cols("pair", "", "query", "", "document", "", "reason", "", "assessors", "")}
+	for _, f := range data.FlaggedPairs {
+		t.Flagged.Rows = append(t.Flagged.Rows, []string{strconv.FormatInt(f.PairID, 10), f.QueryText, f.DocumentTitle, f.Reason, strconv.Itoa(f.Count)})
+	}
+	if s.offerTables(w, r, &t.Figures, &t.Days, &t.Flagged) {
 		return
 	}
 	s.render(w, r, http.StatusOK, "overview", "", s.newView(r, "Overview: "+currentProject(r).Name, data))

@@ -57,17 +57,17 @@ func (s *Server) queuePage(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
-	if wantsCSV(r) {
-		var rows [][]string
-		for _, it := range items {
-			rows = append(rows, []string{strconv.FormatInt(it.PairID, 10), it.Query.ExternalID, it.Query.Text, strconv.Itoa(it.Severity),
-				strconv.FormatBool(it.Flagged), strconv.FormatBool(it.GoldMiss), strconv.Itoa(it.Spread), strconv.FormatFloat(it.Variance, 'g', -1, 64),
-				gradeList(it.Grades), strconv.Itoa(it.Cannot), strconv.FormatBool(it.Reopened)})
-		}
-		writeCSV(w, "disagreement-queue", []string{"pair", "query", "query_text", "severity", "flagged", "gold_miss", "spread", "variance", "grades", "cannot_judge", "reopened"}, rows)
+	tab := table{Name: "queue", File: "disagreement-queue", Columns: cols("pair", "", "query", "", "query_text", "", "severity", "", "flagged", "",
+		"gold_miss", "", "spread", "", "variance", "", "grades", "", "cannot_judge", "", "reopened", "")}
+	for _, it := range items {
+		tab.Rows = append(tab.Rows, []string{strconv.FormatInt(it.PairID, 10), it.Query.ExternalID, it.Query.Text, strconv.Itoa(it.Severity),
+			strconv.FormatBool(it.Flagged), strconv.FormatBool(it.GoldMiss), strconv.Itoa(it.Spread), csvFloat(it.Variance),
+			gradeList(it.Grades), strconv.Itoa(it.Cannot), strconv.FormatBool(it.Reopened)})
+	}
+	if s.offerTables(w, r, &tab) {
 		return
 	}
-	data := queueData{Total: len(items), Filter: f, Scale: d.Scale, FlagWeight: 2 * d.Scale, CSV: csvURL(r, ""), Self: r.URL.RequestURI()}
+	data := queueData{Total: len(items), Filter: f, Scale: d.Scale, FlagWeight: 2 * d.Scale, CSV: tab.Href, Self: r.URL.RequestURI()}
 	if data.Queries, err = s.store.DeskQueries(r.Context(), d); err != nil {
 		s.storeError(w, r, err)
 		return

@@ -100,14 +100,13 @@ func (s *Server) feedbackPage(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
-	if wantsCSV(r) {
-		var rows [][]string
-		for _, f := range items {
-			rows = append(rows, []string{f.Query.ExternalID, f.Query.Text, f.Document.ExternalID, f.Document.Title,
-				strconv.Itoa(f.Grade), strconv.Itoa(f.FinalGrade), f.Rationale, f.At.Format(time.RFC3339)})
-		}
-		writeCSV(w, "feedback", []string{"query", "query_text", "document", "title", "your_grade", "final_grade", "rationale", "adjudicated_at"}, rows)
+	tab := table{Name: "feedback", File: "feedback", Columns: cols("query", "", "query_text", "", "document", "", "title", "", "your_grade", "", "final_grade", "", "rationale", "", "adjudicated_at", "")}
+	for _, f := range items {
+		tab.Rows = append(tab.Rows, []string{f.Query.ExternalID, f.Query.Text, f.Document.ExternalID, f.Document.Title,
+			strconv.Itoa(f.Grade), strconv.Itoa(f.FinalGrade), f.Rationale, f.At.Format(time.RFC3339)})
+	}
+	if s.offerTables(w, r, &tab) {
 		return
 	}
-	s.render(w, r, http.StatusOK, "feedback", "", s.newView(r, "Feedback: "+currentProject(r).Name, feedbackData{Items: items, CSV: csvURL(r, "")}))
+	s.render(w, r, http.StatusOK, "feedback", "", s.newView(r, "Feedback: "+currentProject(r).Name, feedbackData{Items: items, CSV: tab.Href}))
 }
