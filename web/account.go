@@ -11,6 +11,7 @@ import (
 
 // accountRoutes are a signed-in user's own pages.
 func (s *Server) accountRoutes(r chi.Router) {
+	r.Post("/signout", s.signout)
 	r.Get("/account", s.accountPage)
 	r.Post("/account/password", s.changePassword)
 }

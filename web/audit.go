@@ -1,7 +1,7 @@
 package web
 
 import (
-	"encoding/csv"
+	"context"
 	"net/http"
 	"net/url"
 	"strconv"
@@ -92,9 +92,17 @@ type auditData struct {
 
 func (s *Server) auditPage(w http.ResponseWriter, r *http.Request) {
 	q, f, msg := parseAuditQuery(r.URL.Query())
-	d := auditData{Query: q, Error: msg, Page: q.Page, CSV: "/admin/audit.csv"}
+	if wantsCSV(r) && msg != "" {
+		s.fail(w, r, http.StatusBadRequest, msg)
+		return
+	}
+	events := auditTable(r.Context(), s.store, f)
+	if s.offerTables(w, r, &events) {
+		return
+	}
+	d := auditData{Query: q, Error: msg, Page: q.Page, CSV: "/admin/audit?format=csv&table=audit"}
 	if enc := q.encode(1); enc != "" {
-		d.CSV += "?" + enc
+		d.CSV += "&" + enc
 	}
 	var err error
 	if d.Users, err = s.store.Users(r.Context()); err != nil {
@@ -129,36 +137,24 @@ func (s *Server) auditPage(w http.ResponseWriter, r *http.Request) {
 	s.render(w, r, status, "audit", "", s.newView(r, "Audit trail", d))
 }
 
-// auditCSV streams every event matching the filter as CSV, newest first.
+// auditTable is every event matching the filter, newest first, read while it downloads.
+func auditTable(ctx context.Context, st *store.Store, f store.AuditFilter) table {
+	return table{Name: "audit", File: "audit-trail", Columns: cols("id", "", "at", "", "actor", "", "project", "", "action", "", "target", "", "target_name", "", "detail", ""),
+		Stream: func(add func([]string) error) error {
+			return st.EachAuditEvent(ctx, f, func(e store.AuditEvent) error {
+				actor := e.Actor
+				if e.ActorID == 0 {
+					actor = "(command line)"
+				}
+				return add([]string{strconv.FormatInt(e.ID, 10), e.At.UTC().Format("2006-01-02T15:04:05.000Z07:00"), cell(actor), cell(e.Project),
+					e.Action, cell(e.Target), cell(e.TargetName), cell(e.Detail)})
+			})
+		}}
+}
+
+// auditCSV keeps the trail's former download address working.
 func (s *Server) auditCSV(w http.ResponseWriter, r *http.Request) {
-	_, f, msg := parseAuditQuery(r.URL.Query())
-	if msg != "" {
-		s.fail(w, r, http.StatusBadRequest, msg)
-		return
-	}
-	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
-	w.Header().Set("Content-Disposition", `attachment; filename="audit-trail.csv"`)
-	w.Header().Set("Cache-Control", "no-store")
-	cw := csv.NewWriter(w)
-	cw.Write([]string{"id", "at", "actor", "project", "action", "target", "target_name", "detail"})
-	n := 0
-	err := s.store.EachAuditEvent(r.Context(), f, func(e store.AuditEvent) error {
-		actor := e.Actor
-		if e.ActorID == 0 {
-			actor = "(command line)"
-		}
-		cw.Write([]string{strconv.FormatInt(e.ID, 10), e.At.UTC().Format("2006-01-02T15:04:05.000Z07:00"), cell(actor), cell(e.Project),
-			e.Action, cell(e.Target), cell(e.TargetName), cell(e.Detail)})
-		if n++; n%200 == 0 {
-			cw.Flush()
-		}
-		return cw.Error()
-	})
-	cw.Flush()
-	if err != nil {
-		// The header is sent; all that is left is to log and cut the download short.
-		s.log.ErrorContext(r.Context(), "audit export failed", "err", err)
-	}
+	s.auditPage(w, tableAlias(r, "audit"))
 }
 
 // cell defuses text that a spreadsheet would run as a formula (common practice for CSV

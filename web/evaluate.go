@@ -1,7 +1,6 @@
 package web
 
 import (
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"mime/multipart"
@@ -129,6 +128,7 @@ type evaluationData struct {
 	Diffs      []diffRow
 	MissingAll int
 	Notices    []string
+	PerQuery   table
 }
 
 func f4(v float64) string { return strconv.FormatFloat(v, 'f', 4, 64) }
@@ -159,7 +159,11 @@ func (s *Server) evaluationPage(w http.ResponseWriter, r *http.Request) {
 	if !ok {
 		return
 	}
-	d := evaluationData{Eval: ev, Metrics: store.ComparedMetrics, Notices: s.flashes(w, r, "notice")}
+	perQuery := perQueryTable(ev)
+	if s.offerTables(w, r, &perQuery) {
+		return
+	}
+	d := evaluationData{Eval: ev, Metrics: store.ComparedMetrics, Notices: s.flashes(w, r, "notice"), PerQuery: perQuery}
 	if k := ev.Summaries[0].Options.K; k > 0 {
 		d.At = "@" + strconv.Itoa(k)
 	}
@@ -199,32 +203,29 @@ func (s *Server) evaluationPage(w http.ResponseWriter, r *http.Request) {
 	s.render(w, r, http.StatusOK, "evaluation", "", s.newView(r, title, d))
 }
 
-// CSVHeader of the per-query table: one row per run and query.
-var evalCSVHeader = []string{"run", "query", "ndcg", "err", "precision", "ap", "judged", "retrieved", "k", "gain", "threshold"}
-
-func (s *Server) evaluationCSV(w http.ResponseWriter, r *http.Request) {
-	ev, ok := s.loadEvaluation(w, r)
-	if !ok {
-		return
-	}
-	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
-	w.Header().Set("Content-Disposition", fmt.Sprintf(`attachment; filename="evaluation-%d.csv"`, ev.ID))
-	cw := csv.NewWriter(w)
-	cw.Write(evalCSVHeader)
+// perQueryTable is an evaluation's per-query figures: one row per run and query.
+func perQueryTable(ev store.Evaluation) table {
+	t := table{Name: "per-query", File: fmt.Sprintf("evaluation-%d", ev.ID), Columns: cols("run", "", "query", "", "ndcg", "", "err", "", "precision", "",
+		"ap", "", "judged", "", "retrieved", "", "k", "", "gain", "", "threshold", "")}
 	empty := func(v float64, ok bool) string {
 		if !ok {
 			return ""
 		}
-		return strconv.FormatFloat(v, 'g', -1, 64)
+		return csvFloat(v)
 	}
 	for i, sum := range ev.Summaries {
 		o := sum.Options
 		for _, q := range sum.PerQuery {
-			cw.Write([]string{ev.Runs[i], q.Query, empty(q.NDCG, q.NDCGDefined), empty(q.ERR, true), empty(q.Precision, true),
+			t.Rows = append(t.Rows, []string{ev.Runs[i], q.Query, empty(q.NDCG, q.NDCGDefined), empty(q.ERR, true), empty(q.Precision, true),
 				empty(q.AP, q.APDefined), empty(q.Judged, true), strconv.Itoa(q.Retrieved), strconv.Itoa(o.K), sum.Gain, strconv.Itoa(o.Threshold)})
 		}
 	}
-	cw.Flush()
+	return t
+}
+
+// evaluationCSV keeps the per-query table's former address working.
+func (s *Server) evaluationCSV(w http.ResponseWriter, r *http.Request) {
+	s.evaluationPage(w, tableAlias(r, "per-query"))
 }
 
 // sendUnjudged adds the evaluation's unjudged top-k pairs to the project, highest ranked

@@ -3,10 +3,20 @@ package web
 import (
 	"fmt"
 	"net/http"
+	"strconv"
 	"time"
 
 	"github.com/pertinent/pertinent/store"
+
+	"github.com/go-chi/chi/v5"
 )
+
+// myWorkRoutes are an assessor's own judgments and the feedback on them.
+func (s *Server) myWorkRoutes(r chi.Router) {
+	r.Get("/mine", s.myWorkPage)
+	r.Post("/mine", s.myWorkChange)
+	r.Get("/feedback", s.feedbackPage)
+}
 
 // myWorkData is an assessor's own recent judgments: nothing of anyone else's.
 type myWorkData struct {
@@ -74,4 +84,29 @@ func (s *Server) myWorkChange(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	s.render(w, r, http.StatusOK, "mine", "mywork", s.newView(r, "", d))
+}
+
+type feedbackData struct {
+	Items []store.FeedbackItem
+	CSV   string
+}
+
+// feedbackPage shows an assessor where their grade differed from the final grade, with the
+// lead's rationale; nothing about the other assessors.
+func (s *Server) feedbackPage(w http.ResponseWriter, r *http.Request) {
+	u, _ := currentUser(r)
+	items, err := s.store.Feedback(r.Context(), currentProject(r).ID, u.ID)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	tab := table{Name: "feedback", File: "feedback", Columns: cols("query", "", "query_text", "", "document", "", "title", "", "your_grade", "", "final_grade", "", "rationale", "", "adjudicated_at", "")}
+	for _, f := range items {
+		tab.Rows = append(tab.Rows, []string{f.Query.ExternalID, f.Query.Text, f.Document.ExternalID, f.Document.Title,
+			strconv.Itoa(f.Grade), strconv.Itoa(f.FinalGrade), f.Rationale, f.At.Format(time.RFC3339)})
+	}
+	if s.offerTables(w, r, &tab) {
+		return
+	}
+	s.render(w, r, http.StatusOK, "feedback", "", s.newView(r, "Feedback: "+currentProject(r).Name, feedbackData{Items: items, CSV: tab.Href}))
 }

@@ -13,6 +13,7 @@ import (
 // adminRoutes are the installation-wide pages, behind requireAdmin: projects, people, and
 // the audit trail.
 func (s *Server) adminRoutes(r chi.Router) {
+	r.Get("/users", s.usersPage)
 	r.Get("/projects/new", s.newProjectPage)
 	r.Post("/projects", s.createProject)
 	r.Post("/users", s.createUser)

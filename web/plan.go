@@ -6,6 +6,7 @@ import (
 	"net/url"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/go-chi/chi/v5"
 
@@ -16,7 +17,6 @@ import (
 
 // planRoutes are the lead's "Plan judging" and "How sure are we?" pages.
 func (s *Server) planRoutes(r chi.Router) {
-	r.Use(s.requireProjectRole(store.RoleLead))
 	r.Get("/plan", s.planPage)
 	r.Post("/plan", s.planSubmit)
 	r.With(s.longTransfer).Post("/plan/runs", s.planKeepRuns)
@@ -131,6 +131,7 @@ type planData struct {
 	Preview *store.PlanOutcome
 	Error   string
 	Notices []string
+	KeptCSV string
 }
 
 func (s *Server) planPage(w http.ResponseWriter, r *http.Request) {
@@ -155,7 +156,14 @@ func (s *Server) renderPlan(w http.ResponseWriter, r *http.Request, status int, 
 			f.Runs[kr.ID] = true
 		}
 	}
-	data := planData{Form: f, Kept: kept, Designs: designs, Preview: preview, Error: msg, Notices: s.flashes(w, r, "plan")}
+	runs := table{Name: "runs", File: "kept-runs", Columns: cols("run", "", "entries", "", "queries", "", "kept_at", "", "by", "")}
+	for _, k := range kept {
+		runs.Rows = append(runs.Rows, []string{k.Name, strconv.Itoa(k.Entries), strconv.Itoa(k.Queries), k.CreatedAt.UTC().Format(time.RFC3339), k.By})
+	}
+	if r.Method == http.MethodGet && s.offerTables(w, r, &runs) {
+		return
+	}
+	data := planData{Form: f, Kept: kept, Designs: designs, Preview: preview, Error: msg, Notices: s.flashes(w, r, "plan"), KeptCSV: runs.Href}
 	s.render(w, r, status, "plan", "", s.newView(r, "Plan judging: "+p.Name, data))
 }
 
@@ -290,6 +298,42 @@ type designData struct {
 	QueriesError string
 	Notices      []string
 	Kind         string
+	Tables       designTables
+}
+
+// designTables are the downloads of "How sure are we?".
+type designTables struct {
+	Estimates, Differences, Power table
+}
+
+// intervalCells are an interval's columns in a download.
+func intervalCells(iv estimate.Interval) []string {
+	return []string{csvFloat(iv.Est), csvFloat(iv.SE), csvFloat(iv.Low), csvFloat(iv.High)}
+}
+
+func (d *designData) tables() []*table {
+	t := &d.Tables
+	t.Estimates = table{Name: "estimates", File: fmt.Sprintf("design-%d-estimates", d.Report.Design.ID), Columns: cols("run", "", "ndcg", "", "ndcg_se", "", "ndcg_low", "", "ndcg_high", "",
+		"ap", "", "ap_se", "", "ap_low", "", "ap_high", "", "judged_at_k", "", "rbp", "", "rbp_residual", "")}
+	for _, v := range d.Runs {
+		re := v.Run
+		row := append([]string{re.Run}, intervalCells(re.NDCG)...)
+		row = append(row, intervalCells(re.AP)...)
+		t.Estimates.Rows = append(t.Estimates.Rows, append(row, csvFloat(re.JudgedAtK), csvFloat(re.RBP), csvFloat(re.RBPResidual)))
+	}
+	t.Differences = table{Name: "differences", File: fmt.Sprintf("design-%d-differences", d.Report.Design.ID), Columns: cols("a", "", "b", "", "metric", "",
+		"diff", "", "diff_se", "", "diff_low", "", "diff_high", "", "prob_b_beats_a", "", "queries", "")}
+	for _, x := range d.Differences {
+		row := append([]string{x.A, x.B, x.Metric}, intervalCells(x.Diff)...)
+		t.Differences.Rows = append(t.Differences.Rows, append(row, csvFloat(x.ProbBBeatsA), strconv.Itoa(x.Queries)))
+	}
+	t.Power = table{Name: "power", File: fmt.Sprintf("design-%d-power", d.Report.Design.ID), Columns: cols("metric", "", "run_pairs", "", "significant", "", "share", "", "alpha", "")}
+	if d.QueryPlan != nil {
+		for _, p := range d.QueryPlan.Power {
+			t.Power.Rows = append(t.Power.Rows, []string{p.Metric, strconv.Itoa(p.Pairs), strconv.Itoa(p.Significant), csvFloat(p.Share), csvFloat(p.Alpha)})
+		}
+	}
+	return []*table{&t.Estimates, &t.Differences, &t.Power}
 }
 
 type designRunView struct {
@@ -323,7 +367,7 @@ func (s *Server) designPage(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	data := designData{Report: rep, Differences: rep.Estimates.Differences, Queries: readQueriesForm(r.URL.Query()),
-		Notices: s.flashes(w, r, "design"), Kind: kindName(rep.Design.Settings.Design.Kind)}
+		Kind: kindName(rep.Design.Settings.Design.Kind)}
 	for _, re := range rep.Estimates.Runs {
 		data.Runs = append(data.Runs, designRunView{Run: re, NDCG: interval(re.NDCG), AP: interval(re.AP),
 			Judged: f4(re.JudgedAtK), RBP: f4(re.RBP), Residue: f4(re.RBPResidual)})
@@ -340,6 +384,10 @@ func (s *Server) designPage(w http.ResponseWriter, r *http.Request) {
 	} else {
 		data.QueryPlan = &qp
 	}
+	if s.offerTables(w, r, data.tables()...) {
+		return
+	}
+	data.Notices = s.flashes(w, r, "design")
 	s.render(w, r, http.StatusOK, "design", "", s.newView(r, "How sure are we? "+p.Name, data))
 }
 

@@ -3,11 +3,13 @@ package web
 import (
 	"bytes"
 	"context"
+	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"mime/multipart"
 	"net/http"
 	"net/url"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -149,6 +151,24 @@ func TestLeadPlansJudgingAndReadsEstimates(t *testing.T) {
 	}
 	if !strings.Contains(page, "How many queries are enough?") {
 		t.Error("design page lacks the query planner")
+	}
+	// The estimates download as CSV from the page's own address, one row per run with the
+	// same exact values the store holds.
+	if !strings.Contains(page, "?format=csv&amp;table=estimates") || !strings.Contains(page, "?format=csv&amp;table=differences") {
+		t.Error("design page offers no CSV of its estimates and differences")
+	}
+	res, body = a.get(lead, loc+"?format=csv&table=estimates")
+	rows, err := csv.NewReader(strings.NewReader(body)).ReadAll()
+	if err != nil || res.StatusCode != http.StatusOK || !strings.HasPrefix(res.Header.Get("Content-Type"), "text/csv") || len(rows) != len(want.Estimates.Runs)+1 {
+		t.Fatalf("estimates CSV: status %d, %d rows, err %v:\n%s", res.StatusCode, len(rows), err, body)
+	}
+	for i, r := range want.Estimates.Runs {
+		if rows[i+1][0] != r.Run || rows[i+1][1] != strconv.FormatFloat(r.NDCG.Est, 'g', -1, 64) {
+			t.Errorf("estimates CSV row %d: %v, store run %s NDCG %v", i+1, rows[i+1], r.Run, r.NDCG.Est)
+		}
+	}
+	if res, _ := a.get(lead, base+"/plan?format=csv&table=runs"); res.StatusCode != http.StatusOK || !strings.HasPrefix(res.Header.Get("Content-Type"), "text/csv") {
+		t.Errorf("kept runs CSV: status %d, %s", res.StatusCode, res.Header.Get("Content-Type"))
 	}
 	token := newToken(t, a, lead)
 	r, js := a.api(http.MethodGet, fmt.Sprintf("/api/v1%s/designs/%d", base, id), token, nil)

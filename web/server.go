@@ -108,6 +108,8 @@ func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) { s.router.Se
 // Router exposes the routes, so tests can walk every registered route.
 func (s *Server) Router() chi.Router { return s.router }
 
+// routes wires every area's routes into the role group it needs. Each area registers its own
+// routes in a xxxRoutes(chi.Router) method beside its handlers, and checks no role itself.
 func (s *Server) routes() chi.Router {
 	r := chi.NewRouter()
 	r.Use(clientIP, s.logRequests, middleware.Recoverer, securityHeaders)
@@ -117,55 +119,42 @@ func (s *Server) routes() chi.Router {
 	static, _ := fs.Sub(assets, "static")
 	r.Handle("/static/*", http.StripPrefix("/static/", cacheStatic(http.FileServerFS(static))))
 	r.Get("/healthz", s.healthz)
-	r.Get("/signin", s.signinPage)
-	r.Post("/signin", s.signin)
+	r.Group(s.signinRoutes)
 	r.Group(s.passwordLinkRoutes)
 	r.Route("/api/v1", s.apiRoutes)
 
 	r.Group(func(r chi.Router) {
 		r.Use(s.requireUser)
-		r.Post("/signout", s.signout)
-		r.Get("/", s.home)
+		r.Group(s.homeRoutes)
 		r.Group(s.accountRoutes)
 		r.Group(s.tokenRoutes)
 		r.Route("/projects/{project}", func(r chi.Router) {
 			r.Use(s.loadProject)
 			r.Group(func(r chi.Router) {
 				r.Use(s.requireProjectRole(store.RoleAssessor))
-				r.Get("/judge", s.judgePage)
-				r.Post("/judge", s.judgeSubmit)
-				r.Post("/undo", s.judgeUndo)
-				r.Get("/mine", s.myWorkPage)
-				r.Post("/mine", s.myWorkChange)
-				r.Get("/feedback", s.feedbackPage)
+				r.Group(s.judgeRoutes)
+				r.Group(s.myWorkRoutes)
 			})
 			r.Group(func(r chi.Router) {
 				r.Use(s.requireProjectRole(store.RoleLead))
-				r.Get("/overview", s.overview)
-				r.Get("/assessors", s.assessorsPage)
-				r.Get("/assessors/{user}", s.assessorPage)
-				r.Get("/agreement", s.agreementPage)
-				r.Get("/queue", s.queuePage)
-				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)
-				r.Post("/pairs/{pair}/adjudicate", s.adjudicateSubmit)
-				r.Get("/import", s.importPage)
-				r.With(s.longTransfer).Post("/import", s.importSubmit)
-				r.Get("/import/{job}", s.importStatus)
+				r.Group(s.leadRoutes)
+				r.Group(s.importRoutes)
+				r.Group(s.projectAdminRoutes)
+				r.Group(s.exportRoutes)
+				r.Group(s.planRoutes)
 			})
-			r.Group(s.projectAdminRoutes)
-			r.Group(s.exportRoutes)
-			r.Group(s.planRoutes)
 		})
 		r.Route("/admin", func(r chi.Router) {
 			r.Use(s.requireAdmin)
-			r.Get("/users", s.usersPage)
 			r.Group(s.adminRoutes)
 		})
 	})
-	r.NotFound(func(w http.ResponseWriter, r *http.Request) {
-		s.fail(w, r, http.StatusNotFound, "There is no page here.")
-	})
+	r.NotFound(s.notFound)
 	return r
+}
+
+func (s *Server) notFound(w http.ResponseWriter, r *http.Request) {
+	s.fail(w, r, http.StatusNotFound, "There is no page here.")
 }
 
 func (s *Server) healthz(w http.ResponseWriter, r *http.Request) {

@@ -9,7 +9,6 @@ import (
 	"time"
 
 	"github.com/schollz/progressbar/v3"
-	"golang.org/x/term"
 
 	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/store"
@@ -94,12 +93,10 @@ func runExport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 // progressBar draws a bar of rows read against total on w when w is a terminal, and does
 // nothing otherwise (a pipe or a log file gets no control characters).
 func progressBar(w io.Writer, total int, what string) (progress func(int), done func()) {
-	f, ok := w.(*os.File)
-	if !ok || !term.IsTerminal(int(f.Fd())) || total <= 0 {
+	if !isTerminal(w) || total <= 0 {
 		return nil, func() {}
 	}
-	bar := progressbar.NewOptions(total, progressbar.OptionSetWriter(w), progressbar.OptionSetDescription(what),
-		progressbar.OptionShowCount(), progressbar.OptionThrottle(100*time.Millisecond), progressbar.OptionClearOnFinish())
+	bar := newProgressBar(w, int64(total), what, progressbar.OptionShowCount())
 	return func(n int) {
 			// Every row would take the bar's lock a million times for nothing.
 			if n%1024 == 0 || n == total {

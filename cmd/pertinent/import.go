@@ -10,7 +10,6 @@ import (
 	"strings"
 	"text/tabwriter"
 
-	"github.com/mattn/go-isatty"
 	"github.com/schollz/progressbar/v3"
 
 	"github.com/pertinent/pertinent/ingest"
@@ -72,13 +71,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		files = append(files, store.ImportFile{Name: name, R: f})
 	}
 	if *progress || isTerminal(stderr) {
-		bar := progressbar.NewOptions64(total,
-			progressbar.OptionSetWriter(stderr),
-			progressbar.OptionSetDescription("importing "+string(kind)),
-			progressbar.OptionShowBytes(true),
-			progressbar.OptionThrottle(100_000_000), // 100 ms
-			progressbar.OptionClearOnFinish(),
-		)
+		bar := newProgressBar(stderr, total, "importing "+string(kind), progressbar.OptionShowBytes(true))
 		for i := range files {
 			r := files[i].R
 			files[i].R = io.TeeReader(r, bar)
@@ -116,9 +109,4 @@ func printReport(w io.Writer, project string, rep store.ImportReport) error {
 		fmt.Fprintln(w, n)
 	}
 	return nil
-}
-
-func isTerminal(w io.Writer) bool {
-	f, ok := w.(*os.File)
-	return ok && (isatty.IsTerminal(f.Fd()) || isatty.IsCygwinTerminal(f.Fd()))
 }
