@@ -20,10 +20,17 @@ type Options struct {
 	// RBPDepth is the deepest rank RBP reads (the design's MaxDepth);
 	// 0 means the whole ranking.
 	RBPDepth int `json:"rbp_depth,omitempty"`
+	// Replicates of the bootstrap behind every SE and interval (see
+	// Estimate); 0 means 200, an odd count is rounded up (replicates come
+	// in mirrored pairs).
+	Replicates int `json:"replicates,omitempty"`
+	// Seed of the bootstrap's multipliers; 0 means a fixed constant, so
+	// the same labels always give the same figures.
+	Seed uint64 `json:"seed,omitempty"`
 }
 
-// Interval is an estimate with its standard error and the interval
-// Est ± z·SE at Options.Level.
+// Interval is a bias-corrected estimate with its bootstrap standard error
+// and the interval Est ± z·SE at Options.Level (see Estimate).
 type Interval struct {
 	Est  float64 `json:"est"`
 	SE   float64 `json:"se"`
@@ -84,6 +91,12 @@ type Report struct {
 	Pending     int          `json:"pending"` // chosen, not yet graded
 }
 
+const (
+	defaultReplicates = 200
+	// defaultBootSeed is "pertinen" in ASCII: any fixed number would do.
+	defaultBootSeed = 0x70657274696e656e
+)
+
 func (o Options) withDefaults(labels Labels) (Options, error) {
 	if o.Threshold == 0 {
 		o.Threshold = 1
@@ -124,6 +137,17 @@ func (o Options) withDefaults(labels Labels) (Options, error) {
 	if o.RBPDepth < 0 {
 		ps.addf("RBP depth %d is negative; use 0 for the whole ranking", o.RBPDepth)
 	}
+	switch {
+	case o.Replicates < 0:
+		ps.addf("%d bootstrap replicates; use a positive count, or 0 for the default (%d)", o.Replicates, defaultReplicates)
+	case o.Replicates == 0:
+		o.Replicates = defaultReplicates
+	case o.Replicates%2 == 1:
+		o.Replicates++
+	}
+	if o.Seed == 0 {
+		o.Seed = defaultBootSeed
+	}
 	return o, ps.err()
 }
 
@@ -134,35 +158,31 @@ func gainOf(g rankeval.Gain, grade int) float64 {
 	return math.Exp2(float64(grade)) - 1
 }
 
-// pairInfo is one labelled pair as the estimators see it.
-type pairInfo struct {
-	grade int     // -1: pending
-	w     float64 // Horvitz–Thompson weight after the response adjustment; 0 when pending
-	vf    float64 // (1 - pi)/pi^2 with pi = 1/w: the pair's variance factor
-	v     int     // index among the pairs with vf > 0, or -1
-}
-
-// queryLabels is what the labels of one query give every run.
-type queryLabels struct {
-	query       string
-	index       map[string]int
-	pairs       []pairInfo
-	nvar        int
-	idcg        float64
-	dIdeal      []float64 // by grade: d IDCG / d w of a pair with that grade
-	rel         float64   // estimated number of relevant documents
+// labelled is one query's labels as the estimators see them.
+type labelled struct {
+	query string
+	index map[string]int // document -> label
+	grade []int          // -1: pending
+	w     []float64      // Horvitz–Thompson weight after the response adjustment; 0 when pending
+	// vary lists the graded labels with pi = 1/w < 1, whose weight moves
+	// over the replicates; scale holds sqrt(1 - pi) for each, and signs
+	// their Rademacher signs, words per label (see multipliers).
+	vary        []int
+	scale       []float64
+	signs       []uint64
+	words       int
 	ndcgDefined bool
 	apDefined   bool
 }
 
-// prepare weighs one query's labels. A pair's weight is 1/Prob (Horvitz &
+// label weighs one query's labels. A pair's weight is 1/Prob (Horvitz &
 // Thompson 1952). Pairs chosen but not yet graded are made up for within
 // their (query, stratum) cell: the graded ones' weights are multiplied by
 // chosen/graded in that cell (a response adjustment, which treats grading
-// as a second phase of Poisson sampling at rate graded/chosen). Ideal DCG
-// comes from the estimated counts per grade (see idealDCG).
-func prepare(q string, docs map[string]Label, o Options) queryLabels {
-	ql := queryLabels{query: q, index: make(map[string]int, len(docs)), pairs: make([]pairInfo, 0, len(docs))}
+// as a second phase of Poisson sampling at rate graded/chosen, so a graded
+// pair counts as drawn with pi = 1/w).
+func label(q string, docs map[string]Label, o Options) *labelled {
+	ql := &labelled{query: q, index: make(map[string]int, len(docs)), words: (o.Replicates/2 + 63) / 64}
 	chosen, graded := map[int]int{}, map[int]int{}
 	for _, l := range docs {
 		chosen[l.Stratum]++
@@ -170,91 +190,245 @@ func prepare(q string, docs map[string]Label, o Options) queryLabels {
 			graded[l.Stratum]++
 		}
 	}
-	counts := make([]float64, o.MaxGrade+1)
 	for _, doc := range sortedKeys(docs) {
 		l := docs[doc]
-		p := pairInfo{grade: l.Grade, v: -1}
+		w := 0.0
 		if l.Grade >= 0 {
-			p.w = 1 / l.Prob * float64(chosen[l.Stratum]) / float64(graded[l.Stratum])
-			p.vf = p.w * (p.w - 1) // (1-pi)/pi^2 at pi = 1/w
-			if p.vf < 1e-15 {
-				p.vf = 0 // certain pairs add no variance (rounding of 1/1)
+			w = 1 / l.Prob * float64(chosen[l.Stratum]) / float64(graded[l.Stratum])
+			if w > 1 {
+				at := len(ql.grade)
+				ql.vary = append(ql.vary, at)
+				ql.scale = append(ql.scale, math.Sqrt(1-1/w))
+				h := pairHash(o.Seed, q, doc)
+				for k := range ql.words {
+					ql.signs = append(ql.signs, mix64(h+uint64(k+1)*0x9e3779b97f4a7c15))
+				}
 			}
-			if p.vf > 0 {
-				p.v = ql.nvar
-				ql.nvar++
-			}
-			counts[l.Grade] += p.w
-			if l.Grade >= o.Threshold {
-				ql.rel += p.w
-			}
+			ql.ndcgDefined = ql.ndcgDefined || l.Grade > 0
+			ql.apDefined = ql.apDefined || l.Grade >= o.Threshold
 		}
-		ql.index[doc] = len(ql.pairs)
-		ql.pairs = append(ql.pairs, p)
+		ql.index[doc] = len(ql.grade)
+		ql.grade = append(ql.grade, l.Grade)
+		ql.w = append(ql.w, w)
 	}
-	ql.idcg, ql.dIdeal = idealDCG(counts, o)
-	ql.ndcgDefined = ql.idcg > 0
-	ql.apDefined = ql.rel > 0
 	return ql
 }
 
-// cumDiscount is D(x): the sum of 1/log2(r+1) for r = 1..floor(x), plus the
-// fraction of the next rank's discount: linear between integers.
-func cumDiscount(x float64) float64 {
-	n := int(math.Floor(x))
-	s := 0.0
-	for r := 1; r <= n; r++ {
-		s += discount(r)
+// multipliers writes replicate b's weights into wb (which holds w on
+// entry and leaves the certain labels alone). Each varying label gets
+// m = 1 + sqrt(1 - pi)·e with e = ±1 at even odds: m >= 0, E m = 1 and
+// Var m = 1 - pi, so over the replicates Var(m·y/pi) = (1 - pi)·y²/pi²,
+// the pair's term of the Horvitz–Thompson variance estimator under
+// Poisson sampling. This is the generalised bootstrap for Poisson samples
+// (Beaumont & Patak, "On the generalized bootstrap for sample surveys with
+// special attention to Poisson sampling", International Statistical Review
+// 80(1), 2012; cited from memory), with Rademacher multipliers. Replicates
+// 2j and 2j+1 use e and -e (mirrored, antithetic): the linear part of the
+// estimate cancels exactly in each pair's mean, so the mean over replicates,
+// which sets the bias correction, carries no first-order Monte Carlo
+// noise. Signs come from a hash of the pair, not from a stream, so a
+// pair's multipliers do not depend on which other pairs are labelled.
+func (ql *labelled) multipliers(b int, wb []float64) {
+	j := b / 2
+	word, bit := j/64, uint(j%64)
+	for v, at := range ql.vary {
+		e := 1.0
+		if (ql.signs[v*ql.words+word]>>bit)&1 == 1 {
+			e = -1
+		}
+		if b%2 == 1 {
+			e = -e
+		}
+		wb[at] = ql.w[at] * (1 + ql.scale[v]*e)
 	}
-	return s + (x-float64(n))*discount(n+1)
 }
 
-// idealDCG is the ideal DCG@K from estimated counts per grade:
-// sum_g (gain(g) - gain(g-1)) · D(min(b_g, K)), b_g the estimated number of
-// documents graded g or above. With integer counts this is the DCG of the
-// grades sorted best first, i.e. the ordinary ideal DCG. It also returns,
-// per grade h, the derivative of the ideal DCG with respect to the weight
-// of a pair graded h (the right derivative at integers).
-func idealDCG(counts []float64, o Options) (float64, []float64) {
-	top := len(counts) - 1
-	b := 0.0
-	ideal := 0.0
-	slope := make([]float64, top+1) // slope[g]: d/db_g of the g-th term
-	for g := top; g >= 1; g-- {
-		b += counts[g]
-		step := gainOf(o.Gain, g) - gainOf(o.Gain, g-1)
-		x := b
-		if o.K > 0 && x >= float64(o.K) {
-			x = float64(o.K)
-		} else {
-			slope[g] = step * discount(int(math.Floor(b))+1)
+// cumTable holds D(n), the sum of 1/log2(r+1) for r = 1..n, grown on
+// demand.
+type cumTable []float64
+
+// at is D(x) for real x >= 0: D(floor(x)) plus the fraction of the next
+// rank's discount, linear between integers.
+func (c *cumTable) at(x float64) float64 {
+	n := int(math.Floor(x))
+	if len(*c) == 0 {
+		*c = append(*c, 0)
+	}
+	for len(*c) <= n+1 {
+		*c = append(*c, (*c)[len(*c)-1]+discount(len(*c)))
+	}
+	if f := x - float64(n); f > 0 {
+		return (*c)[n] + f*discount(n+1)
+	}
+	return (*c)[n]
+}
+
+// ideal is the ideal DCG@K from the weighted counts per grade:
+// sum_g (gain(g) - gain(g-1)) · D(min(b_g, K)), b_g the weighted number of
+// labels graded g or above. With integer counts this is the DCG of the
+// grades sorted best first, i.e. the ordinary ideal DCG.
+func (ql *labelled) ideal(wb, counts []float64, o Options, cum *cumTable) float64 {
+	clear(counts)
+	for i, g := range ql.grade {
+		if g > 0 {
+			counts[g] += wb[i]
 		}
-		ideal += step * cumDiscount(x)
 	}
-	d := make([]float64, top+1)
-	for h := 1; h <= top; h++ {
-		d[h] = d[h-1] + slope[h]
+	b, ideal := 0.0, 0.0
+	for g := len(counts) - 1; g >= 1; g-- {
+		b += counts[g]
+		x := b
+		if o.K > 0 && x > float64(o.K) {
+			x = float64(o.K)
+		}
+		ideal += (gainOf(o.Gain, g) - gainOf(o.Gain, g-1)) * cum.at(x)
 	}
-	return ideal, d
+	return ideal
+}
+
+// relevant is the weighted number of relevant labels, R.
+func (ql *labelled) relevant(wb []float64, threshold int) float64 {
+	r := 0.0
+	for i, g := range ql.grade {
+		if g >= threshold {
+			r += wb[i]
+		}
+	}
+	return r
+}
+
+// term is one label's place in one run's sums: its index and coefficient.
+type term struct {
+	at int
+	c  float64
+}
+
+// runTerms is what one run contributes on one query: the graded labels in
+// its top K with gain·discount, the relevant ones with their rank, and the
+// figures that need no weights.
+type runTerms struct {
+	gain      []term // c: gain(grade) / log2(rank + 1)
+	rel       []term // c: rank, in rank order
+	judgedAtK float64
+	rbp       float64
+	resid     float64
+}
+
+func (t *runTerms) dcg(wb []float64) float64 {
+	s := 0.0
+	for _, x := range t.gain {
+		s += wb[x.at] * x.c
+	}
+	return s
+}
+
+// apNum is the AP numerator sum over relevant i of w_i (1 + sum over
+// relevant j above i of w_j) / rank_i.
+func (t *runTerms) apNum(wb []float64) float64 {
+	num, above := 0.0, 0.0
+	for _, x := range t.rel {
+		w := wb[x.at]
+		num += w * (1 + above) / x.c
+		above += w
+	}
+	return num
+}
+
+// terms lays out one run on one query (ranked by rankeval.Rank), reusing
+// t's slices.
+func (ql *labelled) terms(docs []rankeval.ScoredDoc, o Options, t *runTerms) {
+	t.gain, t.rel = t.gain[:0], t.rel[:0]
+	t.judgedAtK, t.rbp, t.resid = 0, 0, 0
+	ranked := rankeval.Rank(docs)
+	k := len(ranked)
+	if o.K > 0 && o.K < k {
+		k = o.K
+	}
+	n := len(ranked)
+	if o.RBPDepth > 0 && o.RBPDepth < n {
+		n = o.RBPDepth
+	}
+	judged := 0
+	at := 1 - o.Persistence // RBP's (1-p) p^(i-1)
+	for i, d := range ranked[:max(k, n)] {
+		l, ok := ql.index[d.DocID]
+		g := -1
+		if ok {
+			g = ql.grade[l]
+		}
+		if i < k && g >= 0 {
+			judged++
+			t.gain = append(t.gain, term{l, gainOf(o.Gain, g) * discount(i+1)})
+			if g >= o.Threshold {
+				t.rel = append(t.rel, term{l, float64(i + 1)})
+			}
+		}
+		if i < n {
+			// RBP with gain grade/MaxGrade over ranks 1..n.
+			if g >= 0 {
+				t.rbp += at * float64(g) / float64(o.MaxGrade)
+			} else {
+				t.resid += at
+			}
+			at *= o.Persistence
+		}
+	}
+	if k > 0 {
+		t.judgedAtK = float64(judged) / float64(k)
+	}
+	t.resid += math.Pow(o.Persistence, float64(n))
+}
+
+// moments gathers a quantity's deviations from its point estimate over
+// the replicates.
+type moments struct{ sum, sq float64 }
+
+func (m *moments) add(d float64) { m.sum += d; m.sq += d * d }
+
+// interval turns a point estimate and its replicates' deviations into the
+// bias-corrected estimate point - mean deviation and the SE sqrt(mean of
+// squared deviations from their mean), over n replicates. The divisor is n,
+// not n - 1: with mirrored replicates the linear part of the deviations
+// has mean 0 by construction, so no degree of freedom is spent on it.
+func interval(point float64, m moments, n int, z float64) Interval {
+	bias := m.sum / float64(n)
+	se := math.Sqrt(max(0, m.sq/float64(n)-bias*bias))
+	est := point - bias
+	return Interval{Est: est, SE: se, Low: est - z*se, High: est + z*se}
 }
 
 // Estimate reads estimated scores with intervals from the labels.
 //
-// Per query and run, with weights w (prepare): DCG@K = sum over the run's
-// top K of w·gain·discount; NDCG = DCG / ideal DCG (idealDCG). AP follows
-// statAP and infAP (Aslam, Pavlu & Yilmaz, SIGIR 2006; Yilmaz & Aslam, CIKM
-// 2006): AP = (1/R) sum over relevant i in the top K of (1/i)(1 + sum over
-// relevant j above i of 1), with w_i for the single terms, w_i·w_j for the
-// pair terms (sampling is independent, so pi_ij = pi_i·pi_j) and R the
-// weighted count of relevant pairs. Documents without a final grade count as
-// not relevant. With every Prob 1 both equal rankeval.Evaluate exactly.
+// Point estimates, per query and run, with weights w (label): DCG@K = sum
+// over the run's top K of w·gain·discount; NDCG = DCG / ideal DCG (ideal,
+// from the weighted counts per grade). AP follows statAP and infAP (Aslam,
+// Pavlu & Yilmaz, SIGIR 2006; Yilmaz & Aslam, CIKM 2006): AP = (1/R) sum
+// over relevant i in the top K of (w_i/i)(1 + sum over relevant j above i
+// of w_j), w_i·w_j standing for 1/pi_ij since pairs are sampled
+// independently, and R the weighted count of relevant labels. Documents
+// without a final grade count as not relevant. The weighted sums are
+// Horvitz–Thompson estimates, unbiased; NDCG and AP, ratios of them (and
+// the ideal DCG, concave in the counts), are not.
 //
-// Variance is by linearisation under Poisson sampling: an estimate theta(w)
-// has V = sum over graded pairs of (1 - pi_i)/pi_i^2 · (d theta/d w_i)^2, the
-// derivatives taken at the sample weights. The mean over queries and the
-// difference B - A use the same per-pair derivatives (the difference of the
-// two runs' derivatives, so documents both runs retrieve are accounted for
-// once). Queries sample independently, so their variances add.
+// Intervals: a bootstrap of the Poisson sample (multipliers), R =
+// Options.Replicates replicates, each reweighing every sampled graded pair
+// by its multiplier m and recomputing, per query, the counts per grade, the
+// ideal DCG, R and every run's DCG and AP numerator, then NDCG and AP, their
+// means over the queries and the differences B - A — all with the same
+// multipliers, so documents several runs retrieve, and the ideal DCG all
+// runs share, move every run's figure together. Queries are sampled
+// independently, and so are their multipliers. For each figure theta with
+// point estimate theta_hat and replicates theta*_b: Est = 2·theta_hat -
+// mean(theta*), which removes the first-order bias of the ratios and of
+// the ideal DCG; SE = the spread of theta*_b about their mean; the interval
+// is Est ± z·SE; ProbBBeatsA = Phi(Diff.Est / Diff.SE). The multipliers come
+// from Options.Seed (a fixed constant by default), so the same labels
+// always give the same figures. With every Prob 1 no pair is sampled, every
+// replicate is the point estimate, Est equals rankeval.Evaluate exactly and
+// every SE is 0.
+//
+// Means are over the queries where each figure is defined (NDCG: a graded
+// pair above 0; AP: one at or above the threshold), the same for every run.
 //
 // RBP (Moffat & Zobel, TOIS 2008) uses gain grade/MaxGrade over the ranking
 // to RBPDepth: the base counts graded ranks, the residual is
@@ -291,39 +465,84 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 	}
 
 	z := zFor(o.Level)
-	nr := len(runs)
-	type sums struct{ ndcg, ndcgV, ap, apV, judged, rbp, resid float64 }
-	acc := make([]sums, nr)
-	npairs := nr * (nr - 1) / 2
-	diffV := make([][2]float64, npairs) // per pair of runs: NDCG, AP
+	nr, nb := len(runs), o.Replicates
 	rep.Runs = make([]RunEstimate, nr)
 	for i, r := range runs {
 		rep.Runs[i].Run = r.Name
+		rep.Runs[i].PerQuery = make([]QueryEstimate, 0, len(labels))
 	}
+	// Per run: the sums over queries of the point estimates, and per
+	// replicate the sums of the deviations from them.
+	type sums struct{ ndcg, ap, judged, rbp, resid float64 }
+	acc := make([]sums, nr)
+	devN, devA := make([]float64, nr*nb), make([]float64, nr*nb)
+	// Buffers reused from query to query.
+	var (
+		cum    cumTable
+		counts = make([]float64, o.MaxGrade+1)
+		terms  = make([]runTerms, nr)
+		dcg0   = make([]float64, nr)
+		num0   = make([]float64, nr)
+		pN     = make([]float64, nr)
+		pA     = make([]float64, nr)
+		mN     = make([]moments, nr)
+		mA     = make([]moments, nr)
+		wb     []float64
+	)
 	queries := sortedKeys(labels)
 	nNDCG, nAP := 0, 0
-	var dN, dA []float64
 	for _, q := range queries {
-		ql := prepare(q, labels[q], o)
-		dN = resize(dN, nr*ql.nvar)
-		dA = resize(dA, nr*ql.nvar)
+		ql := label(q, labels[q], o)
+		idcg := ql.ideal(ql.w, counts, o, &cum)
+		rel := ql.relevant(ql.w, o.Threshold)
 		for i, r := range runs {
-			qe := scoreQuery(&ql, r.Run[q], o, dN[i*ql.nvar:(i+1)*ql.nvar], dA[i*ql.nvar:(i+1)*ql.nvar])
-			vN := variance(&ql, dN[i*ql.nvar:(i+1)*ql.nvar])
-			vA := variance(&ql, dA[i*ql.nvar:(i+1)*ql.nvar])
-			if qe.NDCGDefined {
-				qe.NDCG = interval(qe.NDCG.Est, vN, z)
-				acc[i].ndcg += qe.NDCG.Est
-				acc[i].ndcgV += vN
+			ql.terms(r.Run[q], o, &terms[i])
+			dcg0[i], num0[i] = terms[i].dcg(ql.w), terms[i].apNum(ql.w)
+			pN[i], pA[i] = 0, 0
+			if ql.ndcgDefined {
+				pN[i] = dcg0[i] / idcg
 			}
-			if qe.APDefined {
-				qe.AP = interval(qe.AP.Est, vA, z)
-				acc[i].ap += qe.AP.Est
-				acc[i].apV += vA
+			if ql.apDefined {
+				pA[i] = num0[i] / rel
 			}
-			acc[i].judged += qe.JudgedAtK
-			acc[i].rbp += qe.RBP
-			acc[i].resid += qe.RBPResidual
+			mN[i], mA[i] = moments{}, moments{}
+		}
+		if len(ql.vary) > 0 && (ql.ndcgDefined || ql.apDefined) {
+			wb = append(wb[:0], ql.w...)
+			for b := range nb {
+				ql.multipliers(b, wb)
+				idcgB := ql.ideal(wb, counts, o, &cum)
+				relB := ql.relevant(wb, o.Threshold)
+				for i := range terms {
+					t := &terms[i]
+					if ql.ndcgDefined {
+						d := t.dcg(wb)/idcgB - pN[i]
+						mN[i].add(d)
+						devN[i*nb+b] += d
+					}
+					if ql.apDefined {
+						d := t.apNum(wb)/relB - pA[i]
+						mA[i].add(d)
+						devA[i*nb+b] += d
+					}
+				}
+			}
+		}
+		for i := range runs {
+			t := &terms[i]
+			qe := QueryEstimate{Query: q, NDCGDefined: ql.ndcgDefined, APDefined: ql.apDefined,
+				JudgedAtK: t.judgedAtK, RBP: t.rbp, RBPResidual: t.resid}
+			if ql.ndcgDefined {
+				qe.NDCG = interval(pN[i], mN[i], nb, z)
+				acc[i].ndcg += pN[i]
+			}
+			if ql.apDefined {
+				qe.AP = interval(pA[i], mA[i], nb, z)
+				acc[i].ap += pA[i]
+			}
+			acc[i].judged += t.judgedAtK
+			acc[i].rbp += t.rbp
+			acc[i].resid += t.resid
 			rep.Runs[i].PerQuery = append(rep.Runs[i].PerQuery, qe)
 		}
 		if ql.ndcgDefined {
@@ -332,32 +551,23 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 		if ql.apDefined {
 			nAP++
 		}
-		if ql.nvar == 0 {
-			continue
+	}
+	// mean is a run's mean over n queries with its replicate moments.
+	mean := func(sum float64, dev []float64, n int) Interval {
+		var m moments
+		for _, d := range dev {
+			m.add(d / float64(n))
 		}
-		k := 0
-		for a := range nr {
-			for b := a + 1; b < nr; b++ {
-				if ql.ndcgDefined {
-					diffV[k][0] += diffVariance(&ql, dN[a*ql.nvar:(a+1)*ql.nvar], dN[b*ql.nvar:(b+1)*ql.nvar])
-				}
-				if ql.apDefined {
-					diffV[k][1] += diffVariance(&ql, dA[a*ql.nvar:(a+1)*ql.nvar], dA[b*ql.nvar:(b+1)*ql.nvar])
-				}
-				k++
-			}
-		}
+		return interval(sum/float64(n), m, nb, z)
 	}
 	for i := range rep.Runs {
 		re := &rep.Runs[i]
 		re.NDCGQueries, re.APQueries = nNDCG, nAP
 		if nNDCG > 0 {
-			n := float64(nNDCG)
-			re.NDCG = interval(acc[i].ndcg/n, acc[i].ndcgV/(n*n), z)
+			re.NDCG = mean(acc[i].ndcg, devN[i*nb:(i+1)*nb], nNDCG)
 		}
 		if nAP > 0 {
-			n := float64(nAP)
-			re.AP = interval(acc[i].ap/n, acc[i].apV/(n*n), z)
+			re.AP = mean(acc[i].ap, devA[i*nb:(i+1)*nb], nAP)
 		}
 		if n := float64(len(queries)); n > 0 {
 			re.JudgedAtK = acc[i].judged / n
@@ -365,181 +575,37 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 			re.RBPResidual = acc[i].resid / n
 		}
 	}
-	k := 0
+	diff := func(a, b int, metric string, sumA, sumB float64, dev []float64, n int) Difference {
+		d := Difference{A: runs[a].Name, B: runs[b].Name, Metric: metric, Queries: n}
+		if n == 0 {
+			d.ProbBBeatsA = 0.5
+			return d
+		}
+		var m moments
+		da, db := dev[a*nb:(a+1)*nb], dev[b*nb:(b+1)*nb]
+		for r := range nb {
+			m.add((db[r] - da[r]) / float64(n))
+		}
+		d.Diff = interval((sumB-sumA)/float64(n), m, nb, z)
+
+		switch {
+		case d.Diff.SE > 0:
+			d.ProbBBeatsA = phi(d.Diff.Est / d.Diff.SE)
+		case d.Diff.Est > 0:
+			d.ProbBBeatsA = 1
+		case d.Diff.Est < 0:
+			d.ProbBBeatsA = 0
+		default:
+			d.ProbBBeatsA = 0.5
+		}
+		return d
+	}
 	for a := range nr {
 		for b := a + 1; b < nr; b++ {
-			A, B := rep.Runs[a], rep.Runs[b]
 			rep.Differences = append(rep.Differences,
-				difference(A.Run, B.Run, "ndcg", A.NDCG.Est, B.NDCG.Est, diffV[k][0], nNDCG, z),
-				difference(A.Run, B.Run, "ap", A.AP.Est, B.AP.Est, diffV[k][1], nAP, z))
-			k++
+				diff(a, b, "ndcg", acc[a].ndcg, acc[b].ndcg, devN, nNDCG),
+				diff(a, b, "ap", acc[a].ap, acc[b].ap, devA, nAP))
 		}
 	}
 	return rep, nil
-}
-
-func resize(s []float64, n int) []float64 {
-	if cap(s) < n {
-		return make([]float64, n)
-	}
-	s = s[:n]
-	clear(s)
-	return s
-}
-
-func interval(est, v, z float64) Interval {
-	se := math.Sqrt(max(0, v))
-	return Interval{Est: est, SE: se, Low: est - z*se, High: est + z*se}
-}
-
-func variance(ql *queryLabels, d []float64) float64 {
-	v := 0.0
-	for _, p := range ql.pairs {
-		if p.v >= 0 {
-			v += p.vf * d[p.v] * d[p.v]
-		}
-	}
-	return v
-}
-
-func diffVariance(ql *queryLabels, da, db []float64) float64 {
-	v := 0.0
-	for _, p := range ql.pairs {
-		if p.v >= 0 {
-			x := db[p.v] - da[p.v]
-			v += p.vf * x * x
-		}
-	}
-	return v
-}
-
-func difference(a, b, metric string, estA, estB, v float64, queries int, z float64) Difference {
-	d := Difference{A: a, B: b, Metric: metric, Queries: queries}
-	if queries == 0 {
-		d.ProbBBeatsA = 0.5
-		return d
-	}
-	n := float64(queries)
-	d.Diff = interval(estB-estA, v/(n*n), z)
-	switch {
-	case d.Diff.SE > 0:
-		d.ProbBBeatsA = phi(d.Diff.Est / d.Diff.SE)
-	case d.Diff.Est > 0:
-		d.ProbBBeatsA = 1
-	case d.Diff.Est < 0:
-		d.ProbBBeatsA = 0
-	default:
-		d.ProbBBeatsA = 0.5
-	}
-	return d
-}
-
-// scoreQuery estimates one run on one query and writes the derivatives of
-// its NDCG and AP with respect to each variable pair's weight into dN, dA
-// (zeroed by the caller).
-func scoreQuery(ql *queryLabels, docs []rankeval.ScoredDoc, o Options, dN, dA []float64) QueryEstimate {
-	qe := QueryEstimate{Query: ql.query, NDCGDefined: ql.ndcgDefined, APDefined: ql.apDefined}
-	ranked := rankeval.Rank(docs)
-	k := len(ranked)
-	if o.K > 0 && o.K < k {
-		k = o.K
-	}
-	// idx[i] is the label of rank i+1 (or -1).
-	idx := make([]int, len(ranked))
-	for i, d := range ranked {
-		if at, ok := ql.index[d.DocID]; ok {
-			idx[i] = at
-		} else {
-			idx[i] = -1
-		}
-	}
-	judged := 0
-	dcg := 0.0
-	for i := range k {
-		if idx[i] < 0 {
-			continue
-		}
-		p := ql.pairs[idx[i]]
-		if p.grade < 0 {
-			continue
-		}
-		judged++
-		dcg += p.w * gainOf(o.Gain, p.grade) * discount(i+1)
-	}
-	if k > 0 {
-		qe.JudgedAtK = float64(judged) / float64(k)
-	}
-	if ql.ndcgDefined {
-		I := ql.idcg
-		qe.NDCG.Est = dcg / I
-		for _, p := range ql.pairs {
-			if p.v >= 0 {
-				dN[p.v] = -dcg * ql.dIdeal[p.grade] / (I * I)
-			}
-		}
-		for i := range k {
-			if idx[i] >= 0 {
-				if p := ql.pairs[idx[i]]; p.v >= 0 {
-					dN[p.v] += gainOf(o.Gain, p.grade) * discount(i+1) / I
-				}
-			}
-		}
-	}
-	if ql.apDefined {
-		R := ql.rel
-		// wx[i]: weight of rank i+1 if it is relevant, else 0.
-		wx := make([]float64, k)
-		for i := range k {
-			if idx[i] >= 0 {
-				if p := ql.pairs[idx[i]]; p.grade >= o.Threshold {
-					wx[i] = p.w
-				}
-			}
-		}
-		num, above := 0.0, 0.0
-		for i := range k {
-			num += wx[i] * (1 + above) / float64(i+1)
-			above += wx[i]
-		}
-		qe.AP.Est = num / R
-		for _, p := range ql.pairs {
-			if p.v >= 0 && p.grade >= o.Threshold {
-				dA[p.v] = -num / (R * R)
-			}
-		}
-		// d num / d w_i = x_i ((1 + sum_{j<i} w_j x_j)/i + sum_{j>i} w_j x_j / j).
-		after := 0.0
-		aboveAt := make([]float64, k)
-		above = 0
-		for i := range k {
-			aboveAt[i] = above
-			above += wx[i]
-		}
-		for i := k - 1; i >= 0; i-- {
-			if idx[i] >= 0 {
-				if p := ql.pairs[idx[i]]; p.v >= 0 && p.grade >= o.Threshold {
-					dA[p.v] += ((1+aboveAt[i])/float64(i+1) + after) / R
-				}
-			}
-			after += wx[i] / float64(i+1)
-		}
-	}
-	// RBP with gain grade/MaxGrade over ranks 1..n.
-	n := len(ranked)
-	if o.RBPDepth > 0 && o.RBPDepth < n {
-		n = o.RBPDepth
-	}
-	p := o.Persistence
-	at := 1 - p // (1-p) p^(i-1)
-	for i := range n {
-		graded := idx[i] >= 0 && ql.pairs[idx[i]].grade >= 0
-		if graded {
-			qe.RBP += at * float64(ql.pairs[idx[i]].grade) / float64(o.MaxGrade)
-		} else {
-			qe.RBPResidual += at
-		}
-		at *= p
-	}
-	qe.RBPResidual += math.Pow(p, float64(n))
-	return qe
 }

@@ -3,9 +3,7 @@ package estimate
 import (
 	"cmp"
 	"fmt"
-	"hash/fnv"
 	"math"
-	"math/rand/v2"
 	"slices"
 
 	"github.com/pertinent/pertinent/rankeval"
@@ -58,7 +56,7 @@ type queryPool struct {
 	query  string
 	cands  []candidate // by best rank, then document id
 	pop    []int       // population per stratum
-	exp    []float64   // per stratum: sum of (1 - earlier probability) over pairs not yet certain
+	exp    []float64   // per stratum: pairs not in the project, each of which costs its rate at most
 	newTop int         // top-stratum pairs not in the project: what the top stratum costs
 	rates  []float64   // per stratum; rates[0] = 1
 }
@@ -71,30 +69,39 @@ type queryPool struct {
 //
 // Stratified designs: per query the population is the union of every run's
 // top MaxDepth documents, each in the stratum of its best rank over the runs
-// (strataBands). The top stratum is judged in full. Deeper pairs are
-// sampled independently of each other (Poisson sampling: each pair is drawn
-// with its stratum's rate by its own coin). Independence makes the
-// probability of a pair offered by several designs exactly
-// 1 - prod(1 - p_i) and keeps the variance estimator a plain sum over pairs.
+// (strataBands). The top stratum is judged in full. A deeper pair is drawn
+// iff its permanent random number u = prn(Seed, query, document), uniform
+// on [0, 1), lies below its stratum's rate r: Poisson sampling (each pair
+// drawn independently, with probability r) whose numbers are fixed per
+// pair, not per design (sample coordination with permanent random numbers:
+// Ohlsson, "Coordination of samples using permanent random numbers", in
+// Business Survey Methods, Wiley 1995). With one Seed per project, a later
+// design at rate r2 >= r1 takes every pair an earlier one took (u < r1
+// implies u < r2), and over any sequence of designs a pair is in the
+// project iff u < max of the rates offered to it: its inclusion
+// probability is exactly that maximum, whatever the designs and runs were,
+// and no record of earlier offers is needed. Pairs stay independent, so the
+// estimators' variance is a plain sum over pairs.
 //
 // Rates: stratum s of query q gets r = min(1, c·m_s), m_s the mean discount
 // 1/log2(rank+1) over the stratum's ranks (deeper ranks are less likely
 // relevant, so sampled more thinly), with c the largest constant whose
 // expected spend fits the budget left after the top strata: the total
 // Budget (one c for every query) and, with PerQuery, each query's own
-// (a c_q per query; with both, the smaller). The expected spend of a
-// stratum is r times the sum over its pairs not yet certain of
-// (1 - earlier probability). Rates thus depend on the population and on
-// earlier designs' probabilities only, never on which pairs were drawn or
-// their grades, so they are fixed before any coin is thrown.
+// (a c_q per query; with both, the smaller). A pair not in known is
+// counted at r, a pair in known at nothing (it is in the project already).
+// That is conservative: a pair an earlier design offered at e and did not
+// draw has u >= e, so it is drawn now with probability (r-e)/(1-e) <= r.
+// Rates depend on the population and on how many pairs of each stratum are
+// in the project, never on grades; one pair's earlier draw moves its
+// stratum's count by one, a negligible change in r.
 //
-// How Combined is recorded: a pair not in known is drawn now with rate r;
-// if drawn, Combined = 1 - (1 - e)(1 - r), e its probability under the
-// earlier designs of Design.Earlier (0 when none covers it). A pair in
-// known with Prob p < 1 was drawn before, so it is not drawn again and
-// needs no new judgment; it is chosen with Combined = 1 - (1 - p)(1 - r),
-// the probability that either design took it. Pairs in known with Prob 1
-// cost nothing and are counted in Already.
+// How Combined is recorded: Combined = max(before, r), before the pair's
+// Prob in known (0 when not known). A pair not in known is drawn iff u < r
+// and chosen with Combined r. A pair in known with Prob p < 1 (drawn
+// before, so u < p) needs no new judgment; it is chosen with Prob and
+// Combined r only when r > p, else left alone. Pairs in known with Prob 1
+// cost nothing and are counted in Already, as are the other known pairs.
 //
 // Depth designs judge every pair to Depth with probability 1. Priority is
 // depth + 1 - best rank as in pooling (MaxDepth + 1 - best rank for a
@@ -106,11 +113,6 @@ func MakePlan(d Design, runs []NamedRun, known Labels) (Plan, error) {
 	var ps Problems
 	checkRuns(&ps, runs, nil, true)
 	checkKnown(&ps, known)
-	for _, o := range d.Earlier {
-		if !(o.Rate >= 0 && o.Rate <= 1) || o.FromRank < 1 || o.ToRank < o.FromRank {
-			ps.addf("earlier offer for query %q, ranks %d-%d: rate %v; rates lie in [0, 1] over ranks from 1 on", o.Query, o.FromRank, o.ToRank, o.Rate)
-		}
-	}
 	if err := ps.err(); err != nil {
 		return Plan{}, err
 	}
@@ -121,16 +123,9 @@ func MakePlan(d Design, runs []NamedRun, known Labels) (Plan, error) {
 		maxDepth = d.Depth
 		bands = bands[:1]
 	}
-	earlier := map[string][]Offer{}
-	for _, o := range d.Earlier {
-		earlier[o.Query] = append(earlier[o.Query], o)
-	}
 
-	pools, notOffered := buildPools(runs, known, earlier, bands, maxDepth)
+	pools := buildPools(runs, known, bands, maxDepth)
 	plan := Plan{Design: d}
-	if notOffered > 0 {
-		plan.Notes = append(plan.Notes, fmt.Sprintf("%d queries have pairs sampled before, but no earlier offers were given for them: pairs those designs could have drawn and did not are taken as never offered, which overweights the pairs drawn now; pass the earlier plans' offers", notOffered))
-	}
 	if err := checkTopBudget(d, pools); err != nil {
 		return Plan{}, err
 	}
@@ -153,7 +148,7 @@ func MakePlan(d Design, runs []NamedRun, known Labels) (Plan, error) {
 	}
 
 	for _, p := range pools {
-		draw(&plan, d, runs, known[p.query], earlier[p.query], p, bands)
+		draw(&plan, d, runs, known[p.query], p, bands)
 	}
 	return plan, nil
 }
@@ -205,21 +200,8 @@ func sortedKeys[V any](m map[string]V) []string {
 	return ks
 }
 
-// earlierProb is the probability that earlier designs drew a pair of best
-// rank r that is not in the project.
-func earlierProb(offers []Offer, r int) float64 {
-	miss := 1.0
-	for _, o := range offers {
-		if r >= o.FromRank && r <= o.ToRank {
-			miss *= 1 - o.Rate
-		}
-	}
-	return 1 - miss
-}
-
-// buildPools gathers each query's population; notOffered counts queries
-// with pairs sampled before (0 < Prob < 1) but no earlier offers.
-func buildPools(runs []NamedRun, known Labels, earlier map[string][]Offer, bands []band, maxDepth int) ([]*queryPool, int) {
+// buildPools gathers each query's population.
+func buildPools(runs []NamedRun, known Labels, bands []band, maxDepth int) []*queryPool {
 	qset := map[string]struct{}{}
 	for _, r := range runs {
 		for q := range r.Run {
@@ -229,7 +211,6 @@ func buildPools(runs []NamedRun, known Labels, earlier map[string][]Offer, bands
 	queries := sortedKeys(qset)
 	pools := make([]*queryPool, 0, len(queries))
 	index := map[string]int{}
-	notOffered := 0
 	for _, q := range queries {
 		clear(index)
 		p := &queryPool{query: q, pop: make([]int, len(bands)), exp: make([]float64, len(bands))}
@@ -257,30 +238,19 @@ func buildPools(runs []NamedRun, known Labels, earlier map[string][]Offer, bands
 			return cmp.Compare(a.doc, b.doc)
 		})
 		kq := known[q]
-		sampledBefore := false
 		for _, c := range p.cands {
 			s := stratumOf(bands, c.best)
 			p.pop[s]++
-			before := 0.0
-			if l, ok := kq[c.doc]; ok {
-				before = l.Prob
-				sampledBefore = sampledBefore || l.Prob < 1
-			} else {
-				before = earlierProb(earlier[q], c.best)
+			if _, ok := kq[c.doc]; !ok {
+				p.exp[s]++
 				if s == 0 {
 					p.newTop++
 				}
 			}
-			if before < 1 {
-				p.exp[s] += 1 - before
-			}
-		}
-		if sampledBefore && len(earlier[q]) == 0 {
-			notOffered++
 		}
 		pools = append(pools, p)
 	}
-	return pools, notOffered
+	return pools
 }
 
 func checkTopBudget(d Design, pools []*queryPool) error {
@@ -324,8 +294,6 @@ func allocate(d Design, pools []*queryPool, bands []band) {
 		}
 		return t
 	}
-	// The expected cost of the top stratum, not its count of new pairs,
-	// comes off the budget: the count depends on earlier draws.
 	topExp := func(p *queryPool) float64 { return p.exp[0] }
 
 	caps := make([]float64, len(pools))
@@ -411,49 +379,56 @@ func summarise(pools []*queryPool, bands []band) []Stratum {
 	return out
 }
 
-// stream gives each query its own random stream, so a query's draws do not
-// depend on the other queries; the known pairs are mixed in so that a later
-// design over the same query draws afresh even with the same seed.
-func stream(seed uint64, query string, known map[string]Label) *rand.Rand {
-	h := fnv.New64a()
-	h.Write([]byte(query))
-	k := uint64(len(known)) * 0x9e3779b97f4a7c15
-	return rand.New(rand.NewPCG(seed, h.Sum64()^k))
+// prn is a pair's permanent random number: FNV-1a 64 of the seed, query
+// and document (NUL-separated, so no two pairs share an input), finished
+// with splitmix64's mixer (Steele, Lea & Flood, OOPSLA 2014) so that every
+// bit depends on every input byte, then its top 53 bits as a uniform float
+// in [0, 1).
+func prn(seed uint64, query, doc string) float64 {
+	return float64(pairHash(seed, query, doc)>>11) / (1 << 53)
 }
 
-func draw(plan *Plan, d Design, runs []NamedRun, kq map[string]Label, offers []Offer, p *queryPool, bands []band) {
-	rng := stream(d.Seed, p.query, kq)
+func pairHash(seed uint64, query, doc string) uint64 {
+	const prime = 1099511628211
+	h := uint64(14695981039346656037)
+	for i := range 8 {
+		h = (h ^ (seed >> (8 * i) & 0xff)) * prime
+	}
+	for i := 0; i < len(query); i++ {
+		h = (h ^ uint64(query[i])) * prime
+	}
+	h *= prime // the NUL between query and document
+	for i := 0; i < len(doc); i++ {
+		h = (h ^ uint64(doc[i])) * prime
+	}
+	return mix64(h)
+}
+
+// mix64 is splitmix64's finaliser.
+func mix64(z uint64) uint64 {
+	z = (z ^ z>>30) * 0xbf58476d1ce4e5b9
+	z = (z ^ z>>27) * 0x94d049bb133111eb
+	return z ^ z>>31
+}
+
+func draw(plan *Plan, d Design, runs []NamedRun, kq map[string]Label, p *queryPool, bands []band) {
 	depth := d.Depth
 	if d.Kind == KindStratified {
 		depth = d.MaxDepth
-	}
-	for s := 1; s < len(bands); s++ {
-		if r := p.rates[s]; r > 0 && r < 1 {
-			plan.Offers = append(plan.Offers, Offer{Query: p.query, FromRank: bands[s].from, ToRank: bands[s].to, Rate: r})
-		}
 	}
 	for _, c := range p.cands {
 		s := stratumOf(bands, c.best)
 		r := p.rates[s]
 		l, isKnown := kq[c.doc]
-		var u float64
-		if s > 0 {
-			u = rng.Float64() // drawn for every deeper pair, so streams stay aligned
-		}
 		if isKnown {
 			plan.Already++
-			if l.Prob >= 1 || r == 0 {
-				continue
+			if r <= l.Prob {
+				continue // as likely as before, or more: nothing changes
 			}
-		} else if s > 0 && u >= r {
+		} else if s > 0 && prn(d.Seed, p.query, c.doc) >= r {
 			continue
 		}
-		before := l.Prob
-		if !isKnown {
-			before = earlierProb(offers, c.best)
-		}
-		ch := Choice{Query: p.query, Doc: c.doc, Stratum: s, Prob: r, Priority: depth + 1 - c.best}
-		ch.Combined = before + (1-before)*r // 1 - (1-before)(1-r), exact when before is 0
+		ch := Choice{Query: p.query, Doc: c.doc, Stratum: s, Prob: r, Combined: r, Priority: depth + 1 - c.best}
 		switch {
 		case d.Kind == KindDepth:
 			ch.Reason = fmt.Sprintf("rank %d in %s, in the depth-%d pool", c.best, runs[c.run].Name, d.Depth)

@@ -189,49 +189,90 @@ func TestDepthPlan(t *testing.T) {
 }
 
 // A pair the project holds at probability p is not drawn again: it is
-// chosen with Combined 1-(1-p)(1-r), and a pair it lacks that an earlier
-// offer covered gets 1-(1-e)(1-r) when drawn.
+// chosen with Combined = the new rate when that is above p, and left alone
+// otherwise; a pair it lacks is drawn iff its permanent random number lies
+// below the rate.
 func TestCombinedProbabilityRecorded(t *testing.T) {
 	var ids []string
 	for i := range 40 {
 		ids = append(ids, fmt.Sprintf("d%02d", i))
 	}
 	runs := []NamedRun{run("a", map[string][]rankeval.ScoredDoc{"q": docs(ids...)})}
-	known := Labels{"q": {"d20": {Grade: 2, Prob: 0.4, Stratum: 3}}}
-	d := Design{Kind: KindStratified, Depth: 5, MaxDepth: 40, Budget: 15, Seed: 1,
-		Earlier: []Offer{{Query: "q", FromRank: 21, ToRank: 40, Rate: 0.4}}}
+	known := Labels{"q": {
+		"d20": {Grade: 2, Prob: 0.01, Stratum: 3},
+		"d30": {Grade: 0, Prob: 0.99, Stratum: 3},
+		"d02": {Grade: -1, Prob: 0.5, Stratum: 1},
+	}}
+	d := Design{Kind: KindStratified, Depth: 5, MaxDepth: 40, Budget: 15, Seed: 1}
 	p, err := MakePlan(d, runs, known)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(p.Notes) != 0 {
-		t.Fatalf("notes %v", p.Notes)
-	}
 	rate := p.Strata[3].Rate
-	var sawKnown bool
+	if !(rate > 0.01 && rate < 0.99) {
+		t.Fatalf("rate %v of ranks 21-40: the check needs it between the known probabilities", rate)
+	}
+	chosen := map[string]Choice{}
 	for _, ch := range p.Choices {
-		switch {
-		case ch.Doc == "d20":
-			sawKnown = true
-			near(t, "known pair", ch.Combined, 1-0.6*(1-rate), 1e-12)
-			if !strings.Contains(ch.Reason, "chosen before, probability now") {
-				t.Errorf("reason %q", ch.Reason)
-			}
-		case ch.Stratum == 3:
-			near(t, "new pair in an offered band", ch.Combined, 1-0.6*(1-rate), 1e-12)
-		case ch.Stratum > 0:
-			near(t, "new pair", ch.Combined, ch.Prob, 0)
+		chosen[ch.Doc] = ch
+		if ch.Combined != ch.Prob {
+			t.Errorf("%+v: Combined is the rate", ch)
 		}
 	}
-	if !sawKnown {
-		t.Fatal("the known pair was not chosen again")
+	if ch, ok := chosen["d20"]; !ok || ch.Combined != rate || !strings.Contains(ch.Reason, "chosen before, probability now") {
+		t.Errorf("known pair below the rate: %+v (chosen %v)", ch, ok)
 	}
-	// Without the earlier offers the plan says what it cannot know.
-	d.Earlier = nil
-	p, _ = MakePlan(d, runs, known)
-	if len(p.Notes) != 1 || !strings.Contains(p.Notes[0], "pass the earlier plans' offers") {
-		t.Fatalf("notes %v", p.Notes)
+	if _, ok := chosen["d30"]; ok {
+		t.Error("known pair above the rate chosen again")
 	}
+	if ch := chosen["d02"]; ch.Combined != 1 || !strings.HasSuffix(ch.Reason, "chosen before, now certain") {
+		t.Errorf("known pair in the top stratum: %+v", ch)
+	}
+	if p.Already != 3 {
+		t.Errorf("already %d, want 3", p.Already)
+	}
+	for i, id := range ids[5:] {
+		if _, ok := known["q"][id]; ok {
+			continue
+		}
+		s := stratumOf(strataBands(5, 40), i+6)
+		want := prn(d.Seed, "q", id) < p.Strata[s].Rate
+		if _, ok := chosen[id]; ok != want {
+			t.Errorf("%s: chosen %v, want %v (prn %v, rate %v)", id, ok, want, prn(d.Seed, "q", id), p.Strata[s].Rate)
+		}
+	}
+}
+
+// The permanent random numbers are uniform on [0, 1): a Kolmogorov–Smirnov
+// test (scipy.stats.kstest) of 10,000 pairs' numbers under each of two
+// seeds, and a Pearson correlation (scipy.stats.pearsonr) between the two
+// seeds' numbers of the same pairs, which should be unrelated.
+func TestPermanentRandomNumbersUniform(t *testing.T) {
+	var a, b []float64
+	for q := range 100 {
+		for d := range 100 {
+			qs, ds := fmt.Sprintf("q%d", q), fmt.Sprintf("doc-%d", d)
+			a = append(a, prn(1, qs, ds))
+			b = append(b, prn(2, qs, ds))
+		}
+	}
+	in, _ := json.Marshal(map[string][]float64{"a": a, "b": b})
+	out := reference.RunPython(t, "scipy", `
+import json, sys
+from scipy.stats import kstest, pearsonr
+d = json.load(sys.stdin)
+print(json.dumps({"pa": kstest(d["a"], "uniform").pvalue, "pb": kstest(d["b"], "uniform").pvalue, "pr": pearsonr(d["a"], d["b"]).pvalue}))
+`, in)
+	var got struct{ Pa, Pb, Pr float64 }
+	if err := json.Unmarshal(out, &got); err != nil {
+		t.Fatal(err)
+	}
+	// Fixed inputs, so the p-values are fixed too; 0.001 only catches a
+	// broken hash.
+	if got.Pa < 0.001 || got.Pb < 0.001 || got.Pr < 0.001 {
+		t.Fatalf("p-values: uniform %v %v, unrelated across seeds %v", got.Pa, got.Pb, got.Pr)
+	}
+	t.Logf("KS p-values %.3f %.3f, correlation across seeds p %.3f", got.Pa, got.Pb, got.Pr)
 }
 
 // The normal quantile and distribution function behind every interval,

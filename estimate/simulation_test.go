@@ -113,22 +113,22 @@ const compA, compB = 1, 2
 var simOptions = Options{K: 10, Threshold: 1, MaxGrade: 4}
 
 // totals sums over queries the estimated DCG@10 and AP numerator (to the
-// whole ranking) of each run, and the estimated number of relevant pairs.
+// whole ranking) of each run, and the estimated number of relevant pairs:
+// the Horvitz–Thompson sums at the labels' weights.
 func totals(c collection, labels Labels) (dcg, num []float64, rel float64) {
 	dcg, num = make([]float64, len(c.runs)), make([]float64, len(c.runs))
-	o10, oAll := simOptions, simOptions
+	o10, _ := simOptions.withDefaults(labels)
+	oAll := o10
 	oAll.K = 0
+	var t runTerms
 	for _, q := range sortedKeys(labels) {
-		l10, lAll := prepare(q, labels[q], o10), prepare(q, labels[q], oAll)
-		rel += lAll.rel
-		d := make([]float64, l10.nvar)
+		ql := label(q, labels[q], o10)
+		rel += ql.relevant(ql.w, o10.Threshold)
 		for i, r := range c.runs {
-			clear(d)
-			e10 := scoreQuery(&l10, r.Run[q], o10, d, d)
-			clear(d)
-			eAll := scoreQuery(&lAll, r.Run[q], oAll, d, d)
-			dcg[i] += e10.NDCG.Est * l10.idcg
-			num[i] += eAll.AP.Est * lAll.rel
+			ql.terms(r.Run[q], o10, &t)
+			dcg[i] += t.dcg(ql.w)
+			ql.terms(r.Run[q], oAll, &t)
+			num[i] += t.apNum(ql.w)
 		}
 	}
 	return dcg, num, rel
@@ -159,12 +159,18 @@ func findDiff(t testing.TB, rep Report, a, b, metric string) Difference {
 	return Difference{}
 }
 
-func (st *simTallies) add(t testing.TB, c collection, labels Labels) {
-	r10, err := Estimate(c.runs, labels, simOptions)
+// add estimates from one sample. Each sample's bootstrap gets its own
+// seed: the figures measured are then those of the estimator over samples
+// and bootstraps, not of one fixed set of multipliers reused on pairs
+// that recur across samples (the top strata, every time).
+func (st *simTallies) add(t testing.TB, c collection, labels Labels, seed uint64) {
+	o10 := simOptions
+	o10.Seed = seed
+	r10, err := Estimate(c.runs, labels, o10)
 	if err != nil {
 		t.Fatal(err)
 	}
-	oAll := simOptions
+	oAll := o10
 	oAll.K = 0
 	rAll, err := Estimate(c.runs, labels, oAll)
 	if err != nil {
@@ -198,19 +204,41 @@ func (st *simTallies) checkTotals(t testing.TB) {
 	st.rel.checkUnbiased(t)
 }
 
-// checkRatioBias bounds the bias of the per-run means, which are ratios of
-// estimates (NDCG = DCG/ideal DCG, AP = numerator/R) and so not unbiased:
-// the bounds are the measured bias with room, to catch a worse estimator.
-func (st *simTallies) checkRatioBias(t testing.TB, ndcgBound, apBound float64) {
+// bounds are what an estimated quantity must meet over the samples: mean
+// error within biasSE standard errors of 0, 95% interval coverage in
+// [minCover, 0.97].
+type bounds struct{ biasSE, minCover float64 }
+
+// required is the product's requirement.
+var required = bounds{3, 0.93}
+
+// checkEstimates checks every run's mean NDCG@10 and MAP and both
+// differences against their bounds; bounds looser than required are
+// measured shortfalls, logged as such so that they stay in view.
+func (st *simTallies) checkEstimates(t testing.TB, ndcg, ap, diffNDCG, diffAP bounds) {
+	type check struct {
+		x *tally
+		b bounds
+	}
+	var all []check
 	for i := range st.ndcg {
-		for _, x := range []struct {
-			t     *tally
-			bound float64
-		}{{st.ndcg[i], ndcgBound}, {st.ap[i], apBound}} {
-			x.t.log(t)
-			if math.Abs(x.t.meanErr()) > x.bound {
-				t.Errorf("%s: mean error %+.5f, beyond the known ratio bias (±%.3f)", x.t.name, x.t.meanErr(), x.bound)
-			}
+		all = append(all, check{st.ndcg[i], ndcg}, check{st.ap[i], ap})
+	}
+	all = append(all, check{st.diffNDCG, diffNDCG}, check{st.diffAP, diffAP})
+	for _, c := range all {
+		c.x.log(t)
+		bias, cover := c.x.meanErr()/c.x.se(), c.x.coverage()
+		if c.b != required && (math.Abs(bias) > required.biasSE || cover < required.minCover) {
+			t.Logf("%s: short of the requirement (%+.1f SE, coverage %.1f%%), within the measured bounds (%.0f SE, %.1f%%)",
+				c.x.name, bias, 100*cover, c.b.biasSE, 100*c.b.minCover)
+		}
+	}
+	for _, c := range all {
+		if c.x.se() > 0 && math.Abs(c.x.meanErr()) > c.b.biasSE*c.x.se() {
+			t.Errorf("%s: mean error %+.5f is %.1f standard errors from 0, bound %.0f", c.x.name, c.x.meanErr(), c.x.meanErr()/c.x.se(), c.b.biasSE)
+		}
+		if cv := c.x.coverage(); cv < c.b.minCover || cv > 0.97 {
+			t.Errorf("%s: 95%% intervals covered the truth in %.1f%% of samples, want %.1f-97%%", c.x.name, 100*cv, 100*c.b.minCover)
 		}
 	}
 }
@@ -239,7 +267,7 @@ func TestStratifiedSimulation(t *testing.T) {
 		}
 		strata = plan.Strata
 		st.spent.add(Interval{Est: float64(len(plan.Choices))})
-		st.add(t, c, labelsOf(c.truth, plan.Choices, nil))
+		st.add(t, c, labelsOf(c.truth, plan.Choices, nil), s+1)
 	}
 	t.Logf("pool %d pairs, budget %d", pool, budget)
 	for _, s := range strata {
@@ -248,36 +276,22 @@ func TestStratifiedSimulation(t *testing.T) {
 	st.spent.log(t)
 	st.spent.checkUnbiased(t) // the expected sample size is the budget
 	st.checkTotals(t)
-	// The differences and the NDCG intervals meet the mark.
-	for _, x := range []*tally{st.diffNDCG, st.diffAP} {
-		x.log(t)
-		x.checkUnbiased(t)
-		x.checkCoverage(t)
-	}
-	for _, x := range st.ndcg {
-		x.checkCoverage(t)
-	}
-	// Measured at this setting (seeds 1..1000): NDCG@10 is biased upwards
-	// by +0.0009 to +0.0027 (6 to 11 SE; the ideal DCG from estimated
-	// counts is concave in them, so it is low on average) and MAP
-	// downwards by -0.003 to -0.009 (8 to 19 SE; the ratio of the AP
-	// numerator and R, which are each unbiased and positively
-	// correlated). MAP's intervals cover 88-93%, below the 95% asked.
-	// The differences between runs cancel most of it.
-	st.checkRatioBias(t, 0.005, 0.015)
-	for _, x := range st.ap {
-		if c := x.coverage(); c < 0.85 {
-			t.Errorf("%s: intervals covered %.1f%%, below even the known shortfall (85%%)", x.name, 100*c)
-		}
-	}
+	// Measured at this setting (seeds 1..1000, 200 replicates): every mean
+	// error within 2.4 SE; the differences cover 94.6% (NDCG@10) and 93.6%
+	// (MAP). The runs' means cover 92.3-93.7% (NDCG@10) and 91.9-95.3%
+	// (MAP): a little short, from samples that miss a rare top-grade
+	// document outside every run's top 5 (no sample-based variance sees
+	// what the sample lacks). Shifted percentile intervals covered less
+	// (NDCG@10 91.5-93.1%, MAP 91.5-95.2%, differences 93.9% and 92.7%).
+	st.checkEstimates(t, bounds{3, 0.915}, bounds{3, 0.91}, required, required)
 }
 
-// TestTwoDesignsCombine applies two stratified designs in sequence (the
-// second with a deeper top stratum and its own budget, told the first
-// plan's offers) and checks that every pair ends with probability
-// 1 - (1 - p1)(1 - p2), p1 and p2 the rates each design gave its stratum,
-// and that the estimates from the union stay unbiased with honest
-// intervals.
+// TestTwoDesignsCombine applies two stratified designs in sequence with
+// the same seed (the second with a deeper top stratum and its own budget)
+// and checks that a pair is in the project iff its permanent random number
+// lies below max(p1, p2), p1 and p2 the rates each design gave its
+// stratum, that it then carries exactly that probability, and that the
+// estimates from the union stay unbiased with honest intervals.
 func TestTwoDesignsCombine(t *testing.T) {
 	c := simCollection()
 	ndcg, mapv := truths(t, c)
@@ -285,62 +299,74 @@ func TestTwoDesignsCombine(t *testing.T) {
 	st := newTallies(c, ndcg, mapv)
 	first := Design{Kind: KindStratified, Depth: 5, MaxDepth: 100, Budget: pool * 2 / 10}
 	second := Design{Kind: KindStratified, Depth: 10, MaxDepth: 100, Budget: pool * 2 / 10}
-	rateOf := func(p Plan, q string, rank int) float64 {
-		for _, o := range p.Offers {
-			if o.Query == q && rank >= o.FromRank && rank <= o.ToRank {
-				return o.Rate
-			}
-		}
-		if rank <= p.Design.Depth {
-			return 1
-		}
-		for _, s := range p.Strata {
-			if rank >= s.FromRank && rank <= s.ToRank {
-				return s.Rate // 0 or 1: no offer
-			}
-		}
-		return 0
-	}
 	best := bestRanks(c.runs)
-	for s := range uint64(samples / 2) {
-		first.Seed, second.Seed = 2*s+1, 2*s+2
+	for s := range uint64(samples) {
+		first.Seed, second.Seed = s+1, s+1
 		p1, err := MakePlan(first, c.runs, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
 		labels := labelsOf(c.truth, p1.Choices, nil)
-		second.Earlier = p1.Offers
 		p2, err := MakePlan(second, c.runs, labels)
 		if err != nil {
 			t.Fatal(err)
 		}
-		if len(p2.Notes) > 0 && s == 0 {
-			t.Logf("notes: %v", p2.Notes)
-		}
 		labels = labelsOf(c.truth, p2.Choices, labels)
 		if s < 20 {
-			for q, docs := range labels {
-				for d, l := range docs {
-					r := best[q][d]
-					want := 1 - (1-rateOf(p1, q, r))*(1-rateOf(p2, q, r))
-					if math.Abs(l.Prob-want) > 1e-12 {
-						t.Fatalf("sample %d, %s %s at best rank %d: probability %v, want 1-(1-p1)(1-p2) = %v", s, q, d, r, l.Prob, want)
-					}
-				}
-			}
+			checkCoordinated(t, c, best, labels, p1, p2)
 		}
-		st.add(t, c, labels)
+		st.add(t, c, labels, s+1)
 	}
 	st.checkTotals(t)
-	// The ratios carry the same biases as with one design; here NDCG@10's
-	// intervals also fall short (measured coverage 52-68%): the second
-	// design judges ranks 1-10 in full, so DCG@10 is exact and all the
-	// error is the ideal DCG's, whose linearisation sees no slope for
-	// grades with an estimated count past K (min(b, K) is flat there), and
-	// MAP's cover 87-93%. Bounded, not hidden.
-	st.checkRatioBias(t, 0.005, 0.015)
-	for _, x := range []*tally{st.diffNDCG, st.diffAP} {
-		x.log(t)
+	// Measured (seeds 1..1000, 200 replicates), short of the requirement:
+	// the second design judges ranks 1-10 in full, so DCG@10 is exact and
+	// all of NDCG@10's error is the ideal DCG's, which in this collection
+	// comes from a handful of queries (6 of 50) with a grade 3 or 4
+	// document outside every run's top 10, sampled at rates near 0.15-0.2.
+	// A sample that misses it has no variance for that query (the per-query
+	// bootstrap SE is exactly 0), one that holds it gives it a weight near
+	// 6: the error is a sum of few skewed terms. Means of NDCG@10 are off by
+	// +4.7 to +8.7 SE (+0.0002 to +0.0008) and cover 48-53%, their
+	// difference -2.9 SE, covering 40%; MAP within -3.2 SE, covering
+	// 90.7-92.2%, its difference 92.1%. Shifted percentile intervals did
+	// worse (NDCG@10 30-42%). Bounded here at the measured figures, not hidden.
+	st.checkEstimates(t, bounds{10, 0.45}, bounds{3.5, 0.9}, bounds{3.5, 0.37}, bounds{3, 0.91})
+}
+
+// rateOf is the rate a plan gave pairs of best rank r: 1 in its top
+// stratum, else its stratum's rate (a total budget gives every query the
+// same rates, so the summary's pair-weighted rate is that rate, to
+// rounding).
+func rateOf(p Plan, rank int) float64 {
+	if rank <= p.Design.Depth {
+		return 1
+	}
+	for _, s := range p.Strata {
+		if rank >= s.FromRank && rank <= s.ToRank {
+			return s.Rate
+		}
+	}
+	return 0
+}
+
+// checkCoordinated: after two plans with one seed, a pair is labelled iff
+// prn < max(p1, p2), with probability max(p1, p2); so the first plan's
+// pairs are among those the second would take alone where p2 >= p1.
+func checkCoordinated(t *testing.T, c collection, best map[string]map[string]int, labels Labels, p1, p2 Plan) {
+	t.Helper()
+	for q, docs := range c.truth {
+		for d := range docs {
+			r := best[q][d]
+			r1, r2 := rateOf(p1, r), rateOf(p2, r)
+			want := max(r1, r2)
+			l, in := labels[q][d]
+			if u := prn(p1.Design.Seed, q, d); in != (u < want) {
+				t.Fatalf("%s %s at best rank %d: labelled %v, prn %v, rates %v %v", q, d, r, in, u, r1, r2)
+			}
+			if in && math.Abs(l.Prob-want) > 1e-12 {
+				t.Fatalf("%s %s at best rank %d: probability %v, want max(p1, p2) = max(%v, %v)", q, d, r, l.Prob, r1, r2)
+			}
+		}
 	}
 }
 

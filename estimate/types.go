@@ -55,24 +55,11 @@ type Design struct {
 	// Wave: how many pairs an adaptive design (decide, find) releases at a
 	// time, so that several assessors have work while grades come back.
 	Wave int `json:"wave,omitempty"`
-	// Seed makes the sample repeatable. Give every design of a project its
-	// own seed: two designs drawing with the same seed are not independent.
+	// Seed keys the permanent random numbers of the sample (see MakePlan).
+	// Give every design of a project the same seed: then a later design
+	// takes every pair an earlier one took at a lower rate, and a pair's
+	// inclusion probability over all of them is the highest rate any gave it.
 	Seed uint64 `json:"seed"`
-	// Earlier lists the offers of every sampled plan applied before this
-	// one to these queries (their Plan.Offers). A pair they could have drawn
-	// but did not is not in the project, so only they tell its earlier
-	// probability, which its combined probability needs if drawn now.
-	Earlier []Offer `json:"earlier,omitempty"`
-}
-
-// Offer is the rate a sampled plan gave every pair of one query whose best
-// rank over the runs lies in FromRank..ToRank and that was not certain
-// already.
-type Offer struct {
-	Query    string  `json:"query"`
-	FromRank int     `json:"from_rank"`
-	ToRank   int     `json:"to_rank"`
-	Rate     float64 `json:"rate"`
 }
 
 // NamedRun is one run, its documents per query in any order (ranked here by
@@ -88,7 +75,8 @@ type Label struct {
 	// final grade yet.
 	Grade int `json:"grade"`
 	// Prob is the probability that the pair was chosen for judging, over
-	// every design that offered it (1 - prod(1 - p_i)); 1 for a pair judged
+	// every design that offered it (the highest rate any of them gave it,
+	// see MakePlan); 1 for a pair judged
 	// in full or known before any sampling, and for pairs chosen by
 	// adaptive designs (which are not probability samples).
 	Prob float64 `json:"prob"`
@@ -113,9 +101,8 @@ type Choice struct {
 	// Stratum: 0 for pairs judged in full (the top stratum, depth pools),
 	// 1.. for deeper sampled strata, -1 for adaptive choices.
 	Stratum int `json:"stratum"`
-	// Prob is the inclusion probability under this design, given that the
-	// pair was not chosen before; Combined is the probability over every
-	// design so far: 1 - (1 - before) * (1 - Prob).
+	// Prob is the rate this design gave the pair; Combined is its inclusion
+	// probability over every design so far: max(before, Prob).
 	Prob     float64 `json:"prob"`
 	Combined float64 `json:"combined"`
 	// Priority orders judging (higher first), as pairs.priority does.
@@ -145,7 +132,4 @@ type Plan struct {
 	// Notes say what the design could not do as asked (e.g. the budget ran
 	// out before every query got its top stratum).
 	Notes []string `json:"notes,omitempty"`
-	// Offers records the rates of the sampled strata per query (those
-	// strictly between 0 and 1), for Design.Earlier of the next design.
-	Offers []Offer `json:"offers,omitempty"`
 }
