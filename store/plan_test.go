@@ -305,6 +305,30 @@ func TestStratifiedDesignRecordsHowPairsWereChosen(t *testing.T) {
 		}
 	}
 
+	// Estimates while judging is in progress say so; after grading they carry intervals.
+	rep, err := f.s.DesignEstimate(ctx, f.project.ID, out.DesignID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Pending == 0 || rep.Signal.State != "judging" {
+		t.Errorf("before grading: pending %d, signal %+v; want pairs pending and the judging signal", rep.Pending, rep.Signal)
+	}
+	f.gradeAll(t)
+	rep, err = f.s.DesignEstimate(ctx, f.project.ID, out.DesignID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Estimates.Sampled == 0 {
+		t.Fatal("the first design sampled nothing below its top stratum")
+	}
+	if rep.Pending != 0 || len(rep.Estimates.Runs) != 3 || len(rep.Estimates.Differences) != 6 {
+		t.Fatalf("after grading: pending %d, %d runs, %d differences; want 0, 3 and 6 (3 run pairs × NDCG and AP)", rep.Pending, len(rep.Estimates.Runs), len(rep.Estimates.Differences))
+	}
+	for _, r := range rep.Estimates.Runs {
+		if !(r.NDCG.Low <= r.NDCG.Est && r.NDCG.Est <= r.NDCG.High) || r.NDCG.SE <= 0 {
+			t.Errorf("run %s: NDCG %+v, want an interval around the estimate with a positive SE (pairs were sampled)", r.Run, r.NDCG)
+		}
+	}
 	// A second design with twice the budget nests: each pair's probability is the larger rate.
 	req2 := req
 	req2.Settings.Design.Budget = 180
@@ -329,25 +353,4 @@ func TestStratifiedDesignRecordsHowPairsWereChosen(t *testing.T) {
 		}
 	}
 
-	// Estimates while judging is in progress say so; after grading they carry intervals.
-	rep, err := f.s.DesignEstimate(ctx, f.project.ID, out.DesignID)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if rep.Pending == 0 || rep.Signal.State != "judging" {
-		t.Errorf("before grading: pending %d, signal %+v; want pairs pending and the judging signal", rep.Pending, rep.Signal)
-	}
-	f.gradeAll(t)
-	rep, err = f.s.DesignEstimate(ctx, f.project.ID, out2.DesignID)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if rep.Pending != 0 || len(rep.Estimates.Runs) != 3 || len(rep.Estimates.Differences) != 6 {
-		t.Fatalf("after grading: pending %d, %d runs, %d differences; want 0, 3 and 6 (3 run pairs × NDCG and AP)", rep.Pending, len(rep.Estimates.Runs), len(rep.Estimates.Differences))
-	}
-	for _, r := range rep.Estimates.Runs {
-		if !(r.NDCG.Low <= r.NDCG.Est && r.NDCG.Est <= r.NDCG.High) || r.NDCG.SE <= 0 {
-			t.Errorf("run %s: NDCG %+v, want an interval around the estimate with a positive SE (pairs were sampled)", r.Run, r.NDCG)
-		}
-	}
 }
