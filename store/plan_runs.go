@@ -40,6 +40,8 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 	tag, tagLine := "", 0
 	entries := 0
 	queries := map[string]bool{}
+	// The entries read here are the run a plan made next will ask for: keep them parsed.
+	run := rankeval.Run{}
 	err := ingest.ReadRun(io.TeeReader(body, zw), ingest.Options{File: name}, func(e ingest.RunEntry) error {
 		if tag == "" {
 			tag, tagLine = e.Tag, e.Line
@@ -48,6 +50,7 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 		}
 		entries++
 		queries[e.QueryID] = true
+		run[e.QueryID] = append(run[e.QueryID], rankeval.ScoredDoc{DocID: e.DocID, Score: e.Score})
 		return nil
 	})
 	if err != nil {
@@ -87,6 +90,9 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 		}
 		return audit(ctx, tx, by, projectID, "run.keep", name, fmt.Sprintf("%d entries over %d queries", entries, len(queries)))
 	})
+	if err == nil {
+		s.runs.put(kr.ID, estimate.NamedRun{Name: name, Run: run}, entries)
+	}
 	return kr, err
 }
 
