@@ -11,6 +11,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/ingest"
 	"github.com/pertinent/pertinent/rankeval"
@@ -20,7 +21,7 @@ import (
 // -> document external id -> grade), with the top grade of the project's scale.
 func (s *Store) FinalGrades(ctx context.Context, projectID int64, policy export.LabelPolicy) (rankeval.Qrels, int, error) {
 	if err := policy.Validate(); err != nil {
-		return nil, 0, errorf(CodeInvalid, strings.TrimPrefix(err.Error(), "export: "))
+		return nil, 0, err
 	}
 	levels, err := s.Scale(ctx, projectID)
 	if err != nil {
@@ -132,7 +133,7 @@ func (s *Store) Evaluate(ctx context.Context, projectID int64, req EvalRequest, 
 		}
 		sum, err := rankeval.Evaluate(qrels, run, opts)
 		if err != nil {
-			return Evaluation{}, errorf(CodeInvalid, strings.TrimPrefix(err.Error(), "rankeval: "))
+			return Evaluation{}, err
 		}
 		ev.Runs = append(ev.Runs, name)
 		ev.Summaries = append(ev.Summaries, sum)
@@ -141,8 +142,11 @@ func (s *Store) Evaluate(ctx context.Context, projectID int64, req EvalRequest, 
 		for _, m := range ComparedMetrics {
 			c, err := rankeval.Compare(ev.Summaries[0], ev.Summaries[1], m, comparePermutations, compareSeed)
 			if err != nil {
-				ev.CompareNotes = append(ev.CompareNotes, string(m)+": "+strings.TrimPrefix(err.Error(), "rankeval: "))
-				continue
+				if e, ok := pertinent.AsError(err); ok {
+					ev.CompareNotes = append(ev.CompareNotes, string(m)+": "+e.Message)
+					continue
+				}
+				return Evaluation{}, err
 			}
 			if math.IsInf(c.T, 0) {
 				// Every query moved by the same amount: t is infinite, which JSON cannot hold.

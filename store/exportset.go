@@ -62,7 +62,7 @@ func (s *Store) PlanExport(ctx context.Context, projectID int64, req ExportReque
 		return nil, err
 	}
 	if err := req.Policy.Validate(); err != nil {
-		return nil, errorf(CodeInvalid, strings.TrimPrefix(err.Error(), "export: "))
+		return nil, err
 	}
 	switch req.Format {
 	case FormatSVMlight, FormatQrels, FormatCSV, FormatJSONL:
@@ -128,7 +128,7 @@ func (pl *ExportPlan) planSplit(ctx context.Context) error {
 		return errorf(CodeInvalid, fmt.Sprintf("unknown split %q (want none, ratio or k-fold)", sp.Method))
 	}
 	if err != nil {
-		return errorf(CodeInvalid, strings.TrimPrefix(err.Error(), "export: "))
+		return err
 	}
 	return nil
 }

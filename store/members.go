@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"database/sql"
+	"errors"
 	"time"
 )
 
@@ -48,7 +49,7 @@ func (s *Store) RemoveMember(ctx context.Context, projectID, userID int64, by in
 		var username, role string
 		err = tx.QueryRowContext(ctx, `SELECT u.username, m.role FROM project_members m JOIN users u ON u.id = m.user_id
 			WHERE m.project_id = ? AND m.user_id = ?`, projectID, userID).Scan(&username, &role)
-		if err == sql.ErrNoRows {
+		if errors.Is(err, sql.ErrNoRows) {
 			return errorf(CodeNotFound, "that person is not a member of this project")
 		}
 		if err != nil {

@@ -97,7 +97,7 @@ func (r *PlanRequest) normalise(projectID int64) error {
 		r.Settings.Policy = DefaultPlanPolicy
 	}
 	if err := r.Settings.Policy.Validate(); err != nil {
-		return errorf(CodeInvalid, err.Error())
+		return err
 	}
 	d.Seed = prnSeed(projectID)
 	return nil
@@ -120,7 +120,7 @@ func (s *Store) PlanJudging(ctx context.Context, projectID, by int64, req PlanRe
 		return PlanOutcome{}, err
 	}
 	if err := estimate.CheckRuns(runs, queries, req.Settings.BreakTies); err != nil {
-		return PlanOutcome{}, errorf(CodeInvalid, err.Error())
+		return PlanOutcome{}, err
 	}
 	d := req.Settings.Design
 	if d.Kind == estimate.KindDecide {
@@ -194,7 +194,7 @@ func (s *Store) makePlan(ctx context.Context, projectID int64, set DesignSetting
 		plan, err = estimate.MakePlan(set.Design, runs, known)
 	}
 	if err != nil {
-		return plan, errorf(CodeInvalid, err.Error())
+		return plan, err
 	}
 	return plan, nil
 }
@@ -579,13 +579,13 @@ func (s *Store) DesignEstimate(ctx context.Context, projectID, designID int64) (
 	rep := DesignReport{Design: d, Chosen: st.chosen, Graded: st.graded, Pending: st.pending, BudgetLeft: st.budgetLeft(d)}
 	labels := designQueries(st.labels, st.runs)
 	if rep.Estimates, err = estimate.Estimate(st.runs, labels, opts); err != nil {
-		return DesignReport{}, errorf(CodeInvalid, err.Error())
+		return DesignReport{}, err
 	}
 	left := rep.BudgetLeft
 	if set.Design.Kind == estimate.KindDecide {
 		dec, err := estimate.Decide(set.Design, st.runs, labels, set.Gain, top)
 		if err != nil {
-			return DesignReport{}, errorf(CodeInvalid, err.Error())
+			return DesignReport{}, err
 		}
 		rep.Decision = &dec
 	}
@@ -662,7 +662,7 @@ func QueriesFor(rep DesignReport, metric string, req estimate.QueryPlanRequest) 
 		return out, errorf(CodeInvalid, fmt.Sprintf("unknown metric %q: choose ndcg or ap", metric))
 	}
 	if out.Plan, err = estimate.PlanQueries(t, req); err != nil {
-		return out, errorf(CodeInvalid, err.Error())
+		return out, err
 	}
 	for _, m := range []string{"ndcg", "ap"} {
 		p, err := estimate.DiscriminativePower(m, table(m), req.Alpha)

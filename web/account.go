@@ -6,6 +6,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -101,7 +102,7 @@ func (s *Server) setPassword(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	if _, err := s.store.UsePasswordLink(r.Context(), token, pw); err != nil {
-		if store.ErrorCode(err) == store.CodeInvalid {
+		if pertinent.CodeOf(err) == pertinent.Invalid {
 			u, uerr := s.store.PasswordLinkUser(r.Context(), token)
 			if uerr == nil {
 				s.render(w, r, http.StatusBadRequest, "setpassword", "", s.newView(r, "Choose a password",

@@ -11,6 +11,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -59,13 +60,10 @@ func apiJSON(w http.ResponseWriter, v any) {
 	enc.Encode(v)
 }
 
-// apiStoreError maps a store error's code to a status, as storeError does for pages.
+// apiStoreError answers an error as JSON, with the status storeError gives pages.
 func (s *Server) apiStoreError(w http.ResponseWriter, r *http.Request, err error) {
-	var e *store.Error
-	if errors.As(err, &e) {
-		status := map[store.Code]int{store.CodeInvalid: http.StatusBadRequest, store.CodeNotFound: http.StatusNotFound,
-			store.CodeConflict: http.StatusConflict, store.CodeDenied: http.StatusForbidden}[e.Code]
-		if status != 0 {
+	if e, ok := pertinent.AsError(err); ok {
+		if status := codeStatus(e.Code); status != 0 {
 			apiError(w, status, e.Message)
 			return
 		}

@@ -9,6 +9,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/rankeval"
 	"github.com/pertinent/pertinent/store"
 )
@@ -238,8 +239,8 @@ func (s *Server) sendUnjudged(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
 	added, missing, err := s.store.AddPooledPairs(r.Context(), p.ID, ev.Unjudged, u.ID)
 	if err != nil {
-		var se *store.Error
-		if errors.As(err, &se) && se.Code == store.CodeConflict {
+		var se *pertinent.Error
+		if errors.As(err, &se) && se.Code == pertinent.Conflict {
 			s.flash(w, r, "notice", se.Message)
 			http.Redirect(w, r, fmt.Sprintf("/projects/%d/evaluations/%d", p.ID, ev.ID), http.StatusSeeOther)
 			return

@@ -13,6 +13,7 @@ import (
 
 	"github.com/microcosm-cc/bluemonday"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -219,7 +220,7 @@ func (s *Server) judgeSubmit(w http.ResponseWriter, r *http.Request) {
 	}
 	if htmx {
 		turn, err := s.store.SubmitAndNext(r.Context(), currentProject(r).ID, sub)
-		if store.ErrorCode(err) == store.CodeNotFound {
+		if pertinent.CodeOf(err) == pertinent.NotFound {
 			s.fail(w, r, http.StatusNotFound, "That pair is not part of this project.")
 			return
 		}
