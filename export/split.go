@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"slices"
 	"strconv"
+	"strings"
 
 	"github.com/pertinent/pertinent"
 )
@@ -111,4 +112,21 @@ func SplitKFold(queryIDs []string, k int, seed uint64) (map[string]string, error
 		out[q] = FoldName(i % k)
 	}
 	return out, nil
+}
+
+// ParseRatios reads "0.8,0.1,0.1" (train, validation, test).
+func ParseRatios(s string) (*Ratios, error) {
+	fields := strings.Split(s, ",")
+	if len(fields) != 3 {
+		return nil, pertinent.Errorf(pertinent.Invalid, "export", "a split needs three ratios, train,validation,test: e.g. 0.8,0.1,0.1")
+	}
+	var v [3]float64
+	for i, f := range fields {
+		x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil {
+			return nil, pertinent.Errorf(pertinent.Invalid, "export", "split ratio %q is not a number", f)
+		}
+		v[i] = x
+	}
+	return &Ratios{Train: v[0], Validation: v[1], Test: v[2]}, nil
 }

@@ -154,9 +154,9 @@ func BenchmarkExportSVMlightFromStore(b *testing.B) {
 				planPeak = max(planPeak, stop())
 				runtime.GC()
 				stop = peakHeap()
-				var sink ExportSink = &DirSink{Dir: b.TempDir()}
+				var sink export.Sink = &export.DirSink{Dir: b.TempDir()}
 				if bc.zip {
-					zs := NewZipSink(io.Discard, time.Now())
+					zs := export.NewZipSink(io.Discard, time.Now())
 					sink = zs
 					defer zs.Close()
 				}
@@ -164,7 +164,7 @@ func BenchmarkExportSVMlightFromStore(b *testing.B) {
 				if err != nil {
 					b.Fatal(err)
 				}
-				if ds, ok := sink.(*DirSink); ok {
+				if ds, ok := sink.(*export.DirSink); ok {
 					ds.Close()
 				}
 				rows += m.Rows

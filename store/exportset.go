@@ -4,8 +4,6 @@ import (
 	"bytes"
 	"context"
 	"fmt"
-	"io"
-	"strconv"
 	"strings"
 	"time"
 
@@ -31,13 +29,6 @@ type ExportRequest struct {
 	// Split is how queries are divided: Method "none" (or empty), "ratio" with Ratios, or
 	// "k-fold" with Folds; Seed drives the shuffle.
 	Split export.SplitSpec
-}
-
-// ExportSink receives the files of an export. Sequential sinks (a zip stream) get one file at
-// a time: each Create ends the previous file. Others (a directory) may hold several open.
-type ExportSink interface {
-	Create(name string) (io.Writer, error)
-	Sequential() bool
 }
 
 // ExportPlan is a validated export, ready to write: the Dawid-Skene fit, the split and the
@@ -194,7 +185,7 @@ type partFile struct {
 // Write streams the export into sink and returns its manifest, which is also written to the
 // sink as manifest.json, last. progress, when not nil, is called after every pair read, with
 // the number read so far over all passes.
-func (pl *ExportPlan) Write(ctx context.Context, sink ExportSink, now time.Time, progress func(int)) (export.Manifest, error) {
+func (pl *ExportPlan) Write(ctx context.Context, sink export.Sink, now time.Time, progress func(int)) (export.Manifest, error) {
 	m := export.NewManifest(pl.req.Policy, now)
 	m.Project = pl.project.Name
 	m.Agreement = pl.agree
@@ -328,7 +319,7 @@ func reasonKey(why string) string {
 	return why
 }
 
-func (pl *ExportPlan) openPass(sink ExportSink, names []string, qids *export.QIDMap) (map[string]*partFile, error) {
+func (pl *ExportPlan) openPass(sink export.Sink, names []string, qids *export.QIDMap) (map[string]*partFile, error) {
 	files := map[string]*partFile{}
 	if !pl.perSplitFiles() {
 		name := "pairs.csv"
@@ -376,7 +367,7 @@ func (pl *ExportPlan) openPass(sink ExportSink, names []string, qids *export.QID
 
 // closePass flushes the data files of a pass, then writes their group files (counted in
 // memory while the data went out, since a sequential sink cannot hold two files open).
-func (pl *ExportPlan) closePass(sink ExportSink, names []string, files map[string]*partFile, m *export.Manifest) error {
+func (pl *ExportPlan) closePass(sink export.Sink, names []string, files map[string]*partFile, m *export.Manifest) error {
 	order := names
 	if !pl.perSplitFiles() {
 		order = []string{"all"}
@@ -407,21 +398,4 @@ func (pl *ExportPlan) closePass(sink ExportSink, names []string, files map[strin
 		m.Files = append(m.Files, export.ManifestFile{Name: name, Format: "group", Rows: f.group.Groups()})
 	}
 	return nil
-}
-
-// ParseRatios reads "0.8,0.1,0.1" (train, validation, test).
-func ParseRatios(s string) (*export.Ratios, error) {
-	fields := strings.Split(s, ",")
-	if len(fields) != 3 {
-		return nil, errorf(CodeInvalid, "a split needs three ratios, train,validation,test: e.g. 0.8,0.1,0.1")
-	}
-	var v [3]float64
-	for i, f := range fields {
-		x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
-		if err != nil {
-			return nil, errorf(CodeInvalid, fmt.Sprintf("split ratio %q is not a number", f))
-		}
-		v[i] = x
-	}
-	return &export.Ratios{Train: v[0], Validation: v[1], Test: v[2]}, nil
 }

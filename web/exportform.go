@@ -124,7 +124,7 @@ func (f exportForm) request() (store.ExportRequest, error) {
 	case "none":
 	case "ratio":
 		req.Split.Method = "ratio"
-		if req.Split.Ratios, err = store.ParseRatios(f.Ratios); err != nil {
+		if req.Split.Ratios, err = export.ParseRatios(f.Ratios); err != nil {
 			return req, err
 		}
 	case "folds", "k-fold":

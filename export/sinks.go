@@ -1,4 +1,4 @@
-package store
+package export
 
 import (
 	"archive/zip"
@@ -9,6 +9,13 @@ import (
 	"path/filepath"
 	"time"
 )
+
+// Sink receives the files of an export. Sequential sinks (a zip stream) get one file at a
+// time: each Create ends the previous file. Others (a directory) may hold several open.
+type Sink interface {
+	Create(name string) (io.Writer, error)
+	Sequential() bool
+}
 
 // DirSink writes an export's files into a directory, several open at once.
 type DirSink struct {
