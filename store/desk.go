@@ -113,7 +113,7 @@ type AssessorFigures struct {
 
 // DriftWindow is how many of an assessor's latest compared judgments make the "recent" side
 // of the drift figure.
-const DriftWindow = 50
+const DriftWindow = agreement.DriftWindow
 
 // BootstrapReplicates is the number of bootstrap replicates used for the lead's intervals and
 // by `pertinent agreement --db`: 1000 up to 50,000 judgments, fewer above (200), because one

@@ -6,7 +6,6 @@ import (
 	"math"
 	"math/bits"
 	"slices"
-	"strconv"
 	"time"
 
 	"github.com/pertinent/pertinent/agreement"
@@ -147,13 +146,11 @@ func leaveOneOut(rows []deskRow, p int, buf []int8) (int, bool, []int8) {
 // assessorFigures builds one row per assessor with a current judgment in one pass over the
 // rows: each pair's grades are sorted once for the leave-one-out consensus, medians come from
 // one radix sort of (assessor, time) keys, and drift keeps only each assessor's latest
-// DriftWindow compared judgments.
+// agreement.DriftWindow compared judgments.
 func (d *Desk) assessorFigures() {
 	type acc struct {
 		f      AssessorFigures
-		agree  int // compared judgments equal to consensus
-		n      int // compared judgments
-		recent latest
+		drift  agreement.Drift
 		nTimes int
 	}
 	var accs []*acc
@@ -193,12 +190,7 @@ func (d *Desk) assessorFigures() {
 			if m < 2 {
 				continue
 			}
-			c := compared{r.at, r.id(), agreement.LeaveOneOutMedian(sorted, r.grade()) == r.grade()}
-			a.n++
-			if c.agree {
-				a.agree++
-			}
-			a.recent.add(c)
+			a.drift.Add(agreement.Compared{At: r.at, ID: r.id(), Agree: agreement.LeaveOneOutMedian(sorted, r.grade()) == r.grade()})
 		}
 	}
 	// By assessor, then time: LSD passes over the time's bytes, then the assessor's.
@@ -223,82 +215,10 @@ func (d *Desk) assessorFigures() {
 				MeanKappaQuadratic: agreement.Value{Why: why}, ConsensusAgreement: agreement.Value{Why: why},
 				ConsensusMAE: agreement.Value{Why: why}, GoldAccuracy: agreement.Value{Why: why}, GoldMAE: agreement.Value{Why: why}}
 		}
-		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = drift(a.n, a.agree, &a.recent)
+		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = a.drift.Shares()
 		d.Assessors = append(d.Assessors, *f)
 	}
 	slices.SortFunc(d.Assessors, func(a, b AssessorFigures) int { return cmp.Compare(a.Username, b.Username) })
-}
-
-type compared struct {
-	at, id int64
-	agree  bool
-}
-
-func (c compared) before(o compared) bool {
-	return c.at < o.at || (c.at == o.at && c.id < o.id)
-}
-
-// latest keeps the DriftWindow latest compared judgments (by time, then id) seen so far,
-// sorted, in a ring: buf[head] is the earliest once full. Judgments that come in time order
-// take the O(1) path (the earliest is overwritten); others shift part of the window.
-type latest struct {
-	buf        [DriftWindow]compared
-	head, n    int
-	agreeCount int // agreeing judgments in the window
-}
-
-func (w *latest) at(i int) *compared { return &w.buf[(w.head+i)%DriftWindow] }
-
-func (w *latest) add(c compared) {
-	if w.n == DriftWindow && !w.at(0).before(c) {
-		return // earlier than everything kept
-	}
-	// Position among the kept ones, counted from the end (time order is the usual case).
-	p := w.n
-	for p > 0 && c.before(*w.at(p - 1)) {
-		p--
-	}
-	if w.n < DriftWindow {
-		for i := w.n; i > p; i-- {
-			*w.at(i) = *w.at(i - 1)
-		}
-		w.n++
-	} else {
-		if w.at(0).agree {
-			w.agreeCount--
-		}
-		if p == w.n {
-			// The latest so far: it takes the earliest one's place, which becomes the end.
-			w.buf[w.head] = c
-			w.head = (w.head + 1) % DriftWindow
-			if c.agree {
-				w.agreeCount++
-			}
-			return
-		}
-		// Drop the earliest: shift the ones before p down, then put c just before them.
-		for i := 0; i+1 < p; i++ {
-			*w.at(i) = *w.at(i + 1)
-		}
-		p--
-	}
-	*w.at(p) = c
-	if c.agree {
-		w.agreeCount++
-	}
-}
-
-// drift compares the share of compared judgments agreeing with consensus over the last
-// DriftWindow (recent) with the share over all earlier ones.
-func drift(n, agree int, recent *latest) (recentV, earlier, diff agreement.Value, earlierN int) {
-	if n <= DriftWindow {
-		why := "needs more than " + strconv.Itoa(DriftWindow) + " grades compared with consensus"
-		return agreement.Value{Why: why}, agreement.Value{Why: why}, agreement.Value{Why: why}, 0
-	}
-	late := recent.agreeCount
-	cut := n - DriftWindow
-	r, e := float64(late)/float64(DriftWindow), float64(agree-late)/float64(cut)
-	return agreement.Value{V: r, OK: true}, agreement.Value{V: e, OK: true}, agreement.Value{V: r - e, OK: true}, cut
 }
 
 // Assessor returns one assessor's figures; ok is false when they have no current judgment.

@@ -56,7 +56,7 @@ func refAssessorFigures(d *Desk) {
 	type acc struct {
 		f     AssessorFigures
 		times []int32
-		comp  []compared
+		comp  []agreement.Compared
 	}
 	by := map[int64]*acc{}
 	var buf []int8
@@ -83,7 +83,7 @@ func refAssessorFigures(d *Desk) {
 			var ok bool
 			c, ok, buf = leaveOneOut(rows, i, buf)
 			if ok {
-				a.comp = append(a.comp, compared{r.at, r.id(), c == int(r.grade())})
+				a.comp = append(a.comp, agreement.Compared{At: r.at, ID: r.id(), Agree: c == int(r.grade())})
 			}
 		}
 	}
@@ -112,21 +112,21 @@ func refAssessorFigures(d *Desk) {
 
 // refDrift orders compared judgments by time (then id) and sets the share agreeing with
 // consensus over the last DriftWindow against the share over all earlier ones.
-func refDrift(comp []compared) (recent, earlier, diff agreement.Value, earlierN int) {
+func refDrift(comp []agreement.Compared) (recent, earlier, diff agreement.Value, earlierN int) {
 	if len(comp) <= DriftWindow {
 		why := "needs more than " + strconv.Itoa(DriftWindow) + " grades compared with consensus"
 		return agreement.Value{Why: why}, agreement.Value{Why: why}, agreement.Value{Why: why}, 0
 	}
-	slices.SortFunc(comp, func(a, b compared) int {
-		if c := cmp.Compare(a.at, b.at); c != 0 {
+	slices.SortFunc(comp, func(a, b agreement.Compared) int {
+		if c := cmp.Compare(a.At, b.At); c != 0 {
 			return c
 		}
-		return cmp.Compare(a.id, b.id)
+		return cmp.Compare(a.ID, b.ID)
 	})
-	share := func(cs []compared) float64 {
+	share := func(cs []agreement.Compared) float64 {
 		n := 0
 		for _, c := range cs {
-			if c.agree {
+			if c.Agree {
 				n++
 			}
 		}

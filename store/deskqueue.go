@@ -282,18 +282,7 @@ func (s *Store) Queue(ctx context.Context, d *Desk, f QueueFilter) ([]QueueItem,
 				it.GoldMiss = it.GoldMiss || x != g
 			}
 		}
-		if n := len(it.Grades); n > 0 {
-			it.Spread = it.Grades[n-1] - it.Grades[0]
-			mean := 0.0
-			for _, x := range it.Grades {
-				mean += float64(x)
-			}
-			mean /= float64(n)
-			for _, x := range it.Grades {
-				it.Variance += (float64(x) - mean) * (float64(x) - mean)
-			}
-			it.Variance /= float64(n)
-		}
+		it.Spread, it.Variance = agreement.Spread(it.Grades)
 		if it.Spread == 0 && !it.Flagged && !it.GoldMiss {
 			continue
 		}
