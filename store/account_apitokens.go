@@ -85,9 +85,9 @@ func (s *Store) RevokeAPIToken(ctx context.Context, userID, tokenID int64) error
 	})
 }
 
-// APITokenUser returns the account of a live API token (not revoked, account enabled) and
+// UserByAPIToken returns the account of a live API token (not revoked, account enabled) and
 // notes when the token was used. Any failure is ErrNotFound, whatever the cause.
-func (s *Store) APITokenUser(ctx context.Context, token string) (User, error) {
+func (s *Store) UserByAPIToken(ctx context.Context, token string) (User, error) {
 	if !strings.HasPrefix(token, APITokenPrefix) {
 		return User{}, ErrNotFound
 	}

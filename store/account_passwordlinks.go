@@ -70,8 +70,8 @@ func (s *Store) InviteUser(ctx context.Context, username, displayName string, ro
 	return l, err
 }
 
-// PasswordLinkUser returns the account a link is for, while the link is still usable.
-func (s *Store) PasswordLinkUser(ctx context.Context, token string) (User, error) {
+// UserByPasswordLink returns the account a link is for, while the link is still usable.
+func (s *Store) UserByPasswordLink(ctx context.Context, token string) (User, error) {
 	u, err := scanUser(s.r.QueryRowContext(ctx, `SELECT u.id, u.username, u.display_name, u.role, u.disabled_at IS NOT NULL
 		FROM password_links l JOIN users u ON u.id = l.user_id
 		WHERE l.token_hash = ? AND l.used_at IS NULL AND l.expires_at > ? AND u.disabled_at IS NULL`, tokenHash(token), timeText(s.clock())))

@@ -21,14 +21,14 @@ func TestPasswordLinkKeepsOnlyTheHashAndExpires(t *testing.T) {
 	if !bytes.Equal(stored, tokenHash(l.Token)) || bytes.Contains(stored, []byte(l.Token)) {
 		t.Error("the database holds something other than the token's hash")
 	}
-	if _, err := s.PasswordLinkUser(ctx, l.Token); err != nil {
+	if _, err := s.UserByPasswordLink(ctx, l.Token); err != nil {
 		t.Fatalf("a fresh link: %v", err)
 	}
 	// Expiry is read from the row: move it into the past.
 	if _, err := s.w.ExecContext(ctx, `UPDATE password_links SET expires_at = '2000-01-01T00:00:00.000Z'`); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := s.PasswordLinkUser(ctx, l.Token); ErrorCode(err) != CodeNotFound {
+	if _, err := s.UserByPasswordLink(ctx, l.Token); ErrorCode(err) != CodeNotFound {
 		t.Errorf("an expired link: %v, want not found", err)
 	}
 	if _, err := s.UsePasswordLink(ctx, l.Token, "a password after expiry"); ErrorCode(err) != CodeNotFound {

@@ -40,8 +40,8 @@ func (s *Store) CreateSession(ctx context.Context, userID int64, ttl time.Durati
 	return token, err
 }
 
-// SessionUser returns the user of a live session: unexpired, and the account not disabled.
-func (s *Store) SessionUser(ctx context.Context, token string) (User, error) {
+// UserBySession returns the user of a live session: unexpired, and the account not disabled.
+func (s *Store) UserBySession(ctx context.Context, token string) (User, error) {
 	if token == "" {
 		return User{}, ErrNotFound
 	}

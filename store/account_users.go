@@ -129,8 +129,8 @@ func scanUser(row interface{ Scan(...any) error }) (User, error) {
 	return u, err
 }
 
-// UserByID looks an account up by id.
-func (s *Store) UserByID(ctx context.Context, id int64) (User, error) {
+// User looks an account up by id.
+func (s *Store) User(ctx context.Context, id int64) (User, error) {
 	return scanUser(s.r.QueryRowContext(ctx, `SELECT `+userColumns+` FROM users WHERE id = ?`, id))
 }
 
@@ -214,15 +214,10 @@ func setPasswordHash(ctx context.Context, tx *sql.Tx, userID int64, hash string)
 	return err
 }
 
-// SetDisabled disables or re-enables an account from the command line (no actor in the
-// audit row). Disabling ends its sessions at once; its judgments stay.
-func (s *Store) SetDisabled(ctx context.Context, userID int64, disabled bool) error {
-	return s.SetDisabledBy(ctx, userID, disabled, 0)
-}
-
-// SetDisabledBy disables or re-enables an account on behalf of an admin. Disabling ends its
-// sessions and voids its open password links at once; its judgments and memberships stay.
-func (s *Store) SetDisabledBy(ctx context.Context, userID int64, disabled bool, by int64) error {
+// SetUserDisabled disables or re-enables an account on behalf of an admin (by), or from the
+// command line (by 0: no actor in the audit row). Disabling ends its sessions and voids its
+// open password links at once; its judgments and memberships stay.
+func (s *Store) SetUserDisabled(ctx context.Context, userID int64, disabled bool, by int64) error {
 	if disabled && userID == by {
 		return errorf(CodeConflict, "you cannot disable your own account: ask another admin")
 	}

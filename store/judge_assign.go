@@ -243,8 +243,8 @@ func (s *Store) ProjectProgress(ctx context.Context, projectID int64) (Progress,
 	return p, err
 }
 
-// PairProject returns the project a pair belongs to.
-func (s *Store) PairProject(ctx context.Context, pairID int64) (int64, error) {
+// ProjectIDByPair returns the project a pair belongs to.
+func (s *Store) ProjectIDByPair(ctx context.Context, pairID int64) (int64, error) {
 	var id int64
 	err := s.readRow(ctx, `SELECT project_id FROM pairs WHERE id = ?`, pairID).Scan(&id)
 	if errors.Is(err, sql.ErrNoRows) {

@@ -233,7 +233,7 @@ func TestChangesRespectTheProjectSetting(t *testing.T) {
 	if _, err := s.Revise(ctx, Submission{PairID: pairs[0], UserID: users[0], Grade: grade(3)}); ErrorCode(err) != CodeConflict {
 		t.Errorf("change with allow_changes off: %v, want a conflict", err)
 	}
-	mine, err := s.MyJudgments(ctx, p.ID, users[0], 10)
+	mine, err := s.JudgmentsByAssessor(ctx, p.ID, users[0], 10)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -298,7 +298,7 @@ func TestFlaggedPairsCountWithoutNames(t *testing.T) {
 	if len(f) != 2 || f[0].PairID != pairs[1] || f[0].Reason != "disturbing" || f[0].Count != 2 || f[1].Reason != "broken" {
 		t.Errorf("flagged = %+v, want the disturbing pair (2) first, then the broken one", f)
 	}
-	today, overall, err := s.MyCounts(ctx, p.ID, users[0], time.Now().Add(-time.Hour))
+	today, overall, err := s.JudgmentCountsByAssessor(ctx, p.ID, users[0], time.Now().Add(-time.Hour))
 	if err != nil || today != 2 || overall != 2 {
 		t.Errorf("counts today %d overall %d (%v), want 2 and 2", today, overall, err)
 	}

@@ -16,8 +16,8 @@ type MyJudgment struct {
 	Changeable    bool // the project allows changes and no lead has adjudicated the pair
 }
 
-// MyJudgments lists an assessor's current judgments in a project, newest first.
-func (s *Store) MyJudgments(ctx context.Context, projectID, userID int64, limit int) ([]MyJudgment, error) {
+// JudgmentsByAssessor lists an assessor's current judgments in a project, newest first.
+func (s *Store) JudgmentsByAssessor(ctx context.Context, projectID, userID int64, limit int) ([]MyJudgment, error) {
 	if limit <= 0 || limit > 500 {
 		limit = 50
 	}
@@ -54,10 +54,10 @@ func (s *Store) MyJudgments(ctx context.Context, projectID, userID int64, limit 
 	return out, rows.Err()
 }
 
-// MyCounts returns how many pairs an assessor has a current judgment of in a project, and
+// JudgmentCountsByAssessor returns how many pairs an assessor has a current judgment of in a project, and
 // how many first answers (not revisions, not withdrawn) they gave since the given time (the
 // start of their day, chosen by the caller).
-func (s *Store) MyCounts(ctx context.Context, projectID, userID int64, since time.Time) (today, overall int, err error) {
+func (s *Store) JudgmentCountsByAssessor(ctx context.Context, projectID, userID int64, since time.Time) (today, overall int, err error) {
 	err = s.r.QueryRowContext(ctx, `SELECT
 			COALESCE(SUM(j.created_at >= ?3 AND j.supersedes IS NULL AND j.withdrawn_at IS NULL), 0),
 			COALESCE(SUM(j.current), 0)

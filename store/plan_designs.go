@@ -405,8 +405,8 @@ func (s *Store) Designs(ctx context.Context, projectID int64) ([]Design, error) 
 	return out, nil
 }
 
-// DesignByID returns one judging design of the project.
-func (s *Store) DesignByID(ctx context.Context, projectID, designID int64) (Design, error) {
+// Design returns one judging design of the project.
+func (s *Store) Design(ctx context.Context, projectID, designID int64) (Design, error) {
 	row := s.r.QueryRowContext(ctx, `SELECT d.id, d.settings, d.runs, d.created_at, COALESCE(u.username, ''),
 		(SELECT COUNT(*) FROM pair_choices c WHERE c.design_id = d.id)
 		FROM designs d LEFT JOIN users u ON u.id = d.user_id WHERE d.project_id = ? AND d.id = ?`, projectID, designID)
@@ -455,7 +455,7 @@ func (s *Store) runNames(ctx context.Context, projectID int64, ids []int64) ([]s
 // its pairs wait for grades; it returns how many pairs it added. Other designs release
 // everything when they are made, so this does nothing for them.
 func (s *Store) AdvanceDesign(ctx context.Context, projectID, by, designID int64) (int, error) {
-	d, err := s.DesignByID(ctx, projectID, designID)
+	d, err := s.Design(ctx, projectID, designID)
 	if err != nil || !d.Adaptive() {
 		return 0, err
 	}
@@ -562,7 +562,7 @@ type DesignReport struct {
 // DesignEstimate reads the estimates of a design's runs from what has been judged so far.
 // Page, command line and API all show this value.
 func (s *Store) DesignEstimate(ctx context.Context, projectID, designID int64) (DesignReport, error) {
-	d, err := s.DesignByID(ctx, projectID, designID)
+	d, err := s.Design(ctx, projectID, designID)
 	if err != nil {
 		return DesignReport{}, err
 	}

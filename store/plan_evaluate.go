@@ -178,8 +178,8 @@ func (s *Store) SaveEvaluation(ctx context.Context, projectID, by int64, ev *Eva
 	})
 }
 
-// SavedEvaluation returns a kept evaluation of the project.
-func (s *Store) SavedEvaluation(ctx context.Context, projectID, id int64) (Evaluation, error) {
+// Evaluation returns a kept evaluation of the project.
+func (s *Store) Evaluation(ctx context.Context, projectID, id int64) (Evaluation, error) {
 	var body string
 	err := s.r.QueryRowContext(ctx, `SELECT result FROM evaluations WHERE id = ? AND project_id = ?`, id, projectID).Scan(&body)
 	if errors.Is(err, sql.ErrNoRows) {

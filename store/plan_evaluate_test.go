@@ -112,11 +112,11 @@ func TestEvaluateFromDatabaseEqualsRankevalOnHandBuiltQrels(t *testing.T) {
 	if err := f.s.SaveEvaluation(ctx, f.project.ID, f.lead.ID, &ev); err != nil {
 		t.Fatal(err)
 	}
-	back, err := f.s.SavedEvaluation(ctx, f.project.ID, ev.ID)
+	back, err := f.s.Evaluation(ctx, f.project.ID, ev.ID)
 	if err != nil || back.Summaries[1].NDCG != ev.Summaries[1].NDCG || len(back.Unjudged) != 3 {
 		t.Errorf("saved evaluation reads back as %+v (err %v)", back, err)
 	}
-	if _, err := f.s.SavedEvaluation(ctx, f.project.ID+1, ev.ID); ErrorCode(err) != CodeNotFound {
+	if _, err := f.s.Evaluation(ctx, f.project.ID+1, ev.ID); ErrorCode(err) != CodeNotFound {
 		t.Errorf("another project's evaluation: err %v, want not found", err)
 	}
 
@@ -168,7 +168,7 @@ func TestAddPooledPairs(t *testing.T) {
 		t.Errorf("existing pair: priority %d judged %d, want 3 and its 3 judgments", priority, judged)
 	}
 	// Archived projects are read-only.
-	if err := f.s.SetArchived(ctx, f.project.ID, true, f.lead.ID); err != nil {
+	if err := f.s.SetProjectArchived(ctx, f.project.ID, true, f.lead.ID); err != nil {
 		t.Fatal(err)
 	}
 	if _, _, err := f.s.AddPooledPairs(ctx, f.project.ID, pool[:1], f.lead.ID); ErrorCode(err) != CodeConflict {
@@ -187,7 +187,7 @@ func TestAPITokensAreStoredHashed(t *testing.T) {
 	if !strings.HasPrefix(token, APITokenPrefix) || len(token) < 40 {
 		t.Fatalf("token %q", token)
 	}
-	got, err := f.s.APITokenUser(ctx, token)
+	got, err := f.s.UserByAPIToken(ctx, token)
 	if err != nil || got.ID != u.ID {
 		t.Fatalf("token user %+v, %v; want lena", got, err)
 	}
@@ -195,7 +195,7 @@ func TestAPITokensAreStoredHashed(t *testing.T) {
 	if len(list) != 1 || list[0].ID != tok.ID || list[0].LastUsed.IsZero() {
 		t.Errorf("tokens %+v; want one, used", list)
 	}
-	if _, err := f.s.APITokenUser(ctx, token+"x"); err != ErrNotFound {
+	if _, err := f.s.UserByAPIToken(ctx, token+"x"); err != ErrNotFound {
 		t.Errorf("wrong token: %v, want not found", err)
 	}
 	if err := f.s.RevokeAPIToken(ctx, f.users["amir"].ID, tok.ID); ErrorCode(err) != CodeNotFound {
@@ -204,7 +204,7 @@ func TestAPITokensAreStoredHashed(t *testing.T) {
 	if err := f.s.RevokeAPIToken(ctx, u.ID, tok.ID); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := f.s.APITokenUser(ctx, token); err != ErrNotFound {
+	if _, err := f.s.UserByAPIToken(ctx, token); err != ErrNotFound {
 		t.Errorf("revoked token: %v, want not found", err)
 	}
 	// The token text is nowhere in the database files, its hash is.

@@ -38,9 +38,9 @@ func (s *Store) Members(ctx context.Context, projectID int64) ([]Member, error) 
 	return out, rows.Err()
 }
 
-// RemoveMember takes a person out of a project. Their judgments stay; the pairs they had
+// DeleteMember takes a person out of a project. Their judgments stay; the pairs they had
 // leased go back to the pool at once.
-func (s *Store) RemoveMember(ctx context.Context, projectID, userID int64, by int64) error {
+func (s *Store) DeleteMember(ctx context.Context, projectID, userID int64, by int64) error {
 	return s.write(ctx, func(tx *sql.Tx) error {
 		p, err := lockedProject(ctx, tx, projectID)
 		if err != nil {

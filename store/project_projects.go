@@ -159,8 +159,8 @@ type ProjectListing struct {
 	MineToDate int // current judgments of this user
 }
 
-// ProjectsFor lists the projects a user works on; admins see every project.
-func (s *Store) ProjectsFor(ctx context.Context, u User) ([]ProjectListing, error) {
+// ProjectsByUser lists the projects a user works on; admins see every project.
+func (s *Store) ProjectsByUser(ctx context.Context, u User) ([]ProjectListing, error) {
 	rows, err := s.r.QueryContext(ctx, `SELECT p.id, p.name, p.description, p.judgments_per_pair, p.gold_rate, p.lease_seconds,
 			p.allow_changes, p.archived_at IS NOT NULL, COALESCE(m.role, ''),
 			(SELECT COUNT(*) FROM pairs x WHERE x.project_id = p.id),

@@ -100,9 +100,9 @@ func settingsChanges(a, b ProjectSettings) []string {
 	return out
 }
 
-// SetArchived archives a project (read-only: no judging, no changes, still readable and
+// SetProjectArchived archives a project (read-only: no judging, no changes, still readable and
 // exportable) or restores it.
-func (s *Store) SetArchived(ctx context.Context, projectID int64, archived bool, by int64) error {
+func (s *Store) SetProjectArchived(ctx context.Context, projectID int64, archived bool, by int64) error {
 	return s.write(ctx, func(tx *sql.Tx) error {
 		p, err := scanProject(tx.QueryRowContext(ctx, `SELECT `+projectColumns+` FROM projects WHERE id = ?`, projectID))
 		if err != nil {
@@ -208,8 +208,8 @@ func (s *Store) PairCount(ctx context.Context, projectID int64) (int, error) {
 	return n, err
 }
 
-// AllProjects lists every project by name, for an admin's filters and lists.
-func (s *Store) AllProjects(ctx context.Context) ([]Project, error) {
+// Projects lists every project by name, for an admin's filters and lists.
+func (s *Store) Projects(ctx context.Context) ([]Project, error) {
 	rows, err := s.r.QueryContext(ctx, `SELECT `+projectColumns+` FROM projects ORDER BY name`)
 	if err != nil {
 		return nil, err

@@ -84,7 +84,7 @@ func (s *Server) apiAuth(next http.Handler) http.Handler {
 			apiError(w, http.StatusUnauthorized, "send an API token as: Authorization: Bearer <token> (create one under Your account → API tokens)")
 			return
 		}
-		u, err := s.store.APITokenUser(r.Context(), strings.TrimSpace(token))
+		u, err := s.store.UserByAPIToken(r.Context(), strings.TrimSpace(token))
 		if err != nil {
 			if errors.Is(err, store.ErrNotFound) {
 				w.Header().Set("WWW-Authenticate", `Bearer realm="pertinent", error="invalid_token"`)
@@ -118,7 +118,7 @@ type apiProjectJSON struct {
 }
 
 func (s *Server) apiProjects(w http.ResponseWriter, r *http.Request) {
-	ls, err := s.store.ProjectsFor(r.Context(), apiUser(r))
+	ls, err := s.store.ProjectsByUser(r.Context(), apiUser(r))
 	if err != nil {
 		s.apiStoreError(w, r, err)
 		return

@@ -147,7 +147,7 @@ func (s *Server) loadEvaluation(w http.ResponseWriter, r *http.Request) (store.E
 		s.fail(w, r, http.StatusNotFound, "There is no such evaluation.")
 		return store.Evaluation{}, false
 	}
-	ev, err := s.store.SavedEvaluation(r.Context(), currentProject(r).ID, id)
+	ev, err := s.store.Evaluation(r.Context(), currentProject(r).ID, id)
 	if err != nil {
 		s.storeError(w, r, err)
 		return ev, false

@@ -316,7 +316,7 @@ func (s *Server) parseSubmission(w http.ResponseWriter, r *http.Request, checkPr
 	if !checkProject {
 		return sub, true
 	}
-	if pv, err := s.store.PairProject(r.Context(), pairID); err != nil || pv != currentProject(r).ID {
+	if pv, err := s.store.ProjectIDByPair(r.Context(), pairID); err != nil || pv != currentProject(r).ID {
 		s.fail(w, r, http.StatusNotFound, "That pair is not part of this project.")
 		return store.Submission{}, false
 	}
