@@ -32,14 +32,14 @@ func (s *Store) CreateAPIToken(ctx context.Context, userID int64, name string) (
 	}
 	raw, _ := newToken()
 	token := APITokenPrefix + raw
-	t := APIToken{Name: name, CreatedAt: parseTime(now())}
+	t := APIToken{Name: name, CreatedAt: parseTime(s.now())}
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		err := tx.QueryRowContext(ctx, `INSERT INTO api_tokens(user_id, name, token_hash, created_at) VALUES (?, ?, ?, ?) RETURNING id`,
 			userID, name, tokenHash(token), timeText(t.CreatedAt)).Scan(&t.ID)
 		if err != nil {
 			return err
 		}
-		return audit(ctx, tx, userID, 0, "token.create", userRef(userID), "token "+strconv.FormatInt(t.ID, 10)+": "+name)
+		return s.audit(ctx, tx, userID, 0, "token.create", userRef(userID), "token "+strconv.FormatInt(t.ID, 10)+": "+name)
 	})
 	if err != nil {
 		return "", APIToken{}, err
@@ -74,14 +74,14 @@ func (s *Store) RevokeAPIToken(ctx context.Context, userID, tokenID int64) error
 	return s.write(ctx, func(tx *sql.Tx) error {
 		var name string
 		err := tx.QueryRowContext(ctx, `UPDATE api_tokens SET revoked_at = ? WHERE id = ? AND user_id = ? AND revoked_at IS NULL RETURNING name`,
-			now(), tokenID, userID).Scan(&name)
+			s.now(), tokenID, userID).Scan(&name)
 		if errors.Is(err, sql.ErrNoRows) {
 			return errorf(CodeNotFound, "you have no such token, or it is revoked already")
 		}
 		if err != nil {
 			return err
 		}
-		return audit(ctx, tx, userID, 0, "token.revoke", userRef(userID), "token "+strconv.FormatInt(tokenID, 10)+": "+name)
+		return s.audit(ctx, tx, userID, 0, "token.revoke", userRef(userID), "token "+strconv.FormatInt(tokenID, 10)+": "+name)
 	})
 }
 
@@ -97,7 +97,7 @@ func (s *Store) UserByAPIToken(ctx context.Context, token string) (User, error) 
 		err := tx.QueryRowContext(ctx, `UPDATE api_tokens SET last_used_at = ?
 			WHERE token_hash = ? AND revoked_at IS NULL
 			AND user_id IN (SELECT id FROM users WHERE disabled_at IS NULL AND role IN ('admin', 'lead', 'assessor'))
-			RETURNING user_id`, now(), tokenHash(token)).Scan(&uid)
+			RETURNING user_id`, s.now(), tokenHash(token)).Scan(&uid)
 		if errors.Is(err, sql.ErrNoRows) {
 			return ErrNotFound
 		}

@@ -29,13 +29,13 @@ func (s *Store) IssuePasswordLink(ctx context.Context, userID, by int64) (Passwo
 	var l PasswordLink
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		var err error
-		l, err = issueLink(ctx, s.clock(), tx, userID, by)
+		l, err = s.issueLink(ctx, s.clock(), tx, userID, by)
 		return err
 	})
 	return l, err
 }
 
-func issueLink(ctx context.Context, at time.Time, tx *sql.Tx, userID, by int64) (PasswordLink, error) {
+func (s *Store) issueLink(ctx context.Context, at time.Time, tx *sql.Tx, userID, by int64) (PasswordLink, error) {
 	u, err := scanUser(tx.QueryRowContext(ctx, `SELECT `+userColumns+` FROM users WHERE id = ? AND role != 'source'`, userID))
 	if err != nil {
 		return PasswordLink{}, err
@@ -52,7 +52,7 @@ func issueLink(ctx context.Context, at time.Time, tx *sql.Tx, userID, by int64) 
 		hash, userID, nullID(by), timeText(at), timeText(l.Expires)); err != nil {
 		return PasswordLink{}, err
 	}
-	return l, audit(ctx, tx, by, 0, "password.link", userRef(userID), "expires "+timeText(l.Expires))
+	return l, s.audit(ctx, tx, by, 0, "password.link", userRef(userID), "expires "+timeText(l.Expires))
 }
 
 // InviteUser creates an account without a password together with the link its holder
@@ -60,11 +60,11 @@ func issueLink(ctx context.Context, at time.Time, tx *sql.Tx, userID, by int64) 
 func (s *Store) InviteUser(ctx context.Context, username, displayName string, role Role, by int64) (PasswordLink, error) {
 	var l PasswordLink
 	err := s.write(ctx, func(tx *sql.Tx) error {
-		u, err := insertUser(ctx, tx, username, displayName, role, "", by)
+		u, err := s.insertUser(ctx, tx, username, displayName, role, "", by)
 		if err != nil {
 			return err
 		}
-		l, err = issueLink(ctx, s.clock(), tx, u.ID, by)
+		l, err = s.issueLink(ctx, s.clock(), tx, u.ID, by)
 		return err
 	})
 	return l, err
@@ -109,7 +109,7 @@ func (s *Store) UsePasswordLink(ctx context.Context, token, password string) (Us
 		if u, err = scanUser(tx.QueryRowContext(ctx, `SELECT `+userColumns+` FROM users WHERE id = ?`, userID)); err != nil {
 			return err
 		}
-		return audit(ctx, tx, userID, 0, "password.link_used", userRef(userID), "")
+		return s.audit(ctx, tx, userID, 0, "password.link_used", userRef(userID), "")
 	})
 	return u, err
 }

@@ -27,7 +27,7 @@ func tokenHash(token string) []byte {
 // CreateSession starts a session for a user and returns its token.
 func (s *Store) CreateSession(ctx context.Context, userID int64, ttl time.Duration) (string, error) {
 	token, hash := newToken()
-	t := time.Now()
+	t := s.clock()
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		// Sweep this user's expired sessions so the table does not grow without bound.
 		if _, err := tx.ExecContext(ctx, `DELETE FROM sessions WHERE user_id = ? AND expires_at < ?`, userID, timeText(t)); err != nil {
@@ -47,7 +47,7 @@ func (s *Store) UserBySession(ctx context.Context, token string) (User, error) {
 	}
 	u, err := scanUser(s.readRow(ctx, `SELECT u.id, u.username, u.display_name, u.role, u.disabled_at IS NOT NULL
 		FROM sessions s JOIN users u ON u.id = s.user_id
-		WHERE s.token_hash = ? AND s.expires_at > ? AND u.disabled_at IS NULL`, tokenHash(token), now()))
+		WHERE s.token_hash = ? AND s.expires_at > ? AND u.disabled_at IS NULL`, tokenHash(token), s.now()))
 	if errors.Is(err, ErrNotFound) {
 		return User{}, ErrNotFound
 	}

@@ -81,7 +81,7 @@ func (s *Store) CreateUser(ctx context.Context, username, displayName string, ro
 	}
 	var u User
 	err = s.write(ctx, func(tx *sql.Tx) error {
-		u, err = insertUser(ctx, tx, username, displayName, role, hash, 0)
+		u, err = s.insertUser(ctx, tx, username, displayName, role, hash, 0)
 		return err
 	})
 	return u, err
@@ -89,7 +89,7 @@ func (s *Store) CreateUser(ctx context.Context, username, displayName string, ro
 
 // insertUser adds an account inside tx and records who added it. An empty hash makes an
 // account that cannot sign in until a password is set.
-func insertUser(ctx context.Context, tx *sql.Tx, username, displayName string, role Role, hash string, by int64) (User, error) {
+func (s *Store) insertUser(ctx context.Context, tx *sql.Tx, username, displayName string, role Role, hash string, by int64) (User, error) {
 	username = strings.TrimSpace(username)
 	displayName = strings.TrimSpace(displayName)
 	if err := validUsername(username); err != nil {
@@ -103,14 +103,14 @@ func insertUser(ctx context.Context, tx *sql.Tx, username, displayName string, r
 	}
 	var id int64
 	err := tx.QueryRowContext(ctx, `INSERT INTO users(username, display_name, role, password_hash, created_at)
-		VALUES (?, ?, ?, ?, ?) RETURNING id`, username, displayName, string(role), hash, now()).Scan(&id)
+		VALUES (?, ?, ?, ?, ?) RETURNING id`, username, displayName, string(role), hash, s.now()).Scan(&id)
 	if isUniqueViolation(err) {
 		return User{}, errorf(CodeConflict, "the username "+username+" is taken")
 	}
 	if err != nil {
 		return User{}, err
 	}
-	if err := audit(ctx, tx, by, 0, "user.create", userRef(id), username+" as "+string(role)); err != nil {
+	if err := s.audit(ctx, tx, by, 0, "user.create", userRef(id), username+" as "+string(role)); err != nil {
 		return User{}, err
 	}
 	return User{ID: id, Username: username, DisplayName: displayName, Role: role}, nil
@@ -196,7 +196,7 @@ func (s *Store) SetPassword(ctx context.Context, userID int64, password string) 
 		if err := setPasswordHash(ctx, tx, userID, hash); err != nil {
 			return err
 		}
-		return audit(ctx, tx, 0, 0, "password.set", userRef(userID), "")
+		return s.audit(ctx, tx, 0, 0, "password.set", userRef(userID), "")
 	})
 }
 
@@ -227,7 +227,7 @@ func (s *Store) SetUserDisabled(ctx context.Context, userID int64, disabled bool
 		action := "user.enable"
 		if disabled {
 			action = "user.disable"
-			res, err = tx.ExecContext(ctx, `UPDATE users SET disabled_at = COALESCE(disabled_at, ?) WHERE id = ? AND role != 'source'`, now(), userID)
+			res, err = tx.ExecContext(ctx, `UPDATE users SET disabled_at = COALESCE(disabled_at, ?) WHERE id = ? AND role != 'source'`, s.now(), userID)
 		} else {
 			res, err = tx.ExecContext(ctx, `UPDATE users SET disabled_at = NULL WHERE id = ? AND role != 'source'`, userID)
 		}
@@ -245,7 +245,7 @@ func (s *Store) SetUserDisabled(ctx context.Context, userID int64, disabled bool
 				return err
 			}
 		}
-		return audit(ctx, tx, by, 0, action, userRef(userID), "")
+		return s.audit(ctx, tx, by, 0, action, userRef(userID), "")
 	})
 }
 
@@ -272,6 +272,6 @@ func (s *Store) ChangePassword(ctx context.Context, userID int64, current, next 
 		if err := setPasswordHash(ctx, tx, userID, hash); err != nil {
 			return err
 		}
-		return audit(ctx, tx, userID, 0, "password.change", userRef(userID), "")
+		return s.audit(ctx, tx, userID, 0, "password.change", userRef(userID), "")
 	})
 }

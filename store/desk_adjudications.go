@@ -50,13 +50,13 @@ func (s *Store) Adjudicate(ctx context.Context, pairID, leadID int64, grade int,
 		if _, err := tx.ExecContext(ctx, `UPDATE adjudications SET current = 0 WHERE pair_id = ? AND current = 1`, pairID); err != nil {
 			return err
 		}
-		at := now()
+		at := s.now()
 		if err := tx.QueryRowContext(ctx, `INSERT INTO adjudications(pair_id, lead_id, grade, rationale, current, created_at)
 			VALUES (?, ?, ?, ?, 1, ?) RETURNING id`, pairID, leadID, grade, rationale, at).Scan(&a.ID); err != nil {
 			return err
 		}
 		a = Adjudication{ID: a.ID, PairID: pairID, LeadID: leadID, Grade: grade, Rationale: rationale, Current: true, CreatedAt: parseTime(at)}
-		return audit(ctx, tx, leadID, projectID, "pair.adjudicate", "pair:"+strconv.FormatInt(pairID, 10), "grade "+strconv.Itoa(grade))
+		return s.audit(ctx, tx, leadID, projectID, "pair.adjudicate", "pair:"+strconv.FormatInt(pairID, 10), "grade "+strconv.Itoa(grade))
 	})
 	return a, err
 }

@@ -115,7 +115,7 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 	if err := d.derive(); err != nil {
 		return nil, err
 	}
-	d.BuiltAt = time.Now()
+	d.BuiltAt = s.clock()
 	d.BuildTook = time.Since(start)
 	return d, nil
 }

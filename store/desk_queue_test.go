@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/pertinent/pertinent/agreement"
+	"github.com/pertinent/pertinent/internal/testclock"
 )
 
 func record(t *testing.T, s *Store, projectID int64, js ...RecordedJudgment) {
@@ -86,9 +87,11 @@ func queueHas(t *testing.T, s *Store, projectID, pairID int64) (QueueItem, bool)
 // keeps it closed, a later one that disagrees reopens it.
 func TestQueueReopenRule(t *testing.T) {
 	s := openTest(t)
+	clock := testclock.New(time.Date(2025, 3, 1, 9, 0, 0, 0, time.UTC))
+	s.SetClock(clock.Now)
 	ctx := context.Background()
 	p, lead, pairs, users := fixture(t, s, 1, 2, 4)
-	past := timeText(time.Now().Add(-time.Hour))
+	past := timeText(clock.Now().Add(-time.Hour))
 	record(t, s, p.ID,
 		RecordedJudgment{PairID: pairs[0], UserID: users[0], Grade: grade(1), At: past},
 		RecordedJudgment{PairID: pairs[0], UserID: users[1], Grade: grade(3), At: past},
@@ -107,7 +110,7 @@ func TestQueueReopenRule(t *testing.T) {
 	if _, ok := queueHas(t, s, p.ID, pairs[0]); ok {
 		t.Fatal("adjudicated pair still in the queue")
 	}
-	time.Sleep(5 * time.Millisecond)
+	clock.Advance(time.Second) // the next write is stamped after the one before
 	record(t, s, p.ID, RecordedJudgment{PairID: pairs[0], UserID: users[2], Grade: grade(2)})
 	if _, ok := queueHas(t, s, p.ID, pairs[0]); ok {
 		t.Fatal("a later judgment agreeing with the final grade reopened the pair")
@@ -118,7 +121,7 @@ func TestQueueReopenRule(t *testing.T) {
 		t.Fatalf("a later disagreeing judgment should reopen the pair: %v %+v", ok, it)
 	}
 	// An older judgment that disagrees does not count as "after" the adjudication.
-	time.Sleep(5 * time.Millisecond)
+	clock.Advance(time.Second) // the next write is stamped after the one before
 	if _, err := s.Adjudicate(ctx, pairs[0], lead.ID, 4, "the last one was right"); err != nil {
 		t.Fatal(err)
 	}

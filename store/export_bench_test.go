@@ -41,7 +41,7 @@ func benchProject(b *testing.B, n int) (*Store, int64) {
 		users[i] = u.ID
 	}
 	rng := rand.New(rand.NewPCG(1, 2))
-	at := now()
+	at := s.now()
 	err = s.write(ctx, func(tx *sql.Tx) error {
 		q, _ := tx.PrepareContext(ctx, `INSERT INTO queries(project_id, external_id, text) VALUES (?, ?, 'q') RETURNING id`)
 		d, _ := tx.PrepareContext(ctx, `INSERT INTO documents(project_id, external_id) VALUES (?, ?) RETURNING id`)

@@ -112,7 +112,7 @@ func newExportFixture(t *testing.T) *exportFixture {
 	}
 	// The adjudication feature writes these rows; a superseded one must not count.
 	if _, err := s.w.ExecContext(ctx, `INSERT INTO adjudications(pair_id, lead_id, grade, current, created_at) VALUES (?, ?, 4, 0, ?), (?, ?, 1, 1, ?)`,
-		f.pairs["q1 q1-d1"], f.lead.ID, now(), f.pairs["q1 q1-d1"], f.lead.ID, now()); err != nil {
+		f.pairs["q1 q1-d1"], f.lead.ID, s.now(), f.pairs["q1 q1-d1"], f.lead.ID, s.now()); err != nil {
 		t.Fatal(err)
 	}
 	return f

@@ -45,8 +45,8 @@ type importer struct {
 	notes []string
 }
 
-func newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64, spec ImportSpec) (*importer, error) {
-	im := &importer{ctx: context.WithoutCancel(ctx), done: ctx, tx: tx, project: projectID, by: by, spec: spec, at: now(),
+func (s *Store) newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64, spec ImportSpec) (*importer, error) {
+	im := &importer{ctx: context.WithoutCancel(ctx), done: ctx, tx: tx, project: projectID, by: by, spec: spec, at: s.now(),
 		stmts: map[string]*sql.Stmt{}, queryIDs: map[string]int64{}, docIDs: map[string]int64{}, count: map[string]*ImportCount{}}
 	im.ps.max = spec.MaxProblems
 	if im.ps.max <= 0 {

@@ -117,7 +117,7 @@ func (l *Loader) Pair(p PairSpec) (int64, error) {
 	if p.GoldGrade != nil {
 		gold = *p.GoldGrade
 	}
-	if _, err := l.pair.ExecContext(l.ctx, l.project, p.QueryID, p.DocumentID, p.Origin, p.Priority, gold, now()); err != nil {
+	if _, err := l.pair.ExecContext(l.ctx, l.project, p.QueryID, p.DocumentID, p.Origin, p.Priority, gold, l.s.now()); err != nil {
 		return 0, err
 	}
 	var id int64
@@ -141,7 +141,7 @@ type RecordedJudgment struct {
 func (l *Loader) Judgment(j RecordedJudgment) error {
 	at := j.At
 	if at == "" {
-		at = now()
+		at = l.s.now()
 	}
 	_, err := l.s.insertJudgment(l.ctx, l.tx, Submission{PairID: j.PairID, UserID: j.UserID, Grade: j.Grade,
 		CannotJudge: j.CannotJudge, Note: j.Note, TimeSpentMs: j.TimeSpentMs}, at)

@@ -51,7 +51,7 @@ func (s *Store) AddPooledPairs(ctx context.Context, projectID int64, pool []inge
 			return err
 		}
 		defer source.Close()
-		at := now()
+		at := s.now()
 		qids := map[string]int64{}
 		for _, pp := range pool {
 			qid, ok := qids[pp.QueryID]
@@ -93,7 +93,7 @@ func (s *Store) AddPooledPairs(ctx context.Context, projectID int64, pool []inge
 				}
 			}
 		}
-		return audit(ctx, tx, by, p.ID, "pairs.pool", p.Name,
+		return s.audit(ctx, tx, by, p.ID, "pairs.pool", p.Name,
 			strconv.Itoa(added)+" added, "+strconv.Itoa(len(pool)-added-len(missing))+" already there, "+strconv.Itoa(len(missing))+" not in the project")
 	})
 	return added, missing, err

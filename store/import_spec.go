@@ -125,7 +125,7 @@ func (s *Store) Import(ctx context.Context, projectID, by int64, spec ImportSpec
 		}
 	}
 	err := s.importTx(ctx, func(tx *sql.Tx) error {
-		im, err := newImporter(ctx, tx, projectID, by, spec)
+		im, err := s.newImporter(ctx, tx, projectID, by, spec)
 		if err != nil {
 			return err
 		}
@@ -140,7 +140,7 @@ func (s *Store) Import(ctx context.Context, projectID, by int64, spec ImportSpec
 		if spec.DryRun {
 			return errDryRun
 		}
-		return audit(ctx, tx, by, projectID, "import."+string(spec.Kind), strings.Join(rep.Files, ", "), im.summary())
+		return s.audit(ctx, tx, by, projectID, "import."+string(spec.Kind), strings.Join(rep.Files, ", "), im.summary())
 	})
 	if errors.Is(err, errDryRun) {
 		err = nil

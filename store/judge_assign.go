@@ -116,7 +116,7 @@ func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID in
 	if archived {
 		return 0, "", ErrNoWork
 	}
-	t := time.Now()
+	t := s.clock()
 	nowText := timeText(t)
 	err = s.txRow(ctx, tx, resumeLeaseSQL, projectID, userID, nowText).Scan(&pairID, &leasedAt)
 	if err == nil {

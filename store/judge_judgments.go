@@ -135,7 +135,7 @@ func (s *Store) submitTx(ctx context.Context, tx *sql.Tx, sub Submission, revisi
 	case prev != 0 && !allowChanges:
 		return j, false, errorf(CodeConflict, "this project does not allow changing a judgment once made")
 	}
-	j, err = s.insertJudgmentOver(ctx, tx, sub, now(), prev)
+	j, err = s.insertJudgmentOver(ctx, tx, sub, s.now(), prev)
 	if err != nil {
 		return j, false, err
 	}
@@ -177,7 +177,7 @@ func (s *Store) Undo(ctx context.Context, projectID, userID int64) (Judgment, er
 			j.Grade = &g
 		}
 		j.CreatedAt = parseTime(at)
-		t := time.Now()
+		t := s.clock()
 		if _, err := s.txExec(ctx, tx, `UPDATE judgments SET current = 0, withdrawn_at = ? WHERE id = ?`, timeText(t), j.ID); err != nil {
 			return err
 		}

@@ -160,13 +160,13 @@ func (s *Store) PlanJudging(ctx context.Context, projectID, by int64, req PlanRe
 			return err
 		}
 		if err := tx.QueryRowContext(ctx, `INSERT INTO designs(project_id, kind, settings, runs, user_id, created_at)
-			VALUES (?, ?, ?, ?, ?, ?) RETURNING id`, projectID, string(d.Kind), string(settings), string(ids), nullID(by), now()).Scan(&out.DesignID); err != nil {
+			VALUES (?, ?, ?, ?, ?, ?) RETURNING id`, projectID, string(d.Kind), string(settings), string(ids), nullID(by), s.now()).Scan(&out.DesignID); err != nil {
 			return err
 		}
-		if err := insertChoices(ctx, tx, projectID, out.DesignID, plan.Choices); err != nil {
+		if err := s.insertChoices(ctx, tx, projectID, out.DesignID, plan.Choices); err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, p.ID, "design.create", fmt.Sprintf("design %d (%s)", out.DesignID, d.Kind),
+		return s.audit(ctx, tx, by, p.ID, "design.create", fmt.Sprintf("design %d (%s)", out.DesignID, d.Kind),
 			strconv.Itoa(out.Added)+" pairs added, "+strconv.Itoa(out.Raised)+" already there")
 	})
 	if err != nil {
@@ -213,7 +213,7 @@ func (s *Store) topGrade(ctx context.Context, projectID int64) (int, error) {
 // insertChoices adds the chosen pairs (a new pair gets the choice's priority; an existing one
 // keeps its judgments and takes the higher priority) and records how this design chose each.
 // A document or query the project lacks is a problem, and nothing is stored.
-func insertChoices(ctx context.Context, tx *sql.Tx, projectID, designID int64, choices []estimate.Choice) error {
+func (s *Store) insertChoices(ctx context.Context, tx *sql.Tx, projectID, designID int64, choices []estimate.Choice) error {
 	qStmt, err := tx.PrepareContext(ctx, `SELECT id FROM queries WHERE project_id = ? AND external_id = ?`)
 	if err != nil {
 		return err
@@ -241,7 +241,7 @@ func insertChoices(ctx context.Context, tx *sql.Tx, projectID, designID int64, c
 		return err
 	}
 	defer choice.Close()
-	at := now()
+	at := s.now()
 	origin := "design:" + strconv.FormatInt(designID, 10)
 	qids, dids := map[string]int64{}, map[string]int64{}
 	lookup := func(stmt *sql.Stmt, cache map[string]int64, ext string) (int64, error) {
@@ -486,10 +486,10 @@ func (s *Store) AdvanceDesign(ctx context.Context, projectID, by, designID int64
 		if _, err := lockedProject(ctx, tx, projectID); err != nil {
 			return err
 		}
-		if err := insertChoices(ctx, tx, projectID, designID, plan.Choices); err != nil {
+		if err := s.insertChoices(ctx, tx, projectID, designID, plan.Choices); err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, projectID, "design.advance", fmt.Sprintf("design %d", designID), strconv.Itoa(len(plan.Choices))+" pairs released")
+		return s.audit(ctx, tx, by, projectID, "design.advance", fmt.Sprintf("design %d", designID), strconv.Itoa(len(plan.Choices))+" pairs released")
 	})
 	if err != nil {
 		return 0, err

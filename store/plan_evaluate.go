@@ -104,7 +104,7 @@ func (s *Store) Evaluate(ctx context.Context, projectID int64, req EvalRequest, 
 		return Evaluation{}, err
 	}
 	opts := rankeval.Options{K: req.K, Gain: req.Gain, Threshold: req.Threshold, MaxGrade: top}
-	ev := Evaluation{CreatedAt: time.Now().UTC(), Policy: req.Policy, PolicyDescription: req.Policy.Describe()}
+	ev := Evaluation{CreatedAt: s.clock().UTC(), Policy: req.Policy, PolicyDescription: req.Policy.Describe()}
 	depth := req.K
 	if depth <= 0 {
 		depth = 1 << 30 // the whole ranking

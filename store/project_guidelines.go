@@ -83,11 +83,11 @@ func (s *Store) ReviseGuidelines(ctx context.Context, projectID int64, body stri
 			return nil
 		}
 		if err := tx.QueryRowContext(ctx, `INSERT INTO guideline_revisions(project_id, body, created_by, created_at) VALUES (?, ?, ?, ?) RETURNING id`,
-			projectID, body, nullID(by), now()).Scan(&g.ID); err != nil {
+			projectID, body, nullID(by), s.now()).Scan(&g.ID); err != nil {
 			return err
 		}
 		g.Body = body
-		return audit(ctx, tx, by, p.ID, "guidelines.revise", p.Name, "revision id "+strconv.FormatInt(g.ID, 10))
+		return s.audit(ctx, tx, by, p.ID, "guidelines.revise", p.Name, "revision id "+strconv.FormatInt(g.ID, 10))
 	})
 	return g, err
 }

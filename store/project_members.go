@@ -62,6 +62,6 @@ func (s *Store) DeleteMember(ctx context.Context, projectID, userID int64, by in
 			userID, projectID); err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, p.ID, "member.remove", userRef(userID), username+" was "+role)
+		return s.audit(ctx, tx, by, p.ID, "member.remove", userRef(userID), username+" was "+role)
 	})
 }

@@ -86,7 +86,7 @@ func (s *Store) CreateProject(ctx context.Context, p NewProject, by int64) (Proj
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		err := tx.QueryRowContext(ctx, `INSERT INTO projects(name, description, judgments_per_pair, gold_rate, lease_seconds, allow_changes, created_at)
 			VALUES (?, ?, ?, ?, ?, ?, ?) RETURNING id`,
-			p.Name, p.Description, p.JudgmentsPerPair, p.GoldRate, p.LeaseSeconds, p.AllowChanges, now()).Scan(&id)
+			p.Name, p.Description, p.JudgmentsPerPair, p.GoldRate, p.LeaseSeconds, p.AllowChanges, s.now()).Scan(&id)
 		if err != nil {
 			return err
 		}
@@ -97,10 +97,10 @@ func (s *Store) CreateProject(ctx context.Context, p NewProject, by int64) (Proj
 			}
 		}
 		if _, err := tx.ExecContext(ctx, `INSERT INTO guideline_revisions(project_id, body, created_by, created_at) VALUES (?, ?, ?, ?)`,
-			id, p.Guidelines, nullID(by), now()); err != nil {
+			id, p.Guidelines, nullID(by), s.now()); err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, id, "project.create", p.Name, "")
+		return s.audit(ctx, tx, by, id, "project.create", p.Name, "")
 	})
 	if isUniqueViolation(err) {
 		return Project{}, errorf(CodeConflict, "a project named "+p.Name+" exists already")
@@ -266,11 +266,11 @@ func (s *Store) SetMember(ctx context.Context, projectID, userID int64, role Rol
 			return errorf(CodeInvalid, u.Username+" has an assessor account; only lead and admin accounts can lead a project")
 		}
 		_, err = tx.ExecContext(ctx, `INSERT INTO project_members(project_id, user_id, role, added_at) VALUES (?, ?, ?, ?)
-			ON CONFLICT (project_id, user_id) DO UPDATE SET role = excluded.role`, projectID, userID, string(role), now())
+			ON CONFLICT (project_id, user_id) DO UPDATE SET role = excluded.role`, projectID, userID, string(role), s.now())
 		if err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, p.ID, "member.set", userRef(userID), u.Username+" as "+string(role))
+		return s.audit(ctx, tx, by, p.ID, "member.set", userRef(userID), u.Username+" as "+string(role))
 	})
 }
 

@@ -74,7 +74,7 @@ func (s *Store) UpdateProject(ctx context.Context, projectID int64, ps ProjectSe
 			ps.Name, ps.Description, ps.JudgmentsPerPair, ps.GoldRate, ps.LeaseSeconds, ps.AllowChanges, projectID); err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, projectID, "project.settings", ps.Name, strings.Join(changes, "; "))
+		return s.audit(ctx, tx, by, projectID, "project.settings", ps.Name, strings.Join(changes, "; "))
 	})
 	if isUniqueViolation(err) {
 		return errorf(CodeConflict, "a project named "+ps.Name+" exists already")
@@ -113,7 +113,7 @@ func (s *Store) SetProjectArchived(ctx context.Context, projectID int64, archive
 		}
 		action, at := "project.restore", any(nil)
 		if archived {
-			action, at = "project.archive", now()
+			action, at = "project.archive", s.now()
 			// Open leases would otherwise keep pairs "in progress" on a project nobody may judge.
 			if _, err := tx.ExecContext(ctx, `DELETE FROM leases WHERE pair_id IN (SELECT id FROM pairs WHERE project_id = ?)`, projectID); err != nil {
 				return err
@@ -122,7 +122,7 @@ func (s *Store) SetProjectArchived(ctx context.Context, projectID int64, archive
 		if _, err := tx.ExecContext(ctx, `UPDATE projects SET archived_at = ? WHERE id = ?`, at, projectID); err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, projectID, action, p.Name, "")
+		return s.audit(ctx, tx, by, projectID, action, p.Name, "")
 	})
 }
 
@@ -197,7 +197,7 @@ func (s *Store) SetScale(ctx context.Context, projectID int64, levels []ScaleLev
 			}
 			labels[i] = fmt.Sprintf("%d %s", l.Grade, l.Label)
 		}
-		return audit(ctx, tx, by, projectID, action, p.Name, fmt.Sprintf("%d levels: %s", len(levels), strings.Join(labels, ", ")))
+		return s.audit(ctx, tx, by, projectID, action, p.Name, fmt.Sprintf("%d levels: %s", len(levels), strings.Join(labels, ", ")))
 	})
 }
 
