@@ -28,7 +28,7 @@ type Store struct {
 
 	desks deskCache // the lead's figures per project, keyed by project_versions
 
-	group    groupWriter   // group commit of the judging path (group.go)
+	group    groupWriter   // group commit of the judging path (judge_groupwriter.go)
 	progress progressCache // judging progress per project, keyed by project_versions
 	runs     runCache      // parsed kept runs (plan_runs.go)
 }

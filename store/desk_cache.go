@@ -15,7 +15,7 @@ import (
 // the disagreement queue. It is cached per project until project_versions.version changes
 // (triggers bump it on every judgment and pair change), so repeated views are instant and
 // never stale; the next desk is made from this one and the judgments changed since
-// (store/deskload.go), read from the database in full only when that cannot be done.
+// (store/desk_load.go), read from the database in full only when that cannot be done.
 // Adjudications are not part of it: they are small and read fresh. A desk never changes
 // once returned.
 type Desk struct {
@@ -48,7 +48,7 @@ type Desk struct {
 
 	rows []deskRow // current judgments sorted by pair, then user; never changed once built
 	// The judgments the desk has seen: every id up to seenID and desk_log up to seenLog, read
-	// in one snapshot, so the next desk reads only what lies beyond (store/deskload.go).
+	// in one snapshot, so the next desk reads only what lies beyond (store/desk_load.go).
 	seenID, seenLog int64
 	pairs           []int // start of each pair's rows in rows; len = pairs with judgments + 1
 	users           map[int64]string
