@@ -3,7 +3,6 @@ package store
 import (
 	"cmp"
 	"slices"
-	"strconv"
 	"time"
 
 	"github.com/pertinent/pertinent/agreement"
@@ -104,37 +103,16 @@ func refAssessorFigures(d *Desk) {
 				MeanKappaQuadratic: agreement.Value{Why: why}, ConsensusAgreement: agreement.Value{Why: why},
 				ConsensusMAE: agreement.Value{Why: why}, GoldAccuracy: agreement.Value{Why: why}, GoldMAE: agreement.Value{Why: why}}
 		}
-		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = refDrift(a.comp)
+		// The compared grades go in in row order; agreement's tests check Drift against the
+		// plain sort by time.
+		var dr agreement.Drift
+		for _, c := range a.comp {
+			dr.Add(c)
+		}
+		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = dr.Shares()
 		d.Assessors = append(d.Assessors, *f)
 	}
 	slices.SortFunc(d.Assessors, func(a, b AssessorFigures) int { return cmp.Compare(a.Username, b.Username) })
-}
-
-// refDrift orders compared judgments by time (then id) and sets the share agreeing with
-// consensus over the last DriftWindow against the share over all earlier ones.
-func refDrift(comp []agreement.Compared) (recent, earlier, diff agreement.Value, earlierN int) {
-	if len(comp) <= DriftWindow {
-		why := "needs more than " + strconv.Itoa(DriftWindow) + " grades compared with consensus"
-		return agreement.Value{Why: why}, agreement.Value{Why: why}, agreement.Value{Why: why}, 0
-	}
-	slices.SortFunc(comp, func(a, b agreement.Compared) int {
-		if c := cmp.Compare(a.At, b.At); c != 0 {
-			return c
-		}
-		return cmp.Compare(a.ID, b.ID)
-	})
-	share := func(cs []agreement.Compared) float64 {
-		n := 0
-		for _, c := range cs {
-			if c.Agree {
-				n++
-			}
-		}
-		return float64(n) / float64(len(cs))
-	}
-	cut := len(comp) - DriftWindow
-	r, e := share(comp[cut:]), share(comp[:cut])
-	return agreement.Value{V: r, OK: true}, agreement.Value{V: e, OK: true}, agreement.Value{V: r - e, OK: true}, cut
 }
 
 func refQuantileMs(sorted []int32, q float64) int {
