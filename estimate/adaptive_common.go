@@ -7,6 +7,7 @@ import (
 	"slices"
 	"strings"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/rankeval"
 )
 
@@ -18,7 +19,7 @@ const adaptiveDefaultWave = 20
 func adaptiveWave(d Design) (int, error) {
 	switch {
 	case d.Wave < 0:
-		return 0, fmt.Errorf("estimate: wave %d is negative", d.Wave)
+		return 0, pertinent.Errorf(pertinent.Invalid, "estimate", "wave %d is negative", d.Wave)
 	case d.Wave == 0:
 		return adaptiveDefaultWave, nil
 	}
@@ -48,10 +49,10 @@ func adaptiveCheckRunNames(runs []NamedRun) error {
 	seen := make(map[string]bool, len(runs))
 	for _, r := range runs {
 		if r.Name == "" {
-			return fmt.Errorf("estimate: a run has no name")
+			return pertinent.Errorf(pertinent.Invalid, "estimate", "a run has no name")
 		}
 		if seen[r.Name] {
-			return fmt.Errorf("estimate: two runs are named %q", r.Name)
+			return pertinent.Errorf(pertinent.Invalid, "estimate", "two runs are named %q", r.Name)
 		}
 		seen[r.Name] = true
 	}
@@ -67,10 +68,10 @@ func adaptiveRanked(run NamedRun, qid string) ([]string, error) {
 	seen := make(map[string]bool, len(ranked))
 	for i, d := range ranked {
 		if math.IsNaN(d.Score) {
-			return nil, fmt.Errorf("estimate: run %q query %q document %q: score is NaN", run.Name, qid, d.DocID)
+			return nil, pertinent.Errorf(pertinent.Invalid, "estimate", "run %q query %q document %q: score is NaN", run.Name, qid, d.DocID)
 		}
 		if seen[d.DocID] {
-			return nil, fmt.Errorf("estimate: run %q query %q: document %q retrieved twice", run.Name, qid, d.DocID)
+			return nil, pertinent.Errorf(pertinent.Invalid, "estimate", "run %q query %q: document %q retrieved twice", run.Name, qid, d.DocID)
 		}
 		seen[d.DocID] = true
 		ids[i] = d.DocID
@@ -82,10 +83,10 @@ func adaptiveRanked(run NamedRun, qid string) ([]string, error) {
 // it.
 func adaptiveGains(g rankeval.Gain, maxGrade int) ([]float64, error) {
 	if g != rankeval.GainExponential && g != rankeval.GainLinear {
-		return nil, fmt.Errorf("estimate: unknown gain %d", int(g))
+		return nil, pertinent.Errorf(pertinent.Invalid, "estimate", "unknown gain %d", int(g))
 	}
 	if maxGrade < 1 {
-		return nil, fmt.Errorf("estimate: top grade %d; a scale needs at least grades 0 and 1", maxGrade)
+		return nil, pertinent.Errorf(pertinent.Invalid, "estimate", "top grade %d; a scale needs at least grades 0 and 1", maxGrade)
 	}
 	out := make([]float64, maxGrade+1)
 	for i := range out {
@@ -107,7 +108,7 @@ func adaptiveCheckKnown(known Labels, maxGrade int) error {
 	for q, docs := range known {
 		for doc, l := range docs {
 			if l.Grade < -1 || l.Grade > maxGrade {
-				return fmt.Errorf("estimate: query %q document %q: grade %d outside -1..%d", q, doc, l.Grade, maxGrade)
+				return pertinent.Errorf(pertinent.Invalid, "estimate", "query %q document %q: grade %d outside -1..%d", q, doc, l.Grade, maxGrade)
 			}
 		}
 	}

@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/rankeval"
 )
 
@@ -37,11 +38,12 @@ func (p *Problems) addf(format string, args ...any) {
 	p.More++
 }
 
+// err is the problems as the one error type users are shown, or nil when there are none.
 func (p *Problems) err() error {
 	if len(p.List) == 0 {
 		return nil
 	}
-	return p
+	return &pertinent.Error{Code: pertinent.Invalid, Message: p.Error()}
 }
 
 // CheckRuns validates runs for planning: at least one run, distinct names,

@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"slices"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/rankeval"
 )
 
@@ -125,11 +126,11 @@ func decideBand(rank int) int {
 // decideDefaults fills the zero fields of a decide design and checks it.
 func decideDefaults(d Design, runs []NamedRun) (Design, int, int, error) {
 	if d.Kind != "" && d.Kind != KindDecide {
-		return d, 0, 0, fmt.Errorf("estimate: a %q design cannot decide between runs; use kind %q", d.Kind, KindDecide)
+		return d, 0, 0, pertinent.Errorf(pertinent.Invalid, "estimate", "a %q design cannot decide between runs; use kind %q", d.Kind, KindDecide)
 	}
 	d.Kind = KindDecide
 	if d.K < 0 {
-		return d, 0, 0, fmt.Errorf("estimate: cut-off %d is negative", d.K)
+		return d, 0, 0, pertinent.Errorf(pertinent.Invalid, "estimate", "cut-off %d is negative", d.K)
 	}
 	if d.K == 0 {
 		d.K = 10
@@ -138,7 +139,7 @@ func decideDefaults(d Design, runs []NamedRun) (Design, int, int, error) {
 		d.Confidence = 0.95
 	}
 	if d.Confidence <= 0.5 || d.Confidence >= 1 {
-		return d, 0, 0, fmt.Errorf("estimate: confidence %g must lie between 0.5 and 1", d.Confidence)
+		return d, 0, 0, pertinent.Errorf(pertinent.Invalid, "estimate", "confidence %g must lie between 0.5 and 1", d.Confidence)
 	}
 	w, err := adaptiveWave(d)
 	if err != nil {
@@ -149,17 +150,17 @@ func decideDefaults(d Design, runs []NamedRun) (Design, int, int, error) {
 		return d, 0, 0, err
 	}
 	if d.RunA == "" || d.RunB == "" {
-		return d, 0, 0, fmt.Errorf("estimate: a decide design needs run A and run B (runs: %s)", adaptiveRunList(runs))
+		return d, 0, 0, pertinent.Errorf(pertinent.Invalid, "estimate", "a decide design needs run A and run B (runs: %s)", adaptiveRunList(runs))
 	}
 	if d.RunA == d.RunB {
-		return d, 0, 0, fmt.Errorf("estimate: run A and run B are both %q; a decision needs two different runs", d.RunA)
+		return d, 0, 0, pertinent.Errorf(pertinent.Invalid, "estimate", "run A and run B are both %q; a decision needs two different runs", d.RunA)
 	}
 	ia, ib := adaptiveRunIndex(runs, d.RunA), adaptiveRunIndex(runs, d.RunB)
 	if ia < 0 {
-		return d, 0, 0, fmt.Errorf("estimate: run A %q is not among the runs (%s)", d.RunA, adaptiveRunList(runs))
+		return d, 0, 0, pertinent.Errorf(pertinent.Invalid, "estimate", "run A %q is not among the runs (%s)", d.RunA, adaptiveRunList(runs))
 	}
 	if ib < 0 {
-		return d, 0, 0, fmt.Errorf("estimate: run B %q is not among the runs (%s)", d.RunB, adaptiveRunList(runs))
+		return d, 0, 0, pertinent.Errorf(pertinent.Invalid, "estimate", "run B %q is not among the runs (%s)", d.RunB, adaptiveRunList(runs))
 	}
 	return d, ia, ib, nil
 }

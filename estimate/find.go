@@ -7,6 +7,8 @@ import (
 	"slices"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"github.com/pertinent/pertinent"
 )
 
 // PlanFind returns the next wave for a find design: the documents most
@@ -33,20 +35,20 @@ import (
 // probability sample: Stratum -1, Prob 1.
 func PlanFind(d Design, runs []NamedRun, known Labels, threshold int) (Plan, error) {
 	if d.Kind != "" && d.Kind != KindFind {
-		return Plan{}, fmt.Errorf("estimate: a %q design does not find documents; use kind %q", d.Kind, KindFind)
+		return Plan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "a %q design does not find documents; use kind %q", d.Kind, KindFind)
 	}
 	d.Kind = KindFind
 	if d.Method != FindBandit && d.Method != FindMoveToFront {
-		return Plan{}, fmt.Errorf("estimate: unknown find method %q (%q or %q)", d.Method, FindBandit, FindMoveToFront)
+		return Plan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "unknown find method %q (%q or %q)", d.Method, FindBandit, FindMoveToFront)
 	}
 	if threshold < 1 {
-		return Plan{}, fmt.Errorf("estimate: relevance threshold %d; grades start at 0 (not relevant), so it must be at least 1", threshold)
+		return Plan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "relevance threshold %d; grades start at 0 (not relevant), so it must be at least 1", threshold)
 	}
 	if d.Depth < 0 {
-		return Plan{}, fmt.Errorf("estimate: depth %d is negative", d.Depth)
+		return Plan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "depth %d is negative", d.Depth)
 	}
 	if len(runs) == 0 {
-		return Plan{}, fmt.Errorf("estimate: a find design needs at least one run")
+		return Plan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "a find design needs at least one run")
 	}
 	if err := adaptiveCheckRunNames(runs); err != nil {
 		return Plan{}, err

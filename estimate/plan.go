@@ -6,6 +6,7 @@ import (
 	"math"
 	"slices"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/rankeval"
 )
 
@@ -157,9 +158,9 @@ func checkDesign(d Design) error {
 	switch d.Kind {
 	case KindDepth, KindStratified:
 	case KindDecide, KindFind:
-		return fmt.Errorf("a %s design chooses pairs as grades come back; use PlanDecide or PlanFind for it", d.Kind)
+		return pertinent.Errorf(pertinent.Invalid, "", "a %s design chooses pairs as grades come back; use PlanDecide or PlanFind for it", d.Kind)
 	default:
-		return fmt.Errorf("unknown design %q; use depth or stratified here, PlanDecide or PlanFind for the adaptive ones", d.Kind)
+		return pertinent.Errorf(pertinent.Invalid, "", "unknown design %q; use depth or stratified here, PlanDecide or PlanFind for the adaptive ones", d.Kind)
 	}
 	var ps Problems
 	if d.Depth < 1 {

@@ -1,13 +1,12 @@
 package estimate
 
 import (
-	"errors"
-	"fmt"
 	"math"
 
 	"gonum.org/v1/gonum/mathext"
 	"gonum.org/v1/gonum/stat/distuv"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/rankeval"
 )
 
@@ -155,7 +154,7 @@ func DiscriminativePower(metric string, t ScoreTable, alpha float64) (Power, err
 		alpha = 0.05
 	}
 	if !(alpha > 0 && alpha < 1) {
-		return Power{}, fmt.Errorf("estimate: significance level %v is not between 0 and 1", alpha)
+		return Power{}, pertinent.Errorf(pertinent.Invalid, "estimate", "significance level %v is not between 0 and 1", alpha)
 	}
 	if err := t.check(); err != nil {
 		return Power{}, err
@@ -190,6 +189,6 @@ func pairPValues(t ScoreTable) []float64 {
 
 // errTooFewRuns and errTooFewQueries are the table's size errors.
 var (
-	errTooFewRuns    = errors.New("estimate: a score table needs at least 2 runs to compare")
-	errTooFewQueries = errors.New("estimate: a score table needs at least 2 queries: a single query says nothing about how differences vary across queries")
+	errTooFewRuns    = pertinent.Errorf(pertinent.Invalid, "estimate", "a score table needs at least 2 runs to compare")
+	errTooFewQueries = pertinent.Errorf(pertinent.Invalid, "estimate", "a score table needs at least 2 queries: a single query says nothing about how differences vary across queries")
 )

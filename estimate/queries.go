@@ -1,11 +1,12 @@
 package estimate
 
 import (
-	"errors"
 	"fmt"
 	"math"
 	"strconv"
 	"strings"
+
+	"github.com/pertinent/pertinent"
 )
 
 // ScoreTable holds one metric's per-query scores: Scores[r][q] is run r's
@@ -24,15 +25,15 @@ func (t ScoreTable) check() error {
 		return errTooFewQueries
 	}
 	if len(t.Scores) != len(t.Runs) {
-		return fmt.Errorf("estimate: %d rows of scores for %d runs", len(t.Scores), len(t.Runs))
+		return pertinent.Errorf(pertinent.Invalid, "estimate", "%d rows of scores for %d runs", len(t.Scores), len(t.Runs))
 	}
 	for r, row := range t.Scores {
 		if len(row) != len(t.Queries) {
-			return fmt.Errorf("estimate: run %q has %d scores for %d queries", t.Runs[r], len(row), len(t.Queries))
+			return pertinent.Errorf(pertinent.Invalid, "estimate", "run %q has %d scores for %d queries", t.Runs[r], len(row), len(t.Queries))
 		}
 		for q, v := range row {
 			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return fmt.Errorf("estimate: run %q has no finite score on query %q", t.Runs[r], t.Queries[q])
+				return pertinent.Errorf(pertinent.Invalid, "estimate", "run %q has no finite score on query %q", t.Runs[r], t.Queries[q])
 			}
 		}
 	}
@@ -107,13 +108,13 @@ func PlanQueries(t ScoreTable, req QueryPlanRequest) (QueryPlan, error) {
 	}
 	switch {
 	case !(req.MinDiff > 0) || math.IsInf(req.MinDiff, 0):
-		return QueryPlan{}, fmt.Errorf("estimate: the smallest difference worth detecting must be above 0, not %v", req.MinDiff)
+		return QueryPlan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "the smallest difference worth detecting must be above 0, not %v", req.MinDiff)
 	case !(req.Alpha > 0 && req.Alpha < 1):
-		return QueryPlan{}, fmt.Errorf("estimate: significance level %v is not between 0 and 1", req.Alpha)
+		return QueryPlan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "significance level %v is not between 0 and 1", req.Alpha)
 	case !(req.Beta > 0 && req.Beta < 1):
-		return QueryPlan{}, fmt.Errorf("estimate: 1 - power %v is not between 0 and 1", req.Beta)
+		return QueryPlan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "1 - power %v is not between 0 and 1", req.Beta)
 	case req.HalfWidth < 0 || math.IsNaN(req.HalfWidth) || math.IsInf(req.HalfWidth, 0):
-		return QueryPlan{}, fmt.Errorf("estimate: the interval half-width asked for must be above 0 (or 0 for none), not %v", req.HalfWidth)
+		return QueryPlan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "the interval half-width asked for must be above 0 (or 0 for none), not %v", req.HalfWidth)
 	}
 	if err := t.check(); err != nil {
 		return QueryPlan{}, err
@@ -128,18 +129,18 @@ func PlanQueries(t ScoreTable, req QueryPlanRequest) (QueryPlan, error) {
 		p.VarianceFrom = fmt.Sprintf("twice the residual variance of a two-way analysis of variance without replication over %d runs × %d queries (V_E = %s), pooling every run as Sakai's topic set size design does", len(t.Runs), len(t.Queries), planNumber(ve, 3))
 	}
 	if !(p.Variance > zeroVarianceShare*scoreSpread(t.Scores)) {
-		return QueryPlan{}, errors.New("estimate: the runs' differences are the same on every query, so the table says nothing about how a difference varies from query to query; no number of queries can be planned from it")
+		return QueryPlan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "the runs' differences are the same on every query, so the table says nothing about how a difference varies from query to query; no number of queries can be planned from it")
 	}
 	sd := math.Sqrt(p.Variance)
 	n, ok := queriesForPower(sd, req.MinDiff, req.Alpha, req.Beta)
 	if !ok {
-		return QueryPlan{}, fmt.Errorf("estimate: detecting a difference of %s would take more than %d queries with this table's variation; ask for a larger difference", planNumber(req.MinDiff, 3), maxPlannedQueries)
+		return QueryPlan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "detecting a difference of %s would take more than %d queries with this table's variation; ask for a larger difference", planNumber(req.MinDiff, 3), maxPlannedQueries)
 	}
 	p.Needed = n
 	if req.HalfWidth > 0 {
 		n, ok := queriesForWidth(sd, req.HalfWidth)
 		if !ok {
-			return QueryPlan{}, fmt.Errorf("estimate: a 95%% interval of ±%s would take more than %d queries with this table's variation; ask for a wider one", planNumber(req.HalfWidth, 3), maxPlannedQueries)
+			return QueryPlan{}, pertinent.Errorf(pertinent.Invalid, "estimate", "a 95%% interval of ±%s would take more than %d queries with this table's variation; ask for a wider one", planNumber(req.HalfWidth, 3), maxPlannedQueries)
 		}
 		p.NeededForWidth = n
 	}

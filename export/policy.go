@@ -5,6 +5,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/agreement"
 )
 
@@ -62,10 +63,10 @@ func (p LabelPolicy) Validate() error {
 	switch p.Consensus {
 	case ConsensusMedian, ConsensusMajority, ConsensusMean, ConsensusDawidSkene:
 	default:
-		return fmt.Errorf("export: unknown consensus %q (want median, majority, mean or dawid-skene)", p.Consensus)
+		return pertinent.Errorf(pertinent.Invalid, "export", "unknown consensus %q (want median, majority, mean or dawid-skene)", p.Consensus)
 	}
 	if p.MaxDisagreement != nil && *p.MaxDisagreement < 0 {
-		return fmt.Errorf("export: max disagreement %d is negative", *p.MaxDisagreement)
+		return pertinent.Errorf(pertinent.Invalid, "export", "max disagreement %d is negative", *p.MaxDisagreement)
 	}
 	return nil
 }

@@ -2,11 +2,12 @@ package export
 
 import (
 	"bufio"
-	"fmt"
 	"io"
 	"sort"
 	"strconv"
 	"strings"
+
+	"github.com/pertinent/pertinent"
 )
 
 // QIDMap maps external query ids to the positive integers the SVMlight
@@ -30,10 +31,10 @@ func QIDMapFrom(given map[string]int) (*QIDMap, error) {
 	used := make(map[int]string, len(given))
 	for q, n := range given {
 		if n < 1 {
-			return nil, fmt.Errorf("export: qid %d for query %q is not positive", n, q)
+			return nil, pertinent.Errorf(pertinent.Invalid, "export", "qid %d for query %q is not positive", n, q)
 		}
 		if other, dup := used[n]; dup {
-			return nil, fmt.Errorf("export: qid %d given to both %q and %q", n, other, q)
+			return nil, pertinent.Errorf(pertinent.Invalid, "export", "qid %d given to both %q and %q", n, other, q)
 		}
 		if err := checkQIDMapKey(q); err != nil {
 			return nil, err
@@ -109,14 +110,14 @@ func ReadQIDMapTSV(r io.Reader) (*QIDMap, error) {
 		}
 		num, q, ok := strings.Cut(s, "\t")
 		if !ok {
-			return nil, fmt.Errorf("export: qid map line %d: no tab", line)
+			return nil, pertinent.Errorf(pertinent.Invalid, "export", "qid map line %d: no tab", line)
 		}
 		n, err := strconv.Atoi(num)
 		if err != nil {
-			return nil, fmt.Errorf("export: qid map line %d: %v", line, err)
+			return nil, pertinent.Errorf(pertinent.Invalid, "export", "qid map line %d: %v", line, err)
 		}
 		if _, dup := given[q]; dup {
-			return nil, fmt.Errorf("export: qid map line %d: query %q listed twice", line, q)
+			return nil, pertinent.Errorf(pertinent.Invalid, "export", "qid map line %d: query %q listed twice", line, q)
 		}
 		given[q] = n
 	}
@@ -128,7 +129,7 @@ func ReadQIDMapTSV(r io.Reader) (*QIDMap, error) {
 
 func checkQIDMapKey(q string) error {
 	if q == "" || strings.ContainsAny(q, "\t\r\n") {
-		return fmt.Errorf("export: query id %q cannot be written to a qid map (empty, or has a tab or line break)", q)
+		return pertinent.Errorf(pertinent.Invalid, "export", "query id %q cannot be written to a qid map (empty, or has a tab or line break)", q)
 	}
 	return nil
 }

@@ -2,10 +2,11 @@ package export
 
 import (
 	"bufio"
-	"fmt"
 	"io"
 	"strconv"
 	"strings"
+
+	"github.com/pertinent/pertinent"
 )
 
 // QrelsWriter writes "<query-id> 0 <doc-id> <grade>" lines, the qrels
@@ -52,7 +53,7 @@ func (q *QrelsWriter) Close() error { return q.bw.Flush() }
 
 func checkField(what, s string) error {
 	if s == "" || strings.ContainsAny(s, " \t\r\n\v\f") {
-		return fmt.Errorf("export: qrels: %s %q is empty or has white space", what, s)
+		return pertinent.Errorf(pertinent.Invalid, "export", "qrels: %s %q is empty or has white space", what, s)
 	}
 	return nil
 }

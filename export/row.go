@@ -4,6 +4,8 @@ import (
 	"errors"
 	"fmt"
 	"iter"
+
+	"github.com/pertinent/pertinent"
 )
 
 // Feature is one non-zero entry of a sparse feature vector. Index starts
@@ -123,7 +125,7 @@ func (c *contiguity) next(q string) (bool, error) {
 		c.seen = make(map[string]struct{})
 	}
 	if _, dup := c.seen[q]; dup {
-		return false, fmt.Errorf("export: query %q reappears after query %q started; rows must be grouped by query", q, c.cur)
+		return false, pertinent.Errorf(pertinent.Invalid, "export", "query %q reappears after query %q started; rows must be grouped by query", q, c.cur)
 	}
 	c.seen[q] = struct{}{}
 	c.cur, c.any = q, true

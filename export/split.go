@@ -1,11 +1,13 @@
 package export
 
 import (
-	"fmt"
 	"math"
 	"math/rand/v2"
 	"slices"
 	"strconv"
+	"strings"
+
+	"github.com/pertinent/pertinent"
 )
 
 // Split names used by SplitByRatio.
@@ -45,12 +47,12 @@ func SplitByRatio(queryIDs []string, r Ratios, seed uint64) (map[string]string, 
 	sum := 0.0
 	for _, w := range ws {
 		if w < 0 || math.IsNaN(w) || math.IsInf(w, 0) {
-			return nil, fmt.Errorf("export: split ratios %+v: each must be a finite number >= 0", r)
+			return nil, pertinent.Errorf(pertinent.Invalid, "export", "split ratios %+v: each must be a finite number >= 0", r)
 		}
 		sum += w
 	}
 	if math.Abs(sum-1) > 1e-9 {
-		return nil, fmt.Errorf("export: split ratios %+v add up to %g, not 1", r, sum)
+		return nil, pertinent.Errorf(pertinent.Invalid, "export", "split ratios %+v add up to %g, not 1", r, sum)
 	}
 	qs := shuffled(queryIDs, seed)
 	counts := largestRemainder(ws, len(qs))
@@ -99,15 +101,32 @@ func FoldName(i int) string { return "fold-" + strconv.Itoa(i+1) }
 // sizes differing by at most one, from a seeded shuffle of the sorted ids.
 func SplitKFold(queryIDs []string, k int, seed uint64) (map[string]string, error) {
 	if k < 2 {
-		return nil, fmt.Errorf("export: %d folds; need at least 2", k)
+		return nil, pertinent.Errorf(pertinent.Invalid, "export", "%d folds; need at least 2", k)
 	}
 	qs := shuffled(queryIDs, seed)
 	if k > len(qs) {
-		return nil, fmt.Errorf("export: %d folds for %d queries; each fold needs a query", k, len(qs))
+		return nil, pertinent.Errorf(pertinent.Invalid, "export", "%d folds for %d queries; each fold needs a query", k, len(qs))
 	}
 	out := make(map[string]string, len(qs))
 	for i, q := range qs {
 		out[q] = FoldName(i % k)
 	}
 	return out, nil
+}
+
+// ParseRatios reads "0.8,0.1,0.1" (train, validation, test).
+func ParseRatios(s string) (*Ratios, error) {
+	fields := strings.Split(s, ",")
+	if len(fields) != 3 {
+		return nil, pertinent.Errorf(pertinent.Invalid, "export", "a split needs three ratios, train,validation,test: e.g. 0.8,0.1,0.1")
+	}
+	var v [3]float64
+	for i, f := range fields {
+		x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil {
+			return nil, pertinent.Errorf(pertinent.Invalid, "export", "split ratio %q is not a number", f)
+		}
+		v[i] = x
+	}
+	return &Ratios{Train: v[0], Validation: v[1], Test: v[2]}, nil
 }

@@ -6,6 +6,8 @@ import (
 	"math/rand/v2"
 	"reflect"
 	"testing"
+
+	"github.com/pertinent/pertinent"
 )
 
 func queryIDs(n int) []string {
@@ -140,5 +142,18 @@ func TestSplitKFold(t *testing.T) {
 	}
 	if FoldName(0) != "fold-1" {
 		t.Error(FoldName(0))
+	}
+}
+
+// ParseRatios reads the three shares as written and refuses other shapes as invalid input.
+func TestParseRatios(t *testing.T) {
+	r, err := ParseRatios("0.8, 0.1,0.1")
+	if err != nil || *r != (Ratios{Train: 0.8, Validation: 0.1, Test: 0.1}) {
+		t.Fatalf("ParseRatios = %+v, %v", r, err)
+	}
+	for _, s := range []string{"0.8,0.2", "0.8,x,0.1", ""} {
+		if _, err := ParseRatios(s); pertinent.CodeOf(err) != pertinent.Invalid {
+			t.Errorf("ParseRatios(%q): %v, want an Invalid error", s, err)
+		}
 	}
 }

@@ -3,13 +3,14 @@ package export
 import (
 	"bufio"
 	"errors"
-	"fmt"
 	"io"
 	"math"
 	"runtime"
 	"strconv"
 	"strings"
 	"sync"
+
+	"github.com/pertinent/pertinent"
 )
 
 // SVMlightOptions tune an SVMlightWriter.
@@ -126,7 +127,7 @@ func (s *SVMlightWriter) Write(r Row) error {
 		return err
 	}
 	if strings.ContainsAny(r.DocID, "\r\n") {
-		return fmt.Errorf("export: svmlight: document id %q has a line break", r.DocID)
+		return pertinent.Errorf(pertinent.Invalid, "export", "svmlight: document id %q has a line break", r.DocID)
 	}
 	if err := checkFeatures(r); err != nil {
 		return err
@@ -238,11 +239,11 @@ func checkFeatures(r Row) error {
 	prev := 0
 	for _, f := range r.Features {
 		if f.Index <= prev {
-			return fmt.Errorf("export: svmlight: query %q document %q: feature index %d after %d; indices must ascend from 1", r.QueryID, r.DocID, f.Index, prev)
+			return pertinent.Errorf(pertinent.Invalid, "export", "svmlight: query %q document %q: feature index %d after %d; indices must ascend from 1", r.QueryID, r.DocID, f.Index, prev)
 		}
 		prev = f.Index
 		if v := f.Value; v-v != 0 { // NaN or ±Inf: the format has no way to say it
-			return fmt.Errorf("export: svmlight: query %q document %q: feature %d is %v", r.QueryID, r.DocID, f.Index, v)
+			return pertinent.Errorf(pertinent.Invalid, "export", "svmlight: query %q document %q: feature %d is %v", r.QueryID, r.DocID, f.Index, v)
 		}
 	}
 	return nil

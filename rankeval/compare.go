@@ -1,9 +1,10 @@
 package rankeval
 
 import (
-	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"github.com/pertinent/pertinent"
 )
 
 // Metric names a per-query measure of a Summary.
@@ -41,7 +42,7 @@ func (s Summary) Values(m Metric) (queries []string, values []float64, err error
 		case MetricJudged:
 			v = q.Judged
 		default:
-			return nil, nil, fmt.Errorf("rankeval: unknown metric %q", m)
+			return nil, nil, pertinent.Errorf(pertinent.Invalid, "rankeval", "unknown metric %q", m)
 		}
 		queries = append(queries, q.Query)
 		values = append(values, v)
@@ -74,7 +75,7 @@ type Comparison struct {
 // options over the same qrels.
 func Compare(a, b Summary, m Metric, permutations int, seed uint64) (Comparison, error) {
 	if a.Options != b.Options {
-		return Comparison{}, fmt.Errorf("rankeval: runs evaluated with different options (%+v, %+v)", a.Options, b.Options)
+		return Comparison{}, pertinent.Errorf(pertinent.Invalid, "rankeval", "runs evaluated with different options (%+v, %+v)", a.Options, b.Options)
 	}
 	qa, va, err := a.Values(m)
 	if err != nil {
@@ -82,18 +83,18 @@ func Compare(a, b Summary, m Metric, permutations int, seed uint64) (Comparison,
 	}
 	qb, vb, _ := b.Values(m)
 	if len(qa) != len(qb) {
-		return Comparison{}, fmt.Errorf("rankeval: runs evaluated over different qrels (%d and %d queries)", len(qa), len(qb))
+		return Comparison{}, pertinent.Errorf(pertinent.Invalid, "rankeval", "runs evaluated over different qrels (%d and %d queries)", len(qa), len(qb))
 	}
 	for i := range qa {
 		if qa[i] != qb[i] {
-			return Comparison{}, fmt.Errorf("rankeval: runs evaluated over different qrels (query %q vs %q)", qa[i], qb[i])
+			return Comparison{}, pertinent.Errorf(pertinent.Invalid, "rankeval", "runs evaluated over different qrels (query %q vs %q)", qa[i], qb[i])
 		}
 	}
 	if len(qa) < 2 {
-		return Comparison{}, fmt.Errorf("rankeval: %d queries with %s defined; a paired test needs at least 2", len(qa), m)
+		return Comparison{}, pertinent.Errorf(pertinent.Invalid, "rankeval", "%d queries with %s defined; a paired test needs at least 2", len(qa), m)
 	}
 	if permutations < 1 {
-		return Comparison{}, fmt.Errorf("rankeval: %d permutations", permutations)
+		return Comparison{}, pertinent.Errorf(pertinent.Invalid, "rankeval", "%d permutations", permutations)
 	}
 	c := Comparison{Metric: m, Queries: qa, A: va, B: vb, Diff: make([]float64, len(qa)), Permutations: permutations, Seed: seed}
 	for i := range qa {

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"slices"
+
+	"github.com/pertinent/pertinent"
 )
 
 // Gain turns a grade into the gain of DCG.
@@ -50,16 +52,16 @@ type Options struct {
 
 func (o Options) validate() error {
 	if o.K < 0 {
-		return fmt.Errorf("rankeval: cut-off %d is negative", o.K)
+		return pertinent.Errorf(pertinent.Invalid, "rankeval", "cut-off %d is negative", o.K)
 	}
 	if o.Gain != GainExponential && o.Gain != GainLinear {
-		return fmt.Errorf("rankeval: unknown gain %d", int(o.Gain))
+		return pertinent.Errorf(pertinent.Invalid, "rankeval", "unknown gain %d", int(o.Gain))
 	}
 	if o.Threshold < 1 {
-		return fmt.Errorf("rankeval: relevance threshold %d; grades start at 0 (not relevant), so it must be at least 1", o.Threshold)
+		return pertinent.Errorf(pertinent.Invalid, "rankeval", "relevance threshold %d; grades start at 0 (not relevant), so it must be at least 1", o.Threshold)
 	}
 	if o.MaxGrade < o.Threshold {
-		return fmt.Errorf("rankeval: top grade %d is below the relevance threshold %d", o.MaxGrade, o.Threshold)
+		return pertinent.Errorf(pertinent.Invalid, "rankeval", "top grade %d is below the relevance threshold %d", o.MaxGrade, o.Threshold)
 	}
 	return nil
 }
@@ -199,7 +201,7 @@ func Evaluate(q Qrels, run Run, o Options) (Summary, error) {
 	for qid, docs := range q {
 		for d, g := range docs {
 			if g < 0 || g > o.MaxGrade {
-				return Summary{}, fmt.Errorf("rankeval: query %q document %q: grade %d outside 0..%d", qid, d, g, o.MaxGrade)
+				return Summary{}, pertinent.Errorf(pertinent.Invalid, "rankeval", "query %q document %q: grade %d outside 0..%d", qid, d, g, o.MaxGrade)
 			}
 		}
 		queries = append(queries, qid)
@@ -255,11 +257,11 @@ func evalQuery(qid string, judged map[string]int, docs []ScoredDoc, o Options) (
 	seen := make(map[string]struct{}, len(ranked))
 	for i, d := range ranked {
 		if _, dup := seen[d.DocID]; dup {
-			return s, fmt.Errorf("rankeval: query %q: document %q retrieved twice", qid, d.DocID)
+			return s, pertinent.Errorf(pertinent.Invalid, "rankeval", "query %q: document %q retrieved twice", qid, d.DocID)
 		}
 		seen[d.DocID] = struct{}{}
 		if math.IsNaN(d.Score) {
-			return s, fmt.Errorf("rankeval: query %q document %q: score is NaN", qid, d.DocID)
+			return s, pertinent.Errorf(pertinent.Invalid, "rankeval", "query %q document %q: score is NaN", qid, d.DocID)
 		}
 		g, ok := judged[d.DocID]
 		grades[i] = g // 0 when unjudged: not relevant

@@ -19,16 +19,16 @@ import (
 
 // Store is an open pertinent database.
 type Store struct {
-	w      *sql.DB // exactly one connection: every write goes through it
-	r      *sql.DB // read-only pool
-	path   string
-	wStmts stmtCache
-	rStmts stmtCache
-	skew   atomic.Int64 // nanoseconds added to the clock that expiring links are judged by
+	w       *sql.DB // exactly one connection: every write goes through it
+	r       *sql.DB // read-only pool
+	path    string
+	wStmts  stmtCache
+	rStmts  stmtCache
+	clockFn atomic.Pointer[func() time.Time] // nil: time.Now; see SetClock
 
 	desks deskCache // the lead's figures per project, keyed by project_versions
 
-	group    groupWriter   // group commit of the judging path (group.go)
+	group    groupWriter   // group commit of the judging path (judge_groupwriter.go)
 	progress progressCache // judging progress per project, keyed by project_versions
 	runs     runCache      // parsed kept runs (plan_runs.go)
 }
@@ -127,14 +127,21 @@ func (s *Store) write(ctx context.Context, fn func(tx *sql.Tx) error) error {
 	return err
 }
 
-// AdvanceClock moves the clock that one-time password links are judged by; tests use it to
-// see a link expire without waiting a day.
-func (s *Store) AdvanceClock(d time.Duration) { s.skew.Add(int64(d)) }
+// SetClock makes the store read the time from now instead of time.Now, for every time it
+// stamps or compares with (judgments, leases, sessions, links, tokens, audit rows, ...):
+// tests step a clock instead of sleeping. Safe to call while the store is in use.
+func (s *Store) SetClock(now func() time.Time) { s.clockFn.Store(&now) }
 
-func (s *Store) clock() time.Time { return time.Now().Add(time.Duration(s.skew.Load())) }
+// clock is the store's time.
+func (s *Store) clock() time.Time {
+	if f := s.clockFn.Load(); f != nil {
+		return (*f)()
+	}
+	return time.Now()
+}
 
-// now is the store's clock, as the text form kept in the database.
-func now() string { return timeText(time.Now()) }
+// now is the store's time as the text form kept in the database.
+func (s *Store) now() string { return timeText(s.clock()) }
 
 const timeLayout = "2006-01-02T15:04:05.000Z"
 

@@ -5,36 +5,28 @@ import (
 
 	"modernc.org/sqlite"
 	sqlite3 "modernc.org/sqlite/lib"
+
+	"github.com/pertinent/pertinent"
 )
 
-// Code classifies a store error so the web layer can choose a status without reading messages.
-type Code int
+// The store's error names are the root package's, kept as aliases so callers read
+// store.CodeInvalid beside store.ErrNotFound; there is one type.
+type (
+	Code  = pertinent.Code
+	Error = pertinent.Error
+)
 
 const (
-	CodeInvalid  Code = iota + 1 // the request itself is wrong
-	CodeNotFound                 // no such thing, or not visible to this user
-	CodeConflict                 // valid, but the current state refuses it
-	CodeDenied                   // the user may not do this
+	CodeInvalid  = pertinent.Invalid
+	CodeNotFound = pertinent.NotFound
+	CodeConflict = pertinent.Conflict
+	CodeDenied   = pertinent.Denied
 )
-
-// Error is an error with a code and a message fit to show a user.
-type Error struct {
-	Code    Code
-	Message string
-}
-
-func (e *Error) Error() string { return e.Message }
 
 func errorf(code Code, msg string) error { return &Error{Code: code, Message: msg} }
 
-// ErrorCode returns the code of err, or 0 when err is not a store error.
-func ErrorCode(err error) Code {
-	var e *Error
-	if errors.As(err, &e) {
-		return e.Code
-	}
-	return 0
-}
+// ErrorCode returns the code of err, or 0 when err carries no Error.
+func ErrorCode(err error) Code { return pertinent.CodeOf(err) }
 
 var (
 	// ErrNotFound is returned when a looked-up row does not exist.

@@ -41,7 +41,7 @@ func benchProject(b *testing.B, n int) (*Store, int64) {
 		users[i] = u.ID
 	}
 	rng := rand.New(rand.NewPCG(1, 2))
-	at := now()
+	at := s.now()
 	err = s.write(ctx, func(tx *sql.Tx) error {
 		q, _ := tx.PrepareContext(ctx, `INSERT INTO queries(project_id, external_id, text) VALUES (?, ?, 'q') RETURNING id`)
 		d, _ := tx.PrepareContext(ctx, `INSERT INTO documents(project_id, external_id) VALUES (?, ?) RETURNING id`)
@@ -154,9 +154,9 @@ func BenchmarkExportSVMlightFromStore(b *testing.B) {
 				planPeak = max(planPeak, stop())
 				runtime.GC()
 				stop = peakHeap()
-				var sink ExportSink = &DirSink{Dir: b.TempDir()}
+				var sink export.Sink = &export.DirSink{Dir: b.TempDir()}
 				if bc.zip {
-					zs := NewZipSink(io.Discard, time.Now())
+					zs := export.NewZipSink(io.Discard, time.Now())
 					sink = zs
 					defer zs.Close()
 				}
@@ -164,7 +164,7 @@ func BenchmarkExportSVMlightFromStore(b *testing.B) {
 				if err != nil {
 					b.Fatal(err)
 				}
-				if ds, ok := sink.(*DirSink); ok {
+				if ds, ok := sink.(*export.DirSink); ok {
 					ds.Close()
 				}
 				rows += m.Rows

@@ -102,7 +102,7 @@ func exportTo(t *testing.T, f *exportFixture, req ExportRequest) (string, export
 		t.Fatal(err)
 	}
 	dir := t.TempDir()
-	sink := &DirSink{Dir: dir}
+	sink := &export.DirSink{Dir: dir}
 	m, err := plan.Write(ctx, sink, time.Date(2025, 1, 2, 3, 4, 5, 0, time.UTC), nil)
 	if err != nil {
 		t.Fatal(err)
@@ -287,7 +287,7 @@ func TestExportSplitKeepsQueriesWhole(t *testing.T) {
 		t.Errorf("passes %d sequential, %d not; want 3 and 1", plan.Passes(true), plan.Passes(false))
 	}
 	var buf bytes.Buffer
-	zs := NewZipSink(&buf, time.Now())
+	zs := export.NewZipSink(&buf, time.Now())
 	if _, err := plan.Write(ctx, zs, time.Date(2025, 1, 2, 3, 4, 5, 0, time.UTC), nil); err != nil {
 		t.Fatal(err)
 	}

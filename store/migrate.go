@@ -81,7 +81,7 @@ func (s *Store) Migrate(ctx context.Context) error {
 				return err
 			}
 			_, err := tx.ExecContext(ctx, `INSERT INTO schema_migrations(version, name, applied_at) VALUES (?, ?, ?)`,
-				m.Version, m.Name, now())
+				m.Version, m.Name, s.now())
 			return err
 		})
 		if err != nil {

@@ -66,7 +66,7 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 	if err := zw.Close(); err != nil {
 		return KeptRun{}, err
 	}
-	kr := KeptRun{Name: name, Entries: entries, Queries: len(queries), CreatedAt: time.Now().UTC()}
+	kr := KeptRun{Name: name, Entries: entries, Queries: len(queries), CreatedAt: s.clock().UTC()}
 	err = s.write(ctx, func(tx *sql.Tx) error {
 		var old []byte
 		err := tx.QueryRowContext(ctx, `SELECT id, body FROM runs WHERE project_id = ? AND name = ?`, projectID, name).Scan(&kr.ID, &old)
@@ -88,7 +88,7 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 			projectID, name, packed.Bytes(), entries, len(queries), nullID(by), timeText(kr.CreatedAt)).Scan(&kr.ID); err != nil {
 			return err
 		}
-		return audit(ctx, tx, by, projectID, "run.keep", name, fmt.Sprintf("%d entries over %d queries", entries, len(queries)))
+		return s.audit(ctx, tx, by, projectID, "run.keep", name, fmt.Sprintf("%d entries over %d queries", entries, len(queries)))
 	})
 	if err == nil {
 		s.runs.put(kr.ID, estimate.NamedRun{Name: name, Run: run}, entries)

@@ -6,6 +6,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -80,7 +81,7 @@ func (s *Server) setPasswordPage(w http.ResponseWriter, r *http.Request) {
 	// The page's address holds the token: keep it out of any Referer header.
 	w.Header().Set("Referrer-Policy", "no-referrer")
 	token := r.URL.Query().Get("token")
-	u, err := s.store.PasswordLinkUser(r.Context(), token)
+	u, err := s.store.UserByPasswordLink(r.Context(), token)
 	if err != nil {
 		s.storeError(w, r, err)
 		return
@@ -92,7 +93,7 @@ func (s *Server) setPassword(w http.ResponseWriter, r *http.Request) {
 	w.Header().Set("Referrer-Policy", "no-referrer")
 	token, pw := r.PostFormValue("token"), r.PostFormValue("new")
 	if pw != r.PostFormValue("repeat") {
-		u, err := s.store.PasswordLinkUser(r.Context(), token)
+		u, err := s.store.UserByPasswordLink(r.Context(), token)
 		if err != nil {
 			s.storeError(w, r, err)
 			return
@@ -102,8 +103,8 @@ func (s *Server) setPassword(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	if _, err := s.store.UsePasswordLink(r.Context(), token, pw); err != nil {
-		if store.ErrorCode(err) == store.CodeInvalid {
-			u, uerr := s.store.PasswordLinkUser(r.Context(), token)
+		if pertinent.CodeOf(err) == pertinent.Invalid {
+			u, uerr := s.store.UserByPasswordLink(r.Context(), token)
 			if uerr == nil {
 				s.render(w, r, http.StatusBadRequest, "setpassword", "", s.newView(r, "Choose a password",
 					setPasswordData{Token: token, User: u, Error: strings.ToUpper(err.Error()[:1]) + err.Error()[1:] + "."}))

@@ -11,6 +11,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -59,13 +60,10 @@ func apiJSON(w http.ResponseWriter, v any) {
 	enc.Encode(v)
 }
 
-// apiStoreError maps a store error's code to a status, as storeError does for pages.
+// apiStoreError answers an error as JSON, with the status storeError gives pages.
 func (s *Server) apiStoreError(w http.ResponseWriter, r *http.Request, err error) {
-	var e *store.Error
-	if errors.As(err, &e) {
-		status := map[store.Code]int{store.CodeInvalid: http.StatusBadRequest, store.CodeNotFound: http.StatusNotFound,
-			store.CodeConflict: http.StatusConflict, store.CodeDenied: http.StatusForbidden}[e.Code]
-		if status != 0 {
+	if e, ok := pertinent.AsError(err); ok {
+		if status := codeStatus(e.Code); status != 0 {
 			apiError(w, status, e.Message)
 			return
 		}
@@ -86,7 +84,7 @@ func (s *Server) apiAuth(next http.Handler) http.Handler {
 			apiError(w, http.StatusUnauthorized, "send an API token as: Authorization: Bearer <token> (create one under Your account → API tokens)")
 			return
 		}
-		u, err := s.store.APITokenUser(r.Context(), strings.TrimSpace(token))
+		u, err := s.store.UserByAPIToken(r.Context(), strings.TrimSpace(token))
 		if err != nil {
 			if errors.Is(err, store.ErrNotFound) {
 				w.Header().Set("WWW-Authenticate", `Bearer realm="pertinent", error="invalid_token"`)
@@ -120,7 +118,7 @@ type apiProjectJSON struct {
 }
 
 func (s *Server) apiProjects(w http.ResponseWriter, r *http.Request) {
-	ls, err := s.store.ProjectsFor(r.Context(), apiUser(r))
+	ls, err := s.store.ProjectsByUser(r.Context(), apiUser(r))
 	if err != nil {
 		s.apiStoreError(w, r, err)
 		return

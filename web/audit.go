@@ -109,7 +109,7 @@ func (s *Server) auditPage(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
-	if d.Projects, err = s.store.AllProjects(r.Context()); err != nil {
+	if d.Projects, err = s.store.Projects(r.Context()); err != nil {
 		s.storeError(w, r, err)
 		return
 	}

@@ -93,7 +93,7 @@ func TestSignOutEndsSessionOnServer(t *testing.T) {
 func TestDisabledAccountLosesSessionAtOnce(t *testing.T) {
 	a := newTestApp(t)
 	c := a.signIn("amir")
-	if err := a.store.SetDisabled(context.Background(), a.users["amir"].ID, true); err != nil {
+	if err := a.store.SetUserDisabled(context.Background(), a.users["amir"].ID, true, 0); err != nil {
 		t.Fatal(err)
 	}
 	if res, _ := a.get(c, "/"); res.StatusCode != http.StatusSeeOther {

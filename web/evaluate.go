@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/rankeval"
 	"github.com/pertinent/pertinent/store"
 )
@@ -146,7 +147,7 @@ func (s *Server) loadEvaluation(w http.ResponseWriter, r *http.Request) (store.E
 		s.fail(w, r, http.StatusNotFound, "There is no such evaluation.")
 		return store.Evaluation{}, false
 	}
-	ev, err := s.store.SavedEvaluation(r.Context(), currentProject(r).ID, id)
+	ev, err := s.store.Evaluation(r.Context(), currentProject(r).ID, id)
 	if err != nil {
 		s.storeError(w, r, err)
 		return ev, false
@@ -239,8 +240,8 @@ func (s *Server) sendUnjudged(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
 	added, missing, err := s.store.AddPooledPairs(r.Context(), p.ID, ev.Unjudged, u.ID)
 	if err != nil {
-		var se *store.Error
-		if errors.As(err, &se) && se.Code == store.CodeConflict {
+		var se *pertinent.Error
+		if errors.As(err, &se) && se.Code == pertinent.Conflict {
 			s.flash(w, r, "notice", se.Message)
 			http.Redirect(w, r, fmt.Sprintf("/projects/%d/evaluations/%d", p.ID, ev.ID), http.StatusSeeOther)
 			return

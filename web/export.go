@@ -9,6 +9,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
+	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -70,7 +71,7 @@ func (s *Server) streamExportZip(w http.ResponseWriter, r *http.Request, p store
 	w.Header().Set("Content-Type", "application/zip")
 	w.Header().Set("Content-Disposition", `attachment; filename="`+exportName(p, plan, now)+`.zip"`)
 	w.Header().Set("Cache-Control", "no-store")
-	zs := store.NewZipSink(w, now)
+	zs := export.NewZipSink(w, now)
 	if _, err := plan.Write(r.Context(), zs, now, nil); err != nil {
 		// The status is gone with the first byte; an unfinished archive tells the client.
 		s.log.ErrorContext(r.Context(), "export failed while streaming", "project", p.ID, "err", err)

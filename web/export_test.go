@@ -125,7 +125,7 @@ func TestExportPageDownloadsAZip(t *testing.T) {
 	if res, _ := a.get(a.signIn("amir"), base+"/export.zip"); res.StatusCode != http.StatusForbidden {
 		t.Errorf("assessor export: %d, want 403", res.StatusCode)
 	}
-	if err := a.store.SetArchived(context.Background(), a.project.ID, true, a.users["root"].ID); err != nil {
+	if err := a.store.SetProjectArchived(context.Background(), a.project.ID, true, a.users["root"].ID); err != nil {
 		t.Fatal(err)
 	}
 	if res, _ := a.get(lead, base+"/export.zip?format=svmlight"); res.StatusCode != http.StatusOK {

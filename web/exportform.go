@@ -5,6 +5,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/rankeval"
 	"github.com/pertinent/pertinent/store"
@@ -53,18 +54,18 @@ func (f policyForm) policy() (export.LabelPolicy, error) {
 		ExcludeCannotJudge: f.ExcludeCannotJudge, ExcludeFlagged: f.ExcludeFlagged, ExcludeGold: f.ExcludeGold}
 	n, err := strconv.Atoi(f.MinJudgments)
 	if err != nil || n < 1 {
-		return p, &store.Error{Code: store.CodeInvalid, Message: "the least number of judgments must be a whole number of at least 1"}
+		return p, &pertinent.Error{Code: pertinent.Invalid, Message: "the least number of judgments must be a whole number of at least 1"}
 	}
 	p.MinJudgments = n
 	if f.MaxDisagreement != "" {
 		d, err := strconv.Atoi(f.MaxDisagreement)
 		if err != nil || d < 0 {
-			return p, &store.Error{Code: store.CodeInvalid, Message: "the largest disagreement must be empty or a whole number of at least 0"}
+			return p, &pertinent.Error{Code: pertinent.Invalid, Message: "the largest disagreement must be empty or a whole number of at least 0"}
 		}
 		p.MaxDisagreement = &d
 	}
 	if err := p.Validate(); err != nil {
-		return p, &store.Error{Code: store.CodeInvalid, Message: strings.TrimPrefix(err.Error(), "export: ")}
+		return p, err
 	}
 	return p, nil
 }
@@ -116,24 +117,24 @@ func (f exportForm) request() (store.ExportRequest, error) {
 	req.Format = store.ExportFormat(f.Format)
 	seed, err := strconv.ParseUint(f.Seed, 10, 64)
 	if err != nil {
-		return req, &store.Error{Code: store.CodeInvalid, Message: "the seed must be a whole number of at least 0"}
+		return req, &pertinent.Error{Code: pertinent.Invalid, Message: "the seed must be a whole number of at least 0"}
 	}
 	req.Split = export.SplitSpec{Method: "none", Seed: seed}
 	switch f.Split {
 	case "none":
 	case "ratio":
 		req.Split.Method = "ratio"
-		if req.Split.Ratios, err = store.ParseRatios(f.Ratios); err != nil {
+		if req.Split.Ratios, err = export.ParseRatios(f.Ratios); err != nil {
 			return req, err
 		}
 	case "folds", "k-fold":
 		k, err := strconv.Atoi(f.Folds)
 		if err != nil {
-			return req, &store.Error{Code: store.CodeInvalid, Message: "the number of folds must be a whole number"}
+			return req, &pertinent.Error{Code: pertinent.Invalid, Message: "the number of folds must be a whole number"}
 		}
 		req.Split.Method, req.Split.Folds = "k-fold", k
 	default:
-		return req, &store.Error{Code: store.CodeInvalid, Message: "split must be none, ratio or folds"}
+		return req, &pertinent.Error{Code: pertinent.Invalid, Message: "split must be none, ratio or folds"}
 	}
 	return req, nil
 }
@@ -167,10 +168,10 @@ func (f evalForm) request() (store.EvalRequest, error) {
 		return req, err
 	}
 	if req.K, err = strconv.Atoi(f.K); err != nil || req.K < 0 {
-		return req, &store.Error{Code: store.CodeInvalid, Message: "the cut-off k must be a whole number (0 for the whole ranking)"}
+		return req, &pertinent.Error{Code: pertinent.Invalid, Message: "the cut-off k must be a whole number (0 for the whole ranking)"}
 	}
 	if req.Threshold, err = strconv.Atoi(f.Threshold); err != nil || req.Threshold < 1 {
-		return req, &store.Error{Code: store.CodeInvalid, Message: "the relevance threshold must be a grade of at least 1"}
+		return req, &pertinent.Error{Code: pertinent.Invalid, Message: "the relevance threshold must be a grade of at least 1"}
 	}
 	switch f.Gain {
 	case "exponential":
@@ -178,7 +179,7 @@ func (f evalForm) request() (store.EvalRequest, error) {
 	case "linear":
 		req.Gain = rankeval.GainLinear
 	default:
-		return req, &store.Error{Code: store.CodeInvalid, Message: "gain must be exponential or linear"}
+		return req, &pertinent.Error{Code: pertinent.Invalid, Message: "gain must be exponential or linear"}
 	}
 	return req, nil
 }

@@ -1,32 +1,26 @@
 package web
 
 import (
-	"errors"
 	"net/http"
 	"strconv"
 	"strings"
 
 	"github.com/go-chi/chi/v5"
 
-	"github.com/pertinent/pertinent/store"
+	"github.com/pertinent/pertinent"
 )
 
-// userError splits a store error a form can show beside its fields (the request was wrong,
-// or the state refuses it) from one that should end in the error page.
+// userError splits an error a form can show beside its fields (the request was wrong, the
+// state refuses it, or the user may not) from one that should end in the error page.
 func userError(err error) (status int, msg string, ok bool) {
-	var e *store.Error
-	if !errors.As(err, &e) {
+	e, ok := pertinent.AsError(err)
+	if !ok || e.Code == pertinent.NotFound {
 		return 0, "", false
 	}
-	switch e.Code {
-	case store.CodeInvalid:
-		return http.StatusBadRequest, e.Message, true
-	case store.CodeConflict:
-		return http.StatusConflict, e.Message, true
-	case store.CodeDenied:
-		return http.StatusForbidden, e.Message, true
+	if status = codeStatus(e.Code); status == 0 {
+		return 0, "", false
 	}
-	return 0, "", false
+	return status, e.Message, true
 }
 
 // flash keeps a notice for the next page shown to this browser, in the encrypted session

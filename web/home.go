@@ -13,7 +13,7 @@ func (s *Server) homeRoutes(r chi.Router) {
 
 func (s *Server) home(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
-	list, err := s.store.ProjectsFor(r.Context(), u)
+	list, err := s.store.ProjectsByUser(r.Context(), u)
 	if err != nil {
 		s.storeError(w, r, err)
 		return

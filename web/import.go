@@ -19,6 +19,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/ingest"
 	"github.com/pertinent/pertinent/store"
 )
@@ -362,7 +363,7 @@ func (s *Server) runImportJob(ctx context.Context, job *importJob, by int64, spe
 		rep, err = s.store.Import(ctx, job.projectID, by, spec, files)
 	}
 	var ps *ingest.Problems
-	var se *store.Error
+	var se *pertinent.Error
 	switch {
 	case err == nil, errors.As(err, &ps), errors.As(err, &se):
 	case ctx.Err() != nil:
@@ -379,7 +380,7 @@ func (job *importJob) finish(rep store.ImportReport, err error) {
 	defer job.mu.Unlock()
 	job.done, job.finished, job.report = true, time.Now(), rep
 	var ps *ingest.Problems
-	var se *store.Error
+	var se *pertinent.Error
 	switch {
 	case errors.As(err, &ps):
 		job.problems = ps

@@ -13,6 +13,7 @@ import (
 
 	"github.com/microcosm-cc/bluemonday"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 
 	"github.com/go-chi/chi/v5"
@@ -228,7 +229,7 @@ func (s *Server) judgeSubmit(w http.ResponseWriter, r *http.Request) {
 	}
 	if htmx {
 		turn, err := s.store.SubmitAndNext(r.Context(), currentProject(r).ID, sub)
-		if store.ErrorCode(err) == store.CodeNotFound {
+		if pertinent.CodeOf(err) == pertinent.NotFound {
 			s.fail(w, r, http.StatusNotFound, "That pair is not part of this project.")
 			return
 		}
@@ -324,7 +325,7 @@ func (s *Server) parseSubmission(w http.ResponseWriter, r *http.Request, checkPr
 	if !checkProject {
 		return sub, true
 	}
-	if pv, err := s.store.PairProject(r.Context(), pairID); err != nil || pv != currentProject(r).ID {
+	if pv, err := s.store.ProjectIDByPair(r.Context(), pairID); err != nil || pv != currentProject(r).ID {
 		s.fail(w, r, http.StatusNotFound, "That pair is not part of this project.")
 		return store.Submission{}, false
 	}

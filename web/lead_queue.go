@@ -132,12 +132,17 @@ func (s *Server) pairInProject(w http.ResponseWriter, r *http.Request) (int64, b
 	id, err := strconv.ParseInt(chi.URLParam(r, "pair"), 10, 64)
 	if err == nil {
 		var p int64
-		if p, err = s.store.PairProject(r.Context(), id); err == nil && p != currentProject(r).ID {
+		if p, err = s.store.ProjectIDByPair(r.Context(), id); err == nil && p != currentProject(r).ID {
 			err = store.ErrNotFound
 		}
 	}
-	if err != nil {
+	var num *strconv.NumError
+	if errors.As(err, &num) || errors.Is(err, store.ErrNotFound) {
 		s.fail(w, r, http.StatusNotFound, "That pair is not part of this project.")
+		return 0, false
+	}
+	if err != nil { // the database failed: not a missing pair
+		s.storeError(w, r, err)
 		return 0, false
 	}
 	return id, true

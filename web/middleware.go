@@ -63,7 +63,7 @@ func (s *Server) loadUser(next http.Handler) http.Handler {
 	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
 		sess, _ := s.cookies.Get(r, sessionName)
 		if token, ok := sess.Values["token"].(string); ok {
-			u, err := s.store.SessionUser(r.Context(), token)
+			u, err := s.store.UserBySession(r.Context(), token)
 			if err == nil {
 				if p, ok := r.Context().Value(logUserKey{}).(*int64); ok {
 					*p = u.ID

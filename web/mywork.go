@@ -36,14 +36,14 @@ func (s *Server) myWorkData(r *http.Request, status string) (myWorkData, error) 
 	u, _ := currentUser(r)
 	d := myWorkData{Reasons: cannotJudgeOptions, AllowChanges: p.AllowChanges, Status: status}
 	var err error
-	if d.Judgments, err = s.store.MyJudgments(r.Context(), p.ID, u.ID, 100); err != nil {
+	if d.Judgments, err = s.store.JudgmentsByAssessor(r.Context(), p.ID, u.ID, 100); err != nil {
 		return d, err
 	}
 	if d.Scale, err = s.store.Scale(r.Context(), p.ID); err != nil {
 		return d, err
 	}
 	y, m, day := time.Now().Date()
-	if d.Today, d.Overall, err = s.store.MyCounts(r.Context(), p.ID, u.ID, time.Date(y, m, day, 0, 0, 0, 0, time.Local)); err != nil {
+	if d.Today, d.Overall, err = s.store.JudgmentCountsByAssessor(r.Context(), p.ID, u.ID, time.Date(y, m, day, 0, 0, 0, 0, time.Local)); err != nil {
 		return d, err
 	}
 	d.Judged, d.Needed, err = s.store.JudgingProgress(r.Context(), p.ID)

@@ -121,9 +121,9 @@ func (s *Server) setDisabled(w http.ResponseWriter, r *http.Request, disabled bo
 		s.fail(w, r, http.StatusNotFound, "There is no such account.")
 		return
 	}
-	target, err := s.store.UserByID(r.Context(), id)
+	target, err := s.store.User(r.Context(), id)
 	if err == nil {
-		err = s.store.SetDisabledBy(r.Context(), id, disabled, u.ID)
+		err = s.store.SetUserDisabled(r.Context(), id, disabled, u.ID)
 	}
 	if err != nil {
 		s.storeError(w, r, err)

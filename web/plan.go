@@ -10,6 +10,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/estimate"
 	"github.com/pertinent/pertinent/rankeval"
 	"github.com/pertinent/pertinent/store"
@@ -465,7 +466,7 @@ func (s *Server) apiDesignQueries(w http.ResponseWriter, r *http.Request) {
 }
 
 // storeInvalid is a form value the lead should change, shown as the store's own refusals are.
-func storeInvalid(msg string) error { return &store.Error{Code: store.CodeInvalid, Message: msg} }
+func storeInvalid(msg string) error { return &pertinent.Error{Code: pertinent.Invalid, Message: msg} }
 
 func init() {
 	funcs["f3"] = func(v float64) string { return strconv.FormatFloat(v, 'f', 3, 64) }

@@ -199,7 +199,7 @@ func (s *Server) restoreProject(w http.ResponseWriter, r *http.Request) { s.setA
 
 func (s *Server) setArchived(w http.ResponseWriter, r *http.Request, archived bool) {
 	u, _ := currentUser(r)
-	if err := s.store.SetArchived(r.Context(), currentProject(r).ID, archived, u.ID); err != nil {
+	if err := s.store.SetProjectArchived(r.Context(), currentProject(r).ID, archived, u.ID); err != nil {
 		s.storeError(w, r, err)
 		return
 	}

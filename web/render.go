@@ -12,6 +12,7 @@ import (
 	"path"
 	"strings"
 
+	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -116,30 +117,41 @@ func (s *Server) fail(w http.ResponseWriter, r *http.Request, status int, msg st
 	s.render(w, r, status, "error", "", s.newView(r, http.StatusText(status), msg))
 }
 
-// storeError turns a store error into a status; the code, not the message, decides.
+// storeError turns an error into a page; the code, not the message, decides the status.
 func (s *Server) storeError(w http.ResponseWriter, r *http.Request, err error) {
-	var e *store.Error
 	if errors.Is(err, context.Canceled) {
 		// The client went away; nobody is left to answer.
 		s.log.DebugContext(r.Context(), "request abandoned", "err", err)
 		w.WriteHeader(499)
 		return
 	}
-	if !errors.As(err, &e) {
+	e, ok := pertinent.AsError(err)
+	if !ok {
 		s.log.ErrorContext(r.Context(), "store failed", "err", err)
 		s.fail(w, r, http.StatusInternalServerError, "Something went wrong on our side; please try again.")
 		return
 	}
-	status := map[store.Code]int{
-		store.CodeInvalid:  http.StatusBadRequest,
-		store.CodeNotFound: http.StatusNotFound,
-		store.CodeConflict: http.StatusConflict,
-		store.CodeDenied:   http.StatusForbidden,
-	}[e.Code]
+	status := codeStatus(e.Code)
 	if status == 0 {
 		status = http.StatusInternalServerError
 	}
 	s.fail(w, r, status, e.Message)
+}
+
+// codeStatus is the HTTP status of an error code, for pages, forms and the API alike; 0 for
+// a code it does not know.
+func codeStatus(c pertinent.Code) int {
+	switch c {
+	case pertinent.Invalid:
+		return http.StatusBadRequest
+	case pertinent.NotFound:
+		return http.StatusNotFound
+	case pertinent.Conflict:
+		return http.StatusConflict
+	case pertinent.Denied:
+		return http.StatusForbidden
+	}
+	return 0
 }
 
 func urlQueryEscape(s string) string { return url.QueryEscape(s) }

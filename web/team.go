@@ -119,7 +119,7 @@ func (s *Server) removeMember(w http.ResponseWriter, r *http.Request) {
 		s.fail(w, r, http.StatusForbidden, "Only admins remove a project's leads.")
 		return
 	}
-	if err := s.store.RemoveMember(r.Context(), p.ID, id, u.ID); err != nil {
+	if err := s.store.DeleteMember(r.Context(), p.ID, id, u.ID); err != nil {
 		s.storeError(w, r, err)
 		return
 	}

@@ -50,8 +50,8 @@ func runExport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		return errors.New("export: give --split or --folds, not both")
 	case *split != "":
 		req.Split.Method = "ratio"
-		if req.Split.Ratios, err = store.ParseRatios(*split); err != nil {
-			return fmt.Errorf("export: %w", err)
+		if req.Split.Ratios, err = export.ParseRatios(*split); err != nil {
+			return err // already reads "export: ..."
 		}
 	case *folds != 0:
 		req.Split.Method, req.Split.Folds = "k-fold", *folds
@@ -69,7 +69,7 @@ func runExport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if err := os.MkdirAll(*out, 0o755); err != nil {
 		return err
 	}
-	sink := &store.DirSink{Dir: *out}
+	sink := &export.DirSink{Dir: *out}
 	progress, done := progressBar(stderr, plan.Pairs()*plan.Passes(sink.Sequential()), "exporting "+p.Name)
 	m, err := plan.Write(ctx, sink, time.Now(), progress)
 	done()

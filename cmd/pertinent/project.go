@@ -65,7 +65,7 @@ func runProject(ctx context.Context, args []string, stdout, stderr io.Writer) er
 		}
 		fmt.Fprintf(stdout, "%s is now %s of %q\n", u.Username, *role, p.Name)
 	case "list":
-		ps, err := st.AllProjects(ctx)
+		ps, err := st.Projects(ctx)
 		if err != nil {
 			return err
 		}

@@ -139,7 +139,7 @@ func serve(ctx context.Context, st *store.Store, f serverFlags, log *slog.Logger
 // first lead to look after a restart does not wait for a read of every judgment; later views
 // keep them current from the changes alone.
 func warmDesks(ctx context.Context, st *store.Store, log *slog.Logger) {
-	projects, err := st.AllProjects(ctx)
+	projects, err := st.Projects(ctx)
 	if err != nil {
 		return
 	}

@@ -94,7 +94,7 @@ func runUser(ctx context.Context, args []string, stdout, stderr io.Writer) error
 			}
 			return nil
 		}
-		if err := st.SetDisabled(ctx, u.ID, verb == "disable"); err != nil {
+		if err := st.SetUserDisabled(ctx, u.ID, verb == "disable", 0); err != nil {
 			return err
 		}
 		fmt.Fprintf(stdout, "%sd %s\n", verb, username)

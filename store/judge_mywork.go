@@ -1,0 +1,103 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"time"
+)
+
+// MyJudgment is one of an assessor's own current judgments, as listed on their "My work"
+// page. It carries nothing of any other assessor.
+type MyJudgment struct {
+	Judgment
+	QueryText     string
+	DocumentTitle string
+	Revised       bool // supersedes an earlier answer
+	Changeable    bool // the project allows changes and no lead has adjudicated the pair
+}
+
+// JudgmentsByAssessor lists an assessor's current judgments in a project, newest first.
+func (s *Store) JudgmentsByAssessor(ctx context.Context, projectID, userID int64, limit int) ([]MyJudgment, error) {
+	if limit <= 0 || limit > 500 {
+		limit = 50
+	}
+	rows, err := s.r.QueryContext(ctx, `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
+			COALESCE(j.supersedes, 0), j.created_at, q.text, d.title,
+			pr.allow_changes AND NOT EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1)
+		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id
+			JOIN documents d ON d.id = p.document_id JOIN projects pr ON pr.id = p.project_id
+		WHERE j.user_id = ?2 AND +p.project_id = ?1 AND j.current = 1
+		ORDER BY j.id DESC LIMIT ?3`, projectID, userID, limit)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []MyJudgment
+	for rows.Next() {
+		var m MyJudgment
+		var grade sql.NullInt64
+		var at string
+		if err := rows.Scan(&m.ID, &m.PairID, &grade, &m.CannotJudge, &m.Note, &m.TimeSpentMs, &m.Supersedes, &at,
+			&m.QueryText, &m.DocumentTitle, &m.Changeable); err != nil {
+			return nil, err
+		}
+		m.UserID = userID
+		m.Current = true
+		m.Revised = m.Supersedes != 0
+		if grade.Valid {
+			g := int(grade.Int64)
+			m.Grade = &g
+		}
+		m.CreatedAt = parseTime(at)
+		out = append(out, m)
+	}
+	return out, rows.Err()
+}
+
+// JudgmentCountsByAssessor returns how many pairs an assessor has a current judgment of in a project, and
+// how many first answers (not revisions, not withdrawn) they gave since the given time (the
+// start of their day, chosen by the caller).
+func (s *Store) JudgmentCountsByAssessor(ctx context.Context, projectID, userID int64, since time.Time) (today, overall int, err error) {
+	err = s.r.QueryRowContext(ctx, `SELECT
+			COALESCE(SUM(j.created_at >= ?3 AND j.supersedes IS NULL AND j.withdrawn_at IS NULL), 0),
+			COALESCE(SUM(j.current), 0)
+		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id
+		WHERE j.user_id = ?2 AND +p.project_id = ?1`, projectID, userID, timeText(since)).Scan(&today, &overall)
+	return today, overall, err
+}
+
+// FlaggedPair is a pair assessors said they cannot judge, for a reason, with how many said so.
+// It names no assessor.
+type FlaggedPair struct {
+	PairID        int64
+	QueryText     string
+	DocumentTitle string
+	Reason        string
+	Count         int
+}
+
+// FlaggedPairs lists the project's pairs with current "cannot judge" answers, disturbing
+// content first, then by how many assessors flagged them.
+func (s *Store) FlaggedPairs(ctx context.Context, projectID int64, limit int) ([]FlaggedPair, error) {
+	if limit <= 0 || limit > 1000 {
+		limit = 100
+	}
+	rows, err := s.r.QueryContext(ctx, `SELECT p.id, q.text, d.title, j.cannot_judge, COUNT(*)
+		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id JOIN documents d ON d.id = p.document_id
+		WHERE j.current = 1 AND j.cannot_judge IS NOT NULL AND p.project_id = ?1
+		GROUP BY p.id, j.cannot_judge
+		ORDER BY j.cannot_judge = 'disturbing' DESC, COUNT(*) DESC, p.id LIMIT ?2`, projectID, limit)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []FlaggedPair
+	for rows.Next() {
+		var f FlaggedPair
+		if err := rows.Scan(&f.PairID, &f.QueryText, &f.DocumentTitle, &f.Reason, &f.Count); err != nil {
+			return nil, err
+		}
+		out = append(out, f)
+	}
+	return out, rows.Err()
+}
