@@ -8,9 +8,18 @@ import (
 
 // csvReader reads RFC 4180 records: fields separated by commas, optionally
 // enclosed in double quotes, "" for a quote inside quotes, line breaks inside
-// quotes kept as "\n". Blank lines are skipped. It is our own rather than
-// encoding/csv so that every field carries its exact line, rows are bounded
-// in size, and a row costs one allocation.
+// quotes kept as "\n". Blank lines are skipped.
+//
+// It is our own rather than encoding/csv (with ReuseRecord and FieldPos) for
+// two reasons. encoding/csv has no bound on a row: it buffers the whole
+// record before it can fail, so a 256 MiB unclosed quoted field allocated
+// 1.9 GiB there against 4 MiB here, where reading stops at MaxLineBytes
+// (1 MiB) with the row's line. A counting wrapper around the input could
+// impose the bound, but the second reason remains: its ParseError gives a
+// line and a byte column, not the field, and our messages name the field
+// ("field 2: unexpected 'y' after closing quote"). Speed and allocations
+// are alike (one string per row in both; 813 against 719 MB/s on the
+// benchmark's rows).
 type csvReader struct {
 	lr     *lineReader
 	max    int

@@ -62,7 +62,7 @@ func (a *testApp) projectByName(name string) store.Project {
 }
 
 // parseHTML parses a page, failing the test on malformed input.
-func parseHTML(t *testing.T, body string) *html.Node {
+func parseHTML(t testing.TB, body string) *html.Node {
 	t.Helper()
 	doc, err := html.Parse(strings.NewReader(body))
 	if err != nil {

@@ -139,8 +139,7 @@ func browserSignIn(ctx context.Context, base, username, next string) error {
 func TestBrowserKeyboardJudging(t *testing.T) {
 	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	dir := screenshotDir(t)
-	a := newJudgingApp(t, judgingSpec{Queries: 2, Docs: 6, Assessors: 1, PerPair: 1,
-		Guidelines: "# Judging reading lamps\n\nGrade how well the lamp suits **reading in bed**.\n\n- Warm light helps.\n- A clamp is a plus."})
+	a := newTestApp(t, withPairs(2, 6), withAssessors(1), withPerPair(1), withGuidelines("# Judging reading lamps\n\nGrade how well the lamp suits **reading in bed**.\n\n- Warm light helps.\n- A clamp is a plus."))
 	loadDemoLikeDocument(t, a)
 	must := func(err error) {
 		t.Helper()
@@ -205,29 +204,33 @@ func TestBrowserKeyboardJudging(t *testing.T) {
 	}
 
 	// The database: four grades, the fifth pair withdrawn and then flagged, the note kept.
-	db := a.db()
 	want := map[string]string{judged[0]: "3", judged[1]: "0", judged[2]: "4", judged[3]: "2", judged[4]: "disturbing"}
-	rows, err := db.Query(`SELECT pair_id, COALESCE(CAST(grade AS TEXT), cannot_judge), note, time_spent_ms FROM judgments WHERE current = 1`)
-	must(err)
 	got := map[string]string{}
-	for rows.Next() {
-		var p, answer, n string
-		var ms int
-		must(rows.Scan(&p, &answer, &n, &ms))
-		got[p] = answer
-		if (p == judged[2]) != (n == note) {
-			t.Errorf("pair %s has note %q", p, n)
-		}
-		if ms <= 0 {
-			t.Errorf("pair %s: time spent %d ms, want the time measured on the page", p, ms)
+	withdrawn := 0
+	for _, pid := range a.pairs {
+		for _, j := range a.judgments(pid) {
+			p := fmt.Sprint(pid)
+			if p == judged[4] && j.Withdrawn && j.Grade != nil && *j.Grade == 1 {
+				withdrawn++
+			}
+			if !j.Current {
+				continue
+			}
+			got[p] = j.CannotJudge
+			if j.Grade != nil {
+				got[p] = fmt.Sprint(*j.Grade)
+			}
+			if (p == judged[2]) != (j.Note == note) {
+				t.Errorf("pair %s has note %q", p, j.Note)
+			}
+			if j.TimeSpentMs <= 0 {
+				t.Errorf("pair %s: time spent %d ms, want the time measured on the page", p, j.TimeSpentMs)
+			}
 		}
 	}
-	rows.Close()
 	if fmt.Sprint(got) != fmt.Sprint(want) {
 		t.Errorf("current judgments %v, want %v", got, want)
 	}
-	var withdrawn int
-	db.QueryRow(`SELECT COUNT(*) FROM judgments WHERE pair_id = ? AND withdrawn_at IS NOT NULL AND grade = 1`, judged[4]).Scan(&withdrawn)
 	if withdrawn != 1 {
 		t.Errorf("the undone grade 1 of pair %s is not kept as withdrawn", judged[4])
 	}
@@ -235,7 +238,7 @@ func TestBrowserKeyboardJudging(t *testing.T) {
 
 // loadDemoLikeDocument gives the first pair's document a realistic HTML body, so the
 // screenshots show a readable pane rather than one line.
-func loadDemoLikeDocument(t *testing.T, a *judgingApp) {
+func loadDemoLikeDocument(t *testing.T, a *testApp) {
 	t.Helper()
 	body := `<h2>Brass clamp reading lamp</h2><p>A compact lamp for reading in bed: the clamp fits headboards up to 4 cm thick, ` +
 		`and the flexible arm lets the light fall on the page without lighting the whole room.</p>` +
@@ -243,15 +246,13 @@ func loadDemoLikeDocument(t *testing.T, a *judgingApp) {
 		`<p>Customers say the clamp holds well but the switch is stiff at first. Not suitable for outdoor use.</p>` +
 		strings.Repeat(`<p>The shade is spun aluminium with a brushed brass finish; the inside is matt white to avoid glare. `+
 			`Replacement LEDs are not needed for the life of the lamp.</p>`, 4)
-	if _, err := a.db().Exec(`UPDATE documents SET body = ?, body_format = 'html', title = 'Brass clamp reading lamp, warm LED' WHERE project_id = ?`, body, a.project.ID); err != nil {
-		t.Fatal(err)
-	}
+	a.rewriteDocuments("Brass clamp reading lamp, warm LED", body, "html")
 }
 
 // With JavaScript off, the same flow works through plain form posts and 303 redirects.
 func TestBrowserJudgingWithoutJavaScript(t *testing.T) {
 	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
-	a := newJudgingApp(t, judgingSpec{Queries: 1, Docs: 3, Assessors: 1, PerPair: 1})
+	a := newTestApp(t, withPairs(1, 3), withAssessors(1), withPerPair(1))
 	must := func(err error) {
 		t.Helper()
 		if err != nil {
@@ -275,11 +276,7 @@ func TestBrowserJudgingWithoutJavaScript(t *testing.T) {
 	if !strings.Contains(status, "Saved: grade 2.") || second.Value == first.Value {
 		t.Fatalf("after a plain form post: status %q, pair %s -> %s; want the saved line and a new pair", status, first.Value, second.Value)
 	}
-	var grade int
-	if err := a.db().QueryRow(`SELECT grade FROM judgments WHERE pair_id = ? AND current = 1`, first.Value).Scan(&grade); err != nil {
-		t.Fatal(err)
-	}
-	if grade != 2 {
+	if grade := a.currentGrade(first.Value); grade != 2 {
 		t.Errorf("stored grade %d, want 2", grade)
 	}
 	// Undo works as a plain form too: the pair comes back.
@@ -287,8 +284,12 @@ func TestBrowserJudgingWithoutJavaScript(t *testing.T) {
 		chromedp.Click(chromedp.ID("undo")),
 		chromedp.WaitReady(chromedp.CSS(`#pair input[name="pair"][value="`+first.Value+`"]`)),
 	))
-	var withdrawn int
-	a.db().QueryRow(`SELECT COUNT(*) FROM judgments WHERE pair_id = ? AND withdrawn_at IS NOT NULL`, first.Value).Scan(&withdrawn)
+	withdrawn := 0
+	for _, j := range a.judgments(pairNumber(t, first.Value)) {
+		if j.Withdrawn {
+			withdrawn++
+		}
+	}
 	if withdrawn != 1 {
 		t.Errorf("undo without JavaScript did not withdraw the judgment")
 	}
@@ -303,7 +304,7 @@ func TestBrowserJudgingWithoutJavaScript(t *testing.T) {
 		chromedp.Click(chromedp.CSS(`#pair button[name="grade"][value="1"]`)),
 		chromedp.WaitReady(chromedp.CSS(`#pair input[name="pair"]:not([value="`+first.Value+`"])`)),
 	))
-	if err := a.db().QueryRow(`SELECT grade FROM judgments WHERE pair_id = ? AND current = 1`, first.Value).Scan(&grade); err != nil || grade != 1 {
-		t.Errorf("after a tap on grade 1 in the phone's grade bar: grade %d, %v", grade, err)
+	if grade := a.currentGrade(first.Value); grade != 1 {
+		t.Errorf("after a tap on grade 1 in the phone's grade bar: grade %d", grade)
 	}
 }

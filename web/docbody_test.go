@@ -34,7 +34,7 @@ func insideID(n *html.Node, id string) bool {
 // grade buttons remain in the judging form, outside the document and outside any link of
 // it, and the adjudication form stays whole.
 func TestUnclosedDocumentMarkupStaysInItsPane(t *testing.T) {
-	a := newJudgingApp(t, judgingSpec{Queries: 1, Docs: 1, Assessors: 1, PerPair: 1})
+	a := newTestApp(t, withPairs(1, 1), withAssessors(1), withPerPair(1))
 	assessor := a.signIn("a000")
 	lead := a.signIn("leader")
 	for _, body := range []string{
@@ -44,10 +44,8 @@ func TestUnclosedDocumentMarkupStaysInItsPane(t *testing.T) {
 		`<math><mtext><table><mglyph><style><img src=x>`,
 		`<b><i><u>styled`, `<h2>heading`, `<pre>code`,
 	} {
-		if _, err := a.db().Exec(`UPDATE documents SET body = ?, body_format = 'html'`, body); err != nil {
-			t.Fatal(err)
-		}
-		status, page, err := a.do(assessor, http.MethodGet, a.judgePath(), nil, false)
+		a.rewriteDocuments("", body, "html")
+		status, page, err := a.send(assessor, http.MethodGet, a.judgePath(), nil, false)
 		if err != nil || status != http.StatusOK {
 			t.Fatalf("judging page: %d %v", status, err)
 		}
@@ -69,7 +67,7 @@ func TestUnclosedDocumentMarkupStaysInItsPane(t *testing.T) {
 		if buttons != 5 {
 			t.Errorf("body %q: %d grade buttons on the page, want 5", body, buttons)
 		}
-		status, page, err = a.do(lead, http.MethodGet, fmt.Sprintf("/projects/%d/pairs/%d/adjudicate", a.project.ID, a.pairs[0]), nil, false)
+		status, page, err = a.send(lead, http.MethodGet, fmt.Sprintf("/projects/%d/pairs/%d/adjudicate", a.project.ID, a.pairs[0]), nil, false)
 		if err != nil || status != http.StatusOK {
 			t.Fatalf("adjudication page: %d %v", status, err)
 		}

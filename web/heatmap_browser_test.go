@@ -129,7 +129,7 @@ func TestBrowserHeatMapShowsKappaInEveryCell(t *testing.T) {
 // its own box, instead of shrinking to fit or widening the page.
 func TestBrowserHeatMapScrollsWhenWide(t *testing.T) {
 	const assessors = 12
-	a := newJudgingApp(t, judgingSpec{Queries: 2, Docs: 4, Assessors: assessors, PerPair: assessors})
+	a := newTestApp(t, withPairs(2, 4), withAssessors(assessors), withPerPair(assessors))
 	err := a.store.Load(context.Background(), a.project.ID, func(l *store.Loader) error {
 		for i, u := range a.assessors {
 			for p, pair := range a.pairs {

@@ -143,7 +143,7 @@ func TestGradeOffTheScaleIsRefused(t *testing.T) {
 	}
 }
 
-func readAll(t *testing.T, res *http.Response) string {
+func readAll(t testing.TB, res *http.Response) string {
 	t.Helper()
 	b, err := io.ReadAll(res.Body)
 	if err != nil {

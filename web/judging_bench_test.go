@@ -21,12 +21,12 @@ func BenchmarkSubmitAndNext(b *testing.B) {
 		b.Run(fmt.Sprintf("assessors-%d", n), func(b *testing.B) {
 			perPair := min(n, 3)
 			queries := (b.N/perPair+2*n)/20 + 1
-			a := newJudgingApp(b, judgingSpec{Queries: queries, Docs: 20, Assessors: n, PerPair: perPair})
+			a := newTestApp(b, withPairs(queries, 20), withAssessors(n), withPerPair(perPair))
 			clients := make([]*http.Client, n)
 			pairs := make([]int64, n)
 			for i, u := range a.assessors {
 				clients[i] = a.signIn(u.Username)
-				_, body, err := a.do(clients[i], http.MethodGet, a.judgePath(), nil, false)
+				_, body, err := a.send(clients[i], http.MethodGet, a.judgePath(), nil, false)
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -48,7 +48,7 @@ func BenchmarkSubmitAndNext(b *testing.B) {
 							return
 						}
 						t0 := time.Now()
-						status, body, err := a.do(clients[i], http.MethodPost, a.judgePath(),
+						status, body, err := a.send(clients[i], http.MethodPost, a.judgePath(),
 							url.Values{"pair": {fmt.Sprint(pairs[i])}, "grade": {"2"}, "elapsed_ms": {"900"}}, true)
 						latencies[i] = append(latencies[i], time.Since(t0))
 						if err != nil || status != http.StatusOK {

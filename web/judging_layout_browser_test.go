@@ -55,7 +55,7 @@ func cardGap(ctx context.Context) (float64, error) {
 func TestBrowserQueryAndDocumentCardsSitTogether(t *testing.T) {
 	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	dir := screenshotDir(t)
-	a := newJudgingApp(t, judgingSpec{Queries: 1, Docs: 2, Assessors: 1, PerPair: 1})
+	a := newTestApp(t, withPairs(1, 2), withAssessors(1), withPerPair(1))
 	must := func(err error) {
 		t.Helper()
 		if err != nil {
@@ -105,7 +105,7 @@ const gradeButtonsOffScreenJS = `(() => {
 func TestBrowserPhoneGradesWithinReach(t *testing.T) {
 	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	dir := screenshotDir(t)
-	a := newJudgingApp(t, judgingSpec{Queries: 1, Docs: 3, Assessors: 1, PerPair: 1})
+	a := newTestApp(t, withPairs(1, 3), withAssessors(1), withPerPair(1))
 	loadDemoLikeDocument(t, a)
 	must := func(err error) {
 		t.Helper()
@@ -169,9 +169,7 @@ func TestBrowserPhoneGradesWithinReach(t *testing.T) {
 	must(chromedp.Do(ctx, chromedp.Click(chromedp.CSS(`#pair button[name="grade"][value="3"]`))))
 	_, err = waitPairOtherThan(ctx, pair)
 	must(err)
-	var grade int
-	must(a.db().QueryRow(`SELECT grade FROM judgments WHERE pair_id = ? AND current = 1`, pair).Scan(&grade))
-	if grade != 3 {
+	if grade := a.currentGrade(pair); grade != 3 {
 		t.Errorf("stored grade %d after tapping 3", grade)
 	}
 }

@@ -18,7 +18,7 @@ import (
 // judgments each through the submit-and-next request; afterwards every pair has exactly 3
 // current judgments from 3 different assessors and no other judgment rows exist.
 func TestConcurrentAssessorsDrainProjectExactly(t *testing.T) {
-	a := newJudgingApp(t, judgingSpec{Queries: 100, Docs: 20, Assessors: 200, PerPair: 3})
+	a := newTestApp(t, withPairs(100, 20), withAssessors(200), withPerPair(3))
 	clients := make([]*http.Client, len(a.assessors))
 	for i, u := range a.assessors {
 		clients[i] = a.signIn(u.Username)
@@ -31,13 +31,13 @@ func TestConcurrentAssessorsDrainProjectExactly(t *testing.T) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			status, body, err := a.do(c, http.MethodGet, a.judgePath(), nil, false)
+			status, body, err := a.send(c, http.MethodGet, a.judgePath(), nil, false)
 			if err != nil || status != http.StatusOK {
 				errs <- fmt.Errorf("judge page: %d %v", status, err)
 				return
 			}
 			for pair := offeredPair(body); pair != 0; pair = offeredPair(body) {
-				status, body, err = a.do(c, http.MethodPost, a.judgePath(), url.Values{
+				status, body, err = a.send(c, http.MethodPost, a.judgePath(), url.Values{
 					"pair": {fmt.Sprint(pair)}, "grade": {fmt.Sprint(i % 5)}, "elapsed_ms": {"1500"}}, true)
 				if err != nil || status != http.StatusOK {
 					errs <- fmt.Errorf("submit of pair %d: %d %v %s", pair, status, err, body)
@@ -56,15 +56,27 @@ func TestConcurrentAssessorsDrainProjectExactly(t *testing.T) {
 	for err := range errs {
 		t.Fatal(err)
 	}
-	db := a.db()
 	var pairs, exact, rows, nonCurrent int
-	if err := db.QueryRow(`SELECT COUNT(*), COALESCE(SUM(x.judged = 3
-			AND (SELECT COUNT(*) FROM judgments j WHERE j.pair_id = x.id AND j.current = 1) = 3
-			AND (SELECT COUNT(DISTINCT user_id) FROM judgments j WHERE j.pair_id = x.id AND j.current = 1) = 3), 0)
-		FROM pairs x WHERE x.project_id = ?`, a.project.ID).Scan(&pairs, &exact); err != nil {
-		t.Fatal(err)
+	for _, p := range a.pairs {
+		judged, err := a.store.JudgedCount(context.Background(), p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		current, by := 0, map[int64]bool{}
+		for _, j := range a.judgments(p) {
+			rows++
+			if j.Current {
+				current++
+				by[j.UserID] = true
+			} else {
+				nonCurrent++
+			}
+		}
+		pairs++
+		if judged == 3 && current == 3 && len(by) == 3 {
+			exact++
+		}
 	}
-	db.QueryRow(`SELECT COUNT(*), COALESCE(SUM(current = 0), 0) FROM judgments`).Scan(&rows, &nonCurrent)
 	if pairs != 2000 || exact != 2000 {
 		t.Errorf("%d of %d pairs have exactly 3 current judgments from 3 assessors", exact, pairs)
 	}
@@ -80,24 +92,24 @@ func TestConcurrentAssessorsDrainProjectExactly(t *testing.T) {
 // distinctive note: A's note and name appear nowhere. A sees their own note on My work, so
 // the check would catch a page that showed it.
 func TestAssessorNeverSeesAnotherAssessorsWork(t *testing.T) {
-	a := newJudgingApp(t, judgingSpec{Queries: 1, Docs: 2, Assessors: 2, PerPair: 3})
+	a := newTestApp(t, withPairs(1, 2), withAssessors(2), withPerPair(3))
 	const note = "zebra-quartz-1729 spotted"
 	ua, ub := a.assessors[0], a.assessors[1]
 	ca, cb := a.signIn(ua.Username), a.signIn(ub.Username)
-	_, body, _ := a.do(ca, http.MethodGet, a.judgePath(), nil, false)
+	_, body, _ := a.send(ca, http.MethodGet, a.judgePath(), nil, false)
 	pair := offeredPair(body)
 	for _, form := range []url.Values{
 		{"pair": {fmt.Sprint(pair)}, "grade": {"4"}, "note": {note}},
 	} {
-		if status, body, err := a.do(ca, http.MethodPost, a.judgePath(), form, true); err != nil || status != http.StatusOK {
+		if status, body, err := a.send(ca, http.MethodPost, a.judgePath(), form, true); err != nil || status != http.StatusOK {
 			t.Fatalf("A's judgment: %d %v %s", status, err, body)
 		}
 	}
-	_, body, _ = a.do(ca, http.MethodGet, a.judgePath(), nil, false)
-	if status, _, _ := a.do(ca, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(offeredPair(body))}, "cannot_judge": {"disturbing"}, "note": {note}}, false); status != http.StatusSeeOther {
+	_, body, _ = a.send(ca, http.MethodGet, a.judgePath(), nil, false)
+	if status, _, _ := a.send(ca, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(offeredPair(body))}, "cannot_judge": {"disturbing"}, "note": {note}}, false); status != http.StatusSeeOther {
 		t.Fatalf("A's flag: status %d", status)
 	}
-	if _, mine, _ := a.do(ca, http.MethodGet, fmt.Sprintf("/projects/%d/mine", a.project.ID), nil, false); !strings.Contains(mine, note) {
+	if _, mine, _ := a.send(ca, http.MethodGet, fmt.Sprintf("/projects/%d/mine", a.project.ID), nil, false); !strings.Contains(mine, note) {
 		t.Fatalf("A's own My work page should show A's note")
 	}
 	// B judges too (so B's pages have history) and sees both of A's pairs.
@@ -132,56 +144,54 @@ func TestAssessorNeverSeesAnotherAssessorsWork(t *testing.T) {
 		t.Fatalf("walked only %v", paths)
 	}
 	for range 2 {
-		_, body, _ := a.do(cb, http.MethodGet, a.judgePath(), nil, false)
+		_, body, _ := a.send(cb, http.MethodGet, a.judgePath(), nil, false)
 		check("the judging page", body)
-		status, frag, _ := a.do(cb, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(offeredPair(body))}, "grade": {"1"}}, true)
+		status, frag, _ := a.send(cb, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(offeredPair(body))}, "grade": {"1"}}, true)
 		if status != http.StatusOK {
 			t.Fatalf("B's judgment: %d", status)
 		}
 		check("the submit-and-next fragment", frag)
 	}
 	for _, p := range paths {
-		_, body, err := a.do(cb, http.MethodGet, p, nil, false)
+		_, body, err := a.send(cb, http.MethodGet, p, nil, false)
 		if err != nil {
 			t.Fatal(err)
 		}
 		check("GET "+p, body)
 	}
 	// B's own change and undo answers carry nothing of A either.
-	_, frag, _ := a.do(cb, http.MethodPost, fmt.Sprintf("/projects/%d/mine", a.project.ID), url.Values{"pair": {fmt.Sprint(pair)}, "grade": {"3"}}, true)
+	_, frag, _ := a.send(cb, http.MethodPost, fmt.Sprintf("/projects/%d/mine", a.project.ID), url.Values{"pair": {fmt.Sprint(pair)}, "grade": {"3"}}, true)
 	check("the My work change fragment", frag)
-	_, frag, _ = a.do(cb, http.MethodPost, fmt.Sprintf("/projects/%d/undo", a.project.ID), url.Values{}, true)
+	_, frag, _ = a.send(cb, http.MethodPost, fmt.Sprintf("/projects/%d/undo", a.project.ID), url.Values{}, true)
 	check("the undo fragment", frag)
 }
 
 func TestExpiredLeaseReturnsPairOverHTTP(t *testing.T) {
-	a := newJudgingApp(t, judgingSpec{Queries: 1, Docs: 1, Assessors: 3, PerPair: 1})
+	a := newTestApp(t, withPairs(1, 1), withAssessors(3), withPerPair(1))
 	c0, c1 := a.signIn("a000"), a.signIn("a001")
-	_, body, _ := a.do(c0, http.MethodGet, a.judgePath(), nil, false)
+	_, body, _ := a.send(c0, http.MethodGet, a.judgePath(), nil, false)
 	if offeredPair(body) != a.pairs[0] {
 		t.Fatalf("first assessor was not offered the only pair")
 	}
-	if _, body, _ = a.do(c1, http.MethodGet, a.judgePath(), nil, false); offeredPair(body) != 0 || !strings.Contains(body, "Nothing left") {
+	if _, body, _ = a.send(c1, http.MethodGet, a.judgePath(), nil, false); offeredPair(body) != 0 || !strings.Contains(body, "Nothing left") {
 		t.Fatalf("the only pair, leased to another, was offered again")
 	}
-	if _, err := a.db().Exec(`UPDATE leases SET expires_at = '2000-01-01T00:00:00.000Z' WHERE user_id = ?`, a.assessors[0].ID); err != nil {
+	if _, err := a.store.ExpireLeases(context.Background(), a.assessors[0].ID); err != nil {
 		t.Fatal(err)
 	}
-	if _, body, _ = a.do(c1, http.MethodGet, a.judgePath(), nil, false); offeredPair(body) != a.pairs[0] {
+	if _, body, _ = a.send(c1, http.MethodGet, a.judgePath(), nil, false); offeredPair(body) != a.pairs[0] {
 		t.Fatalf("after the lease expired the pair did not come back")
 	}
 	// The first assessor, answering late, finds the pair taken: told so, and nothing is stored twice.
-	status, frag, _ := a.do(c1, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(a.pairs[0])}, "grade": {"2"}}, true)
+	status, frag, _ := a.send(c1, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(a.pairs[0])}, "grade": {"2"}}, true)
 	if status != http.StatusOK {
 		t.Fatal(status)
 	}
-	status, frag, _ = a.do(c0, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(a.pairs[0])}, "grade": {"3"}}, true)
+	status, frag, _ = a.send(c0, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(a.pairs[0])}, "grade": {"3"}}, true)
 	if status != http.StatusOK || !strings.Contains(frag, "Not saved") {
 		t.Errorf("late answer: status %d, want the next-pair fragment saying it was not saved:\n%s", status, frag)
 	}
-	var n int
-	a.db().QueryRow(`SELECT COUNT(*) FROM judgments WHERE pair_id = ?`, a.pairs[0]).Scan(&n)
-	if n != 1 {
+	if n := len(a.judgments(a.pairs[0])); n != 1 {
 		t.Errorf("pair needing one judgment has %d", n)
 	}
 }
@@ -190,9 +200,9 @@ func TestExpiredLeaseReturnsPairOverHTTP(t *testing.T) {
 // with standard deviation sqrt(0.2*0.8/500) = 0.0179, so ±0.06 is about 3.4 sigma (a false
 // alarm about once in 1,300 runs; the bound is common practice, not a published value).
 func TestGoldPairsServedAtTheConfiguredRate(t *testing.T) {
-	a := newJudgingApp(t, judgingSpec{Queries: 30, Docs: 20, Assessors: 1, PerPair: 1, Gold: 200, GoldRate: 0.2})
+	a := newTestApp(t, withPairs(30, 20), withAssessors(1), withPerPair(1), withGold(200, 0.2))
 	c := a.signIn("a000")
-	_, body, _ := a.do(c, http.MethodGet, a.judgePath(), nil, false)
+	_, body, _ := a.send(c, http.MethodGet, a.judgePath(), nil, false)
 	gold, seen := 0, map[int64]bool{}
 	for range 500 {
 		pair := offeredPair(body)
@@ -210,7 +220,7 @@ func TestGoldPairsServedAtTheConfiguredRate(t *testing.T) {
 			}
 		}
 		var status int
-		status, body, _ = a.do(c, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(pair)}, "grade": {"2"}}, true)
+		status, body, _ = a.send(c, http.MethodPost, a.judgePath(), url.Values{"pair": {fmt.Sprint(pair)}, "grade": {"2"}}, true)
 		if status != http.StatusOK {
 			t.Fatalf("status %d", status)
 		}

@@ -14,8 +14,6 @@ import (
 	"strconv"
 	"testing"
 
-	"golang.org/x/crypto/bcrypt"
-
 	"github.com/pertinent/pertinent/store"
 	"github.com/pertinent/pertinent/web"
 )
@@ -23,22 +21,14 @@ import (
 // `pertinent agreement --db` prints the numbers the lead's overview shows, intervals
 // included, on the seeded demo project.
 func TestAgreementCommandMatchesOverviewPage(t *testing.T) {
-	store.SetPasswordCost(bcrypt.MinCost)
 	ctx := context.Background()
 	db := filepath.Join(t.TempDir(), "demo.db")
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
+	st := openTestStore(t, db)
 	accounts, err := seedDemo(ctx, st)
 	if err != nil {
 		t.Fatal(err)
 	}
-	p, err := st.ProjectByName(ctx, demoProjectName)
-	if err != nil {
-		t.Fatal(err)
-	}
+	p := testProject(t, st, demoProjectName)
 	srv, err := web.New(ctx, st, web.Options{Logger: slog.New(slog.NewTextHandler(io.Discard, nil))})
 	if err != nil {
 		t.Fatal(err)

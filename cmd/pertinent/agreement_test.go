@@ -11,8 +11,6 @@ import (
 	"strings"
 	"testing"
 
-	"golang.org/x/crypto/bcrypt"
-
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -193,21 +191,17 @@ func TestAgreementFlags(t *testing.T) {
 
 // The database path and the CSV path must print the same report for the same judgments.
 func TestAgreementFromDatabaseMatchesCSV(t *testing.T) {
-	store.SetPasswordCost(bcrypt.MinCost)
 	ctx := context.Background()
 	db := filepath.Join(t.TempDir(), "demo.db")
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
+	st := openTestStore(t, db)
 	if _, err := seedDemo(ctx, st); err != nil {
 		t.Fatal(err)
 	}
-	p, _ := st.ProjectByName(ctx, demoProjectName)
+	p := testProject(t, st, demoProjectName)
 	names, _ := st.UserNames(ctx)
 	var csv strings.Builder
 	csv.WriteString("item,rater,grade\n")
-	err = st.Ratings(ctx, p.ID, func(r store.Rating) error {
+	err := st.Ratings(ctx, p.ID, func(r store.Rating) error {
 		fmt.Fprintf(&csv, "%d,%s,%d\n", r.PairID, names[r.UserID], r.Grade)
 		return nil
 	})

@@ -40,13 +40,8 @@ func TestDemoCollectionShape(t *testing.T) {
 }
 
 func TestSeedDemoLoadsOnceAndPrintsAccounts(t *testing.T) {
-	store.SetPasswordCost(bcrypt.MinCost)
 	ctx := context.Background()
-	st, err := store.Open(ctx, filepath.Join(t.TempDir(), "demo.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
+	st := openTestStore(t, filepath.Join(t.TempDir(), "demo.db"))
 	first, err := seedDemo(ctx, st)
 	if err != nil {
 		t.Fatal(err)
@@ -63,10 +58,7 @@ func TestSeedDemoLoadsOnceAndPrintsAccounts(t *testing.T) {
 			t.Errorf("printed password of %s does not sign in: %v", a.username, err)
 		}
 	}
-	p, err := st.ProjectByName(ctx, demoProjectName)
-	if err != nil {
-		t.Fatal(err)
-	}
+	p := testProject(t, st, demoProjectName)
 	prog, err := st.ProjectProgress(ctx, p.ID)
 	if err != nil {
 		t.Fatal(err)
@@ -134,11 +126,7 @@ func TestProjectCommand(t *testing.T) {
 	if !strings.Contains(out.String(), "Lamp search") || !strings.Contains(out.String(), "oona is now assessor") {
 		t.Errorf("output: %s", out.String())
 	}
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
+	st := openTestStore(t, db)
 	p, err := st.ProjectByName(ctx, "Lamp search")
 	if err != nil || p.JudgmentsPerPair != 2 {
 		t.Fatalf("project %+v, %v", p, err)

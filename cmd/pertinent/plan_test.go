@@ -73,15 +73,8 @@ func planDB(t *testing.T) (db string, runs []string) {
 func gradePlanPairs(t *testing.T, db string) {
 	t.Helper()
 	ctx := context.Background()
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
-	p, err := st.ProjectByName(ctx, "Floats")
-	if err != nil {
-		t.Fatal(err)
-	}
+	st := openTestStore(t, db)
+	p := testProject(t, st, "Floats")
 	u, err := st.CreateUser(ctx, "gus", "", store.RoleAssessor, "a long enough password")
 	if err != nil {
 		t.Fatal(err)

@@ -7,8 +7,6 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
-
-	"github.com/pertinent/pertinent/store"
 )
 
 // A password handed over in a file is used but never echoed: not by `user add`, not by
@@ -42,11 +40,7 @@ func TestUserPasswordFileIsNeverPrinted(t *testing.T) {
 		t.Errorf("output does not confirm the two changes:\n%s", out.String())
 	}
 	// The file's password (without its line end) is the one that now signs in.
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
+	st := openTestStore(t, db)
 	if _, err := st.Authenticate(ctx, "ida", second); err != nil {
 		t.Errorf("the password from the file does not sign in: %v", err)
 	}
