@@ -59,7 +59,7 @@ func (s *Store) ExpireLeases(ctx context.Context, userID int64) (int64, error) {
 	var n int64
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		res, err := tx.ExecContext(ctx, `UPDATE leases SET expires_at = ? WHERE user_id = ? AND expires_at > ?`,
-			timeText(time.Now().Add(-time.Second)), userID, now())
+			timeText(s.clock().Add(-time.Second)), userID, s.now())
 		if err != nil {
 			return err
 		}
