@@ -3,7 +3,6 @@ package store
 import (
 	"context"
 	"database/sql"
-	"errors"
 	"strconv"
 	"strings"
 
@@ -23,49 +22,21 @@ func (s *Store) AddPooledPairs(ctx context.Context, projectID int64, pool []inge
 		if err != nil {
 			return err
 		}
-		qStmt, err := tx.PrepareContext(ctx, `SELECT id FROM queries WHERE project_id = ? AND external_id = ?`)
+		adder, err := newPairAdder(ctx, tx, projectID, s.now())
 		if err != nil {
 			return err
 		}
-		defer qStmt.Close()
-		dStmt, err := tx.PrepareContext(ctx, `SELECT id FROM documents WHERE project_id = ? AND external_id = ?`)
-		if err != nil {
-			return err
-		}
-		defer dStmt.Close()
-		insPair, err := tx.PrepareContext(ctx, `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, created_at)
-			VALUES (?, ?, ?, ?, ?, ?) ON CONFLICT (project_id, query_id, document_id) DO NOTHING RETURNING id`)
-		if err != nil {
-			return err
-		}
-		defer insPair.Close()
-		oldPair, err := tx.PrepareContext(ctx, `UPDATE pairs SET priority = MAX(priority, ?)
-			WHERE project_id = ? AND query_id = ? AND document_id = ? RETURNING id`)
-		if err != nil {
-			return err
-		}
-		defer oldPair.Close()
+		defer adder.close()
 		source, err := tx.PrepareContext(ctx, `INSERT INTO pair_sources(pair_id, run, rank) VALUES (?, ?, ?)
 			ON CONFLICT (pair_id, run) DO UPDATE SET rank = MIN(rank, excluded.rank)`)
 		if err != nil {
 			return err
 		}
 		defer source.Close()
-		at := s.now()
-		qids := map[string]int64{}
 		for _, pp := range pool {
-			qid, ok := qids[pp.QueryID]
-			if !ok {
-				if err := qStmt.QueryRowContext(ctx, projectID, pp.QueryID).Scan(&qid); err != nil && !errors.Is(err, sql.ErrNoRows) {
-					return err
-				}
-				qids[pp.QueryID] = qid
-			}
-			var did int64
-			if qid != 0 {
-				if err := dStmt.QueryRowContext(ctx, projectID, pp.DocID).Scan(&did); err != nil && !errors.Is(err, sql.ErrNoRows) {
-					return err
-				}
+			qid, did, err := adder.ids(pp.QueryID, pp.DocID)
+			if err != nil {
+				return err
 			}
 			if qid == 0 || did == 0 {
 				missing = append(missing, pp.QueryID+" "+pp.DocID)
@@ -75,17 +46,12 @@ func (s *Store) AddPooledPairs(ctx context.Context, projectID int64, pool []inge
 			for i, r := range pp.Runs {
 				runs[i] = r.Run
 			}
-			var pairID int64
-			err := insPair.QueryRowContext(ctx, projectID, qid, did, "pool:"+strings.Join(runs, ","), pp.Priority, at).Scan(&pairID)
-			switch {
-			case err == nil:
-				added++
-			case errors.Is(err, sql.ErrNoRows):
-				if err := oldPair.QueryRowContext(ctx, pp.Priority, projectID, qid, did).Scan(&pairID); err != nil {
-					return err
-				}
-			default:
+			pairID, isNew, err := adder.add(qid, did, "pool:"+strings.Join(runs, ","), pp.Priority)
+			if err != nil {
 				return err
+			}
+			if isNew {
+				added++
 			}
 			for _, r := range pp.Runs {
 				if _, err := source.ExecContext(ctx, pairID, r.Run, r.Rank); err != nil {

@@ -214,54 +214,20 @@ func (s *Store) topGrade(ctx context.Context, projectID int64) (int, error) {
 // keeps its judgments and takes the higher priority) and records how this design chose each.
 // A document or query the project lacks is a problem, and nothing is stored.
 func (s *Store) insertChoices(ctx context.Context, tx *sql.Tx, projectID, designID int64, choices []estimate.Choice) error {
-	qStmt, err := tx.PrepareContext(ctx, `SELECT id FROM queries WHERE project_id = ? AND external_id = ?`)
+	adder, err := newPairAdder(ctx, tx, projectID, s.now())
 	if err != nil {
 		return err
 	}
-	defer qStmt.Close()
-	dStmt, err := tx.PrepareContext(ctx, `SELECT id FROM documents WHERE project_id = ? AND external_id = ?`)
-	if err != nil {
-		return err
-	}
-	defer dStmt.Close()
-	insPair, err := tx.PrepareContext(ctx, `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, created_at)
-		VALUES (?, ?, ?, ?, ?, ?) ON CONFLICT (project_id, query_id, document_id) DO NOTHING RETURNING id`)
-	if err != nil {
-		return err
-	}
-	defer insPair.Close()
-	oldPair, err := tx.PrepareContext(ctx, `UPDATE pairs SET priority = MAX(priority, ?)
-		WHERE project_id = ? AND query_id = ? AND document_id = ? RETURNING id`)
-	if err != nil {
-		return err
-	}
-	defer oldPair.Close()
+	defer adder.close()
 	choice, err := tx.PrepareContext(ctx, `INSERT INTO pair_choices(pair_id, design_id, stratum, rate, reason) VALUES (?, ?, ?, ?, ?)`)
 	if err != nil {
 		return err
 	}
 	defer choice.Close()
-	at := s.now()
 	origin := "design:" + strconv.FormatInt(designID, 10)
-	qids, dids := map[string]int64{}, map[string]int64{}
-	lookup := func(stmt *sql.Stmt, cache map[string]int64, ext string) (int64, error) {
-		if id, ok := cache[ext]; ok {
-			return id, nil
-		}
-		var id int64
-		if err := stmt.QueryRowContext(ctx, projectID, ext).Scan(&id); err != nil && !errors.Is(err, sql.ErrNoRows) {
-			return 0, err
-		}
-		cache[ext] = id
-		return id, nil
-	}
 	var missing []string
 	for _, c := range choices {
-		qid, err := lookup(qStmt, qids, c.Query)
-		if err != nil {
-			return err
-		}
-		did, err := lookup(dStmt, dids, c.Doc)
+		qid, did, err := adder.ids(c.Query, c.Doc)
 		if err != nil {
 			return err
 		}
@@ -280,11 +246,7 @@ func (s *Store) insertChoices(ctx context.Context, tx *sql.Tx, projectID, design
 		if len(missing) > 0 {
 			continue
 		}
-		var pairID int64
-		err = insPair.QueryRowContext(ctx, projectID, qid, did, origin, c.Priority, at).Scan(&pairID)
-		if errors.Is(err, sql.ErrNoRows) {
-			err = oldPair.QueryRowContext(ctx, c.Priority, projectID, qid, did).Scan(&pairID)
-		}
+		pairID, _, err := adder.add(qid, did, origin, c.Priority)
 		if err != nil {
 			return err
 		}
