@@ -86,7 +86,8 @@ func (s *Store) RevokeAPIToken(ctx context.Context, userID, tokenID int64) error
 }
 
 // UserByAPIToken returns the account of a live API token (not revoked, account enabled) and
-// notes when the token was used. Any failure is ErrNotFound, whatever the cause.
+// notes when the token was used. An unknown, revoked or malformed token, or a disabled account,
+// is ErrNotFound; a database failure is returned as it is.
 func (s *Store) UserByAPIToken(ctx context.Context, token string) (User, error) {
 	if !strings.HasPrefix(token, APITokenPrefix) {
 		return User{}, ErrNotFound
