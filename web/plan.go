@@ -78,24 +78,23 @@ func (f planForm) request(kept []store.KeptRun) (store.PlanRequest, error) {
 		return n, nil
 	}
 	d := estimate.Design{Kind: estimate.Kind(f.Kind), Method: f.Method}
-	var err error
-	if d.Depth, err = num("Depth", f.Depth, 10); err != nil {
-		return req, err
-	}
-	if d.MaxDepth, err = num("Deepest rank", f.MaxDepth, 100); err != nil {
-		return req, err
-	}
-	if d.Budget, err = num("Budget", f.Budget, 0); err != nil {
-		return req, err
-	}
-	if d.PerQuery, err = num("Budget per query", f.PerQuery, 0); err != nil {
-		return req, err
-	}
-	if d.K, err = num("Cut-off k", f.K, 10); err != nil {
-		return req, err
-	}
-	if d.Wave, err = num("Wave", f.Wave, 20); err != nil {
-		return req, err
+	for _, field := range []struct {
+		dst        *int
+		name, text string
+		def        int
+	}{
+		{&d.Depth, "Depth", f.Depth, 10},
+		{&d.MaxDepth, "Deepest rank", f.MaxDepth, 100},
+		{&d.Budget, "Budget", f.Budget, 0},
+		{&d.PerQuery, "Budget per query", f.PerQuery, 0},
+		{&d.K, "Cut-off k", f.K, 10},
+		{&d.Wave, "Wave", f.Wave, 20},
+	} {
+		n, err := num(field.name, field.text, field.def)
+		if err != nil {
+			return req, err
+		}
+		*field.dst = n
 	}
 	if f.Confidence != "" {
 		c, err := strconv.ParseFloat(f.Confidence, 64)
@@ -113,6 +112,7 @@ func (f planForm) request(kept []store.KeptRun) (store.PlanRequest, error) {
 	default:
 		return req, storeInvalid(fmt.Sprintf("NDCG gain %q: choose exponential or linear", f.Gain))
 	}
+	var err error
 	if req.Settings.Threshold, err = num("Relevant from grade", f.Threshold, 2); err != nil {
 		return req, err
 	}
