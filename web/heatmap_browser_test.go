@@ -100,24 +100,7 @@ func TestBrowserHeatMapShowsKappaInEveryCell(t *testing.T) {
 	seedLead(t, a)
 	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	dir := screenshotDir(t)
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
-	must(chromedp.Do(ctx, chromedp.EmulateViewport(1280, 900),
-		chromedp.Navigate(a.server.URL+"/signin"),
-		chromedp.SendKeys("#username", "lena"),
-		chromedp.SendKeys("#password", testPassword),
-		chromedp.Submit("#password"),
-		chromedp.WaitVisible(".projects"),
-		chromedp.Navigate(a.server.URL+"/projects/"+strconv.FormatInt(a.project.ID, 10)+"/agreement"),
-		chromedp.WaitVisible("svg.heatmap"),
-		shot(dir, "agreement-3-assessors.png"),
-	))
-	f, err := chromedp.Run(ctx, chromedp.Evaluate[heatFacts](heatFactsJS))
-	must(err)
+	f := openHeatMap(t, ctx, a, "lena", dir, "agreement-3-assessors.png")
 	t.Logf("3 assessors: %+v", f)
 	checkHeat(t, f, 3)
 	if f.MinCellPx < heatMaxCell-1 {
@@ -152,18 +135,7 @@ func TestBrowserHeatMapScrollsWhenWide(t *testing.T) {
 			t.Fatal(err)
 		}
 	}
-	must(chromedp.Do(ctx, chromedp.EmulateViewport(1280, 900),
-		chromedp.Navigate(a.server.URL+"/signin"),
-		chromedp.SendKeys("#username", "leader"),
-		chromedp.SendKeys("#password", testPassword),
-		chromedp.Submit("#password"),
-		chromedp.WaitVisible(".projects"),
-		chromedp.Navigate(a.server.URL+"/projects/"+strconv.FormatInt(a.project.ID, 10)+"/agreement"),
-		chromedp.WaitVisible("svg.heatmap"),
-		shot(dir, "agreement-12-assessors.png"),
-	))
-	f, err := chromedp.Run(ctx, chromedp.Evaluate[heatFacts](heatFactsJS))
-	must(err)
+	f := openHeatMap(t, ctx, a, "leader", dir, "agreement-12-assessors.png")
 	t.Logf("12 assessors at 1280: %+v", f)
 	checkHeat(t, f, assessors)
 	must(elementShot(ctx, dir, "agreement-heat-12.png", ".chart-with-table"))
@@ -182,4 +154,28 @@ func TestBrowserHeatMapScrollsWhenWide(t *testing.T) {
 	if !f.Scrolls {
 		t.Errorf("at 375 px the heat map of %d assessors does not scroll sideways", assessors)
 	}
+}
+
+// openHeatMap signs the lead in at 1280×900, opens the agreement page, keeps a screenshot and
+// reads the heat map's facts.
+func openHeatMap(t *testing.T, ctx context.Context, a *testApp, lead, dir, png string) heatFacts {
+	t.Helper()
+	err := chromedp.Do(ctx, chromedp.EmulateViewport(1280, 900),
+		chromedp.Navigate(a.server.URL+"/signin"),
+		chromedp.SendKeys("#username", lead),
+		chromedp.SendKeys("#password", testPassword),
+		chromedp.Submit("#password"),
+		chromedp.WaitVisible(".projects"),
+		chromedp.Navigate(a.server.URL+"/projects/"+strconv.FormatInt(a.project.ID, 10)+"/agreement"),
+		chromedp.WaitVisible("svg.heatmap"),
+		shot(dir, png),
+	)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f, err := chromedp.Run(ctx, chromedp.Evaluate[heatFacts](heatFactsJS))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return f
 }
