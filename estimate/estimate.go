@@ -30,12 +30,17 @@ type Options struct {
 }
 
 // Interval is a bias-corrected estimate with its bootstrap standard error
-// and the interval Est ± z·SE at Options.Level (see Estimate).
+// and the interval Est ± t·SE at Options.Level, t Student's quantile at DF
+// degrees of freedom (see Estimate).
 type Interval struct {
 	Est  float64 `json:"est"`
 	SE   float64 `json:"se"`
 	Low  float64 `json:"low"`
 	High float64 `json:"high"`
+	// DF is Satterthwaite's degrees of freedom of the variance behind SE;
+	// 0 when they are beyond counting (1e8 or more, or nothing varies) and
+	// the quantile is the normal one.
+	DF float64 `json:"df,omitempty"`
 }
 
 // QueryEstimate holds one run's estimates on one query.
@@ -167,12 +172,15 @@ type labelled struct {
 	// vary lists the graded labels with pi = 1/w < 1, whose weight moves
 	// over the replicates; scale holds sqrt(1 - pi) for each, and signs
 	// their Rademacher signs, words per label (see multipliers).
-	vary        []int
-	scale       []float64
-	signs       []uint64
-	words       int
-	ndcgDefined bool
-	apDefined   bool
+	vary []int
+	// varyGain and varyRel are the varying labels graded above 0 and at
+	// or above the relevance threshold: those the ideal DCG and R read.
+	varyGain, varyRel []int
+	scale             []float64
+	signs             []uint64
+	words             int
+	ndcgDefined       bool
+	apDefined         bool
 }
 
 // label weighs one query's labels. A pair's weight is 1/Prob (Horvitz &
@@ -198,6 +206,12 @@ func label(q string, docs map[string]Label, o Options) *labelled {
 			if w > 1 {
 				at := len(ql.grade)
 				ql.vary = append(ql.vary, at)
+				if l.Grade > 0 {
+					ql.varyGain = append(ql.varyGain, at)
+				}
+				if l.Grade >= o.Threshold {
+					ql.varyRel = append(ql.varyRel, at)
+				}
 				ql.scale = append(ql.scale, math.Sqrt(1-1/w))
 				h := pairHash(o.Seed, q, doc)
 				for k := range ql.words {
@@ -286,6 +300,32 @@ func (ql *labelled) ideal(wb, counts []float64, o Options, cum *cumTable) float6
 	return ideal
 }
 
+// idealRates writes into s, for each grade g, the rate at which the ideal
+// DCG moves with the weight of a label graded g: the sum over g' = 1..g of
+// (gain(g') - gain(g'-1))·D'(b_g'), D' the slope of D capped at K (the next
+// rank's discount below K, 0 from K on).
+func (ql *labelled) idealRates(w, counts, s []float64, o Options) {
+	clear(counts)
+	for i, g := range ql.grade {
+		if g > 0 {
+			counts[g] += w[i]
+		}
+	}
+	b := 0.0
+	for g := len(counts) - 1; g >= 1; g-- {
+		b += counts[g]
+		d := 0.0
+		if o.K == 0 || b < float64(o.K) {
+			d = discount(int(math.Floor(b)) + 1)
+		}
+		s[g] = (gainOf(o.Gain, g) - gainOf(o.Gain, g-1)) * d
+	}
+	s[0] = 0
+	for g := 1; g < len(s); g++ {
+		s[g] += s[g-1]
+	}
+}
+
 // relevant is the weighted number of relevant labels, R.
 func (ql *labelled) relevant(wb []float64, threshold int) float64 {
 	r := 0.0
@@ -308,7 +348,7 @@ type term struct {
 // figures that need no weights.
 type runTerms struct {
 	gain      []term // c: gain(grade) / log2(rank + 1)
-	rel       []term // c: rank, in rank order
+	rel       []term // c: 1/rank, in rank order
 	judgedAtK float64
 	rbp       float64
 	resid     float64
@@ -328,7 +368,7 @@ func (t *runTerms) apNum(wb []float64) float64 {
 	num, above := 0.0, 0.0
 	for _, x := range t.rel {
 		w := wb[x.at]
-		num += w * (1 + above) / x.c
+		num += w * (1 + above) * x.c
 		above += w
 	}
 	return num
@@ -360,7 +400,7 @@ func (ql *labelled) terms(docs []rankeval.ScoredDoc, o Options, t *runTerms) {
 			judged++
 			t.gain = append(t.gain, term{l, gainOf(o.Gain, g) * discount(i+1)})
 			if g >= o.Threshold {
-				t.rel = append(t.rel, term{l, float64(i + 1)})
+				t.rel = append(t.rel, term{l, 1 / float64(i+1)})
 			}
 		}
 		if i < n {
@@ -386,15 +426,32 @@ type moments struct{ sum, sq float64 }
 func (m *moments) add(d float64) { m.sum += d; m.sq += d * d }
 
 // interval turns a point estimate and its replicates' deviations into the
-// bias-corrected estimate point - mean deviation and the SE sqrt(mean of
-// squared deviations from their mean), over n replicates. The divisor is n,
-// not n - 1: with mirrored replicates the linear part of the deviations
-// has mean 0 by construction, so no degree of freedom is spent on it.
-func interval(point float64, m moments, n int, z float64) Interval {
+// bias-corrected estimate point - mean deviation and its SE, over n
+// replicates, and the interval at level with Student's t at the corrected
+// figure's degrees of freedom (see lin).
+//
+// The replicates' spread, sqrt(mean of squared deviations from their
+// mean), is the SE of the point estimate. The divisor is n, not n - 1:
+// with mirrored replicates the linear part of the deviations has mean 0 by
+// construction, so no degree of freedom is spent on it. The correction
+// moves with the sample too, and at this collection's settings made the
+// corrected estimate 3-5% more variable than the point one; the SE is
+// therefore scaled by the ratio of the linearised SEs of the corrected and
+// the plain estimate, sqrt(V(g - h) / V(g)).
+func interval(point float64, m moments, n int, level float64, l lin) Interval {
 	bias := m.sum / float64(n)
 	se := math.Sqrt(max(0, m.sq/float64(n)-bias*bias))
+	if l.plain.v > 0 {
+		se *= math.Sqrt(l.corrected.v / l.plain.v)
+	}
 	est := point - bias
-	return Interval{Est: est, SE: se, Low: est - z*se, High: est + z*se}
+	df := l.corrected.df()
+	q := tQuantile(level, df)
+	iv := Interval{Est: est, SE: se, Low: est - q*se, High: est + q*se}
+	if df < largeDF {
+		iv.DF = df
+	}
+	return iv
 }
 
 // Estimate reads estimated scores with intervals from the labels.
@@ -420,8 +477,13 @@ func interval(point float64, m moments, n int, z float64) Interval {
 // independently, and so are their multipliers. For each figure theta with
 // point estimate theta_hat and replicates theta*_b: Est = 2·theta_hat -
 // mean(theta*), which removes the first-order bias of the ratios and of
-// the ideal DCG; SE = the spread of theta*_b about their mean; the interval
-// is Est ± z·SE; ProbBBeatsA = Phi(Diff.Est / Diff.SE). The multipliers come
+// the ideal DCG; SE = the spread of theta*_b about their mean, scaled by
+// how much the correction adds to it (see interval); the interval is Est ±
+// t·SE, t Student's quantile at the Satterthwaite degrees of freedom of
+// the linearised variance (see spread), the normal one when many pairs
+// share it; ProbBBeatsA = the t distribution function at Diff.Est /
+// Diff.SE. The rates behind those linearised variances are exact
+// derivatives of each figure in each weight. The multipliers come
 // from Options.Seed (a fixed constant by default), so the same labels
 // always give the same figures. With every Prob 1 no pair is sampled, every
 // replicate is the point estimate, Est equals rankeval.Evaluate exactly and
@@ -464,7 +526,6 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 		return Report{}, err
 	}
 
-	z := zFor(o.Level)
 	nr, nb := len(runs), o.Replicates
 	rep.Runs = make([]RunEstimate, nr)
 	for i, r := range runs {
@@ -488,6 +549,20 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 		mN     = make([]moments, nr)
 		mA     = make([]moments, nr)
 		wb     []float64
+		// Each figure's rate in every label's weight (run i's at
+		// [i*len(labels of the query):]) at the sample's weights (g) and
+		// the bias correction's (h); the ideal
+		// DCG's per grade; the replicate's figures; and the linearised
+		// variances: per query and run, summed over queries per run, and
+		// per pair of runs.
+		gN, gA, hN, hA []float64
+		mb             []float64 // a replicate's multipliers, 1 for the certain labels
+		ideal          = make([]float64, o.MaxGrade+1)
+		pbN, pbA       = make([]float64, nr), make([]float64, nr)
+		lN, lA         = make([]lin, nr), make([]lin, nr)
+		totN, totA     = make([]lin, nr), make([]lin, nr)
+		pairN          = make([]lin, nr*(nr-1)/2)
+		pairA          = make([]lin, nr*(nr-1)/2)
 	)
 	queries := sortedKeys(labels)
 	nNDCG, nAP := 0, 0
@@ -506,8 +581,13 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 				pA[i] = num0[i] / rel
 			}
 			mN[i], mA[i] = moments{}, moments{}
+			lN[i], lA[i] = lin{}, lin{}
 		}
 		if len(ql.vary) > 0 && (ql.ndcgDefined || ql.apDefined) {
+			n := len(terms) * len(ql.grade)
+			gN, gA, hN, hA = zeroed(gN, n), zeroed(gA, n), zeroed(hN, n), zeroed(hA, n)
+			mb = ones(mb, len(ql.grade))
+			ql.addRates(ql.w, mb, terms, pN, pA, idcg, rel, ideal, counts, gN, gA, o)
 			wb = append(wb[:0], ql.w...)
 			for b := range nb {
 				ql.multipliers(b, wb)
@@ -516,28 +596,36 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 				for i := range terms {
 					t := &terms[i]
 					if ql.ndcgDefined {
-						d := t.dcg(wb)/idcgB - pN[i]
+						pbN[i] = t.dcg(wb) / idcgB
+						d := pbN[i] - pN[i]
 						mN[i].add(d)
 						devN[i*nb+b] += d
 					}
 					if ql.apDefined {
-						d := t.apNum(wb)/relB - pA[i]
+						pbA[i] = t.apNum(wb) / relB
+						d := pbA[i] - pA[i]
 						mA[i].add(d)
 						devA[i*nb+b] += d
 					}
 				}
+				for _, at := range ql.vary {
+					mb[at] = wb[at] / ql.w[at]
+				}
+				ql.addRates(wb, mb, terms, pbN, pbA, idcgB, relB, ideal, counts, hN, hA, o)
 			}
+			ql.lins(gN, hN, nb, lN, totN, pairN)
+			ql.lins(gA, hA, nb, lA, totA, pairA)
 		}
 		for i := range runs {
 			t := &terms[i]
 			qe := QueryEstimate{Query: q, NDCGDefined: ql.ndcgDefined, APDefined: ql.apDefined,
 				JudgedAtK: t.judgedAtK, RBP: t.rbp, RBPResidual: t.resid}
 			if ql.ndcgDefined {
-				qe.NDCG = interval(pN[i], mN[i], nb, z)
+				qe.NDCG = interval(pN[i], mN[i], nb, o.Level, lN[i])
 				acc[i].ndcg += pN[i]
 			}
 			if ql.apDefined {
-				qe.AP = interval(pA[i], mA[i], nb, z)
+				qe.AP = interval(pA[i], mA[i], nb, o.Level, lA[i])
 				acc[i].ap += pA[i]
 			}
 			acc[i].judged += t.judgedAtK
@@ -553,21 +641,21 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 		}
 	}
 	// mean is a run's mean over n queries with its replicate moments.
-	mean := func(sum float64, dev []float64, n int) Interval {
+	mean := func(sum float64, dev []float64, n int, l lin) Interval {
 		var m moments
 		for _, d := range dev {
 			m.add(d / float64(n))
 		}
-		return interval(sum/float64(n), m, nb, z)
+		return interval(sum/float64(n), m, nb, o.Level, l)
 	}
 	for i := range rep.Runs {
 		re := &rep.Runs[i]
 		re.NDCGQueries, re.APQueries = nNDCG, nAP
 		if nNDCG > 0 {
-			re.NDCG = mean(acc[i].ndcg, devN[i*nb:(i+1)*nb], nNDCG)
+			re.NDCG = mean(acc[i].ndcg, devN[i*nb:(i+1)*nb], nNDCG, totN[i])
 		}
 		if nAP > 0 {
-			re.AP = mean(acc[i].ap, devA[i*nb:(i+1)*nb], nAP)
+			re.AP = mean(acc[i].ap, devA[i*nb:(i+1)*nb], nAP, totA[i])
 		}
 		if n := float64(len(queries)); n > 0 {
 			re.JudgedAtK = acc[i].judged / n
@@ -575,7 +663,7 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 			re.RBPResidual = acc[i].resid / n
 		}
 	}
-	diff := func(a, b int, metric string, sumA, sumB float64, dev []float64, n int) Difference {
+	diff := func(a, b int, metric string, sumA, sumB float64, dev []float64, n int, l lin) Difference {
 		d := Difference{A: runs[a].Name, B: runs[b].Name, Metric: metric, Queries: n}
 		if n == 0 {
 			d.ProbBBeatsA = 0.5
@@ -586,11 +674,11 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 		for r := range nb {
 			m.add((db[r] - da[r]) / float64(n))
 		}
-		d.Diff = interval((sumB-sumA)/float64(n), m, nb, z)
+		d.Diff = interval((sumB-sumA)/float64(n), m, nb, o.Level, l)
 
 		switch {
 		case d.Diff.SE > 0:
-			d.ProbBBeatsA = phi(d.Diff.Est / d.Diff.SE)
+			d.ProbBBeatsA = tCDF(d.Diff.Est/d.Diff.SE, l.corrected.df())
 		case d.Diff.Est > 0:
 			d.ProbBBeatsA = 1
 		case d.Diff.Est < 0:
@@ -600,12 +688,124 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 		}
 		return d
 	}
+	pair := 0
 	for a := range nr {
 		for b := a + 1; b < nr; b++ {
 			rep.Differences = append(rep.Differences,
-				diff(a, b, "ndcg", acc[a].ndcg, acc[b].ndcg, devN, nNDCG),
-				diff(a, b, "ap", acc[a].ap, acc[b].ap, devA, nAP))
+				diff(a, b, "ndcg", acc[a].ndcg, acc[b].ndcg, devN, nNDCG, pairN[pair]),
+				diff(a, b, "ap", acc[a].ap, acc[b].ap, devA, nAP, pairA[pair]))
+			pair++
 		}
 	}
 	return rep, nil
+}
+
+// addRates adds to gN and gA (run i's at [i*L:(i+1)*L] for the query's
+// L labels), for every run, m_l times NDCG's and AP's rate in each label's
+// weight at weights w, where the runs' figures are pN and pA, the ideal DCG
+// idcg and the relevant count rel. With m all 1 and gN, gA zeroed this
+// writes the rates at w. With a replicate's weights and multipliers it adds
+// that replicate's share of the rates of the replicates' mean: f(w·m)
+// moves with w_l at m_l times its rate there. Undefined figures get no
+// rates. Of the ideal DCG's and R's parts only the varying labels' are
+// written: the others' entries are never read.
+func (ql *labelled) addRates(w, m []float64, terms []runTerms, pN, pA []float64, idcg, rel float64, ideal, counts, gN, gA []float64, o Options) {
+	L := len(ql.grade)
+	if ql.ndcgDefined {
+		ql.idealRates(w, counts, ideal, o)
+	}
+	for i := range terms {
+		t := &terms[i]
+		if ql.ndcgDefined {
+			g, inv := gN[i*L:(i+1)*L], 1/idcg
+			for _, x := range t.gain {
+				g[x.at] += m[x.at] * x.c * inv
+			}
+			c := pN[i] * inv
+			for _, at := range ql.varyGain {
+				g[at] -= m[at] * c * ideal[ql.grade[at]]
+			}
+		}
+		if ql.apDefined {
+			// d(AP numerator)/dw_l = (1 + the weights of the relevant
+			// above l)/rank_l + the sum of w_j/rank_j over the relevant
+			// below it.
+			g, inv := gA[i*L:(i+1)*L], 1/rel
+			tail := 0.0
+			for _, x := range t.rel {
+				tail += w[x.at] * x.c
+			}
+			above := 0.0
+			for _, x := range t.rel {
+				wx := w[x.at]
+				tail -= wx * x.c
+				g[x.at] += m[x.at] * ((1+above)*x.c + tail) * inv
+				above += wx
+			}
+			c := pA[i] * inv
+			for _, at := range ql.varyRel {
+				g[at] -= m[at] * c
+			}
+		}
+	}
+}
+
+// ones is buf resized to n and filled with 1.
+func ones(buf []float64, n int) []float64 {
+	buf = zeroed(buf, n)
+	for i := range buf {
+		buf[i] = 1
+	}
+	return buf
+}
+
+// zeroed is buf resized to n and cleared.
+func zeroed(buf []float64, n int) []float64 {
+	if cap(buf) < n {
+		return make([]float64, n)
+	}
+	buf = buf[:n]
+	clear(buf)
+	return buf
+}
+
+// lin holds one figure's linearised variances, of the point estimate (at
+// rates g) and of the bias-corrected one: Est = 2·f(w) - mean_b f(w·m_b)
+// moves with w_l at g_l - h_l, h_l = mean_b m_l·g_l(w·m_b) - g_l(w) the rate
+// of the bias estimate.
+type lin struct{ plain, corrected spread }
+
+func (l *lin) addAll(o lin) { l.plain.addAll(o.plain); l.corrected.addAll(o.corrected) }
+
+// lins turns rates g and the replicates' sums h (as biasRates leaves them,
+// over n replicates) into each run's lin on this query, added to per and
+// to tot, and each pair of runs' (B - A, pairs in the order of
+// Report.Differences), added to pairs. Only the varying labels count: the
+// others' weights are certain.
+func (ql *labelled) lins(g, h []float64, n int, per, tot, pairs []lin) {
+	L := len(ql.grade)
+	for k := range h {
+		h[k] = h[k]/float64(n) - g[k]
+	}
+	nr := len(per)
+	for i := range nr {
+		for _, at := range ql.vary {
+			x, y := g[i*L+at], h[i*L+at]
+			per[i].plain.add(ql.w[at], x)
+			per[i].corrected.add(ql.w[at], x-y)
+		}
+		tot[i].addAll(per[i])
+	}
+	k := 0
+	for a := range nr {
+		for b := a + 1; b < nr; b++ {
+			for _, at := range ql.vary {
+				x := g[b*L+at] - g[a*L+at]
+				y := h[b*L+at] - h[a*L+at]
+				pairs[k].plain.add(ql.w[at], x)
+				pairs[k].corrected.add(ql.w[at], x-y)
+			}
+			k++
+		}
+	}
 }

@@ -277,13 +277,14 @@ func TestStratifiedSimulation(t *testing.T) {
 	st.spent.checkUnbiased(t) // the expected sample size is the budget
 	st.checkTotals(t)
 	// Measured at this setting (seeds 1..1000, 200 replicates): every mean
-	// error within 2.4 SE; the differences cover 94.6% (NDCG@10) and 93.6%
-	// (MAP). The runs' means cover 92.3-93.7% (NDCG@10) and 91.9-95.3%
-	// (MAP): a little short, from samples that miss a rare top-grade
-	// document outside every run's top 5 (no sample-based variance sees
-	// what the sample lacks). Shifted percentile intervals covered less
-	// (NDCG@10 91.5-93.1%, MAP 91.5-95.2%, differences 93.9% and 92.7%).
-	st.checkEstimates(t, bounds{3, 0.915}, bounds{3, 0.91}, required, required)
+	// error within 2.4 SE; the runs' means cover 93.1-94.8% (NDCG@10) and
+	// 93.6-95.9% (MAP), the differences 95.3% and 94.8%. With the
+	// bootstrap SE of the point estimate and the normal quantile they
+	// covered 92.3-93.7% and 91.9-95.3%: the bias correction moves with the
+	// sample (3-5% on the SE here), which the SE now carries, and Student's
+	// t at Satterthwaite's degrees of freedom widens the intervals that
+	// rest on few pairs (see interval and spread).
+	st.checkEstimates(t, required, required, required, required)
 }
 
 // TestTwoDesignsCombine applies two stratified designs in sequence with
@@ -318,19 +319,19 @@ func TestTwoDesignsCombine(t *testing.T) {
 		st.add(t, c, labels, s+1)
 	}
 	st.checkTotals(t)
-	// Measured (seeds 1..1000, 200 replicates), short of the requirement:
-	// the second design judges ranks 1-10 in full, so DCG@10 is exact and
-	// all of NDCG@10's error is the ideal DCG's, which in this collection
-	// comes from a handful of queries (6 of 50) with a grade 3 or 4
-	// document outside every run's top 10, sampled at rates near 0.15-0.2.
-	// A sample that misses it has no variance for that query (the per-query
-	// bootstrap SE is exactly 0), one that holds it gives it a weight near
-	// 6: the error is a sum of few skewed terms. Means of NDCG@10 are off by
-	// +4.7 to +8.7 SE (+0.0002 to +0.0008) and cover 48-53%, their
-	// difference -2.9 SE, covering 40%; MAP within -3.2 SE, covering
-	// 90.7-92.2%, its difference 92.1%. Shifted percentile intervals did
-	// worse (NDCG@10 30-42%). Bounded here at the measured figures, not hidden.
-	st.checkEstimates(t, bounds{10, 0.45}, bounds{3.5, 0.9}, bounds{3.5, 0.37}, bounds{3, 0.91})
+	// Measured (seeds 1..1000, 200 replicates): MAP's means within -3.2
+	// SE, covering 93.9-95.1%, its difference 95.0%. NDCG@10 is short of
+	// the requirement: the second design judges ranks 1-10 in full, so
+	// DCG@10 is exact and all of NDCG@10's error is the ideal DCG's, which
+	// in this collection comes from a handful of queries (6 of 50) with a
+	// grade 3 or 4 document outside every run's top 10, sampled at rates
+	// near 0.15-0.2. A sample that misses it has no variance for that query
+	// (the per-query SE is exactly 0), one that holds it gives it a weight
+	// near 6: the error is a sum of few skewed terms. Means of NDCG@10 are
+	// off by +4.7 to +8.7 SE (+0.0002 to +0.0008) and cover 55-64%, their
+	// difference -2.9 SE, covering 54%. Bounded here at the measured
+	// figures, not hidden.
+	st.checkEstimates(t, bounds{10, 0.5}, bounds{3.5, 0.93}, bounds{3.5, 0.5}, required)
 }
 
 // rateOf is the rate a plan gave pairs of best rank r: 1 in its top
