@@ -4,26 +4,9 @@ import (
 	"net/http"
 	"strings"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 )
-
-// accountRoutes are a signed-in user's own pages.
-func (s *Server) accountRoutes(r chi.Router) {
-	r.Post("/signout", s.signout)
-	r.Get("/account", s.accountPage)
-	r.Post("/account/password", s.changePassword)
-}
-
-// passwordLinkRoutes serve the one-time set-password links; they need no session. The
-// token travels in the query string, which request logs never record.
-func (s *Server) passwordLinkRoutes(r chi.Router) {
-	r.Get("/set-password", s.setPasswordPage)
-	r.Post("/set-password", s.setPassword)
-	r.Get("/set-password/done", s.setPasswordDone)
-}
 
 type accountData struct {
 	Notices []string

@@ -3,17 +3,8 @@ package web
 import (
 	"net/http"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent/store"
 )
-
-// tokenRoutes are the signed-in user's API tokens, under the account page.
-func (s *Server) tokenRoutes(r chi.Router) {
-	r.Get("/account/tokens", s.tokensPage)
-	r.Post("/account/tokens", s.createToken)
-	r.Post("/account/tokens/{token}/revoke", s.revokeToken)
-}
 
 type tokensData struct {
 	Tokens  []store.APIToken

@@ -5,24 +5,8 @@ import (
 	"strings"
 	"time"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent/store"
 )
-
-// adminRoutes are the installation-wide pages, behind requireAdmin: projects, people, and
-// the audit trail.
-func (s *Server) adminRoutes(r chi.Router) {
-	r.Get("/users", s.usersPage)
-	r.Get("/projects/new", s.newProjectPage)
-	r.Post("/projects", s.createProject)
-	r.Post("/users", s.createUser)
-	r.Post("/users/{user}/disable", s.disableUser)
-	r.Post("/users/{user}/enable", s.enableUser)
-	r.Post("/users/{user}/password-link", s.issuePasswordLink)
-	r.Get("/audit", s.auditPage)
-	r.Get("/audit.csv", s.auditCSV)
-}
 
 // issuedLink is a set-password link shown once to the admin who issued it.
 type issuedLink struct {

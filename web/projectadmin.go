@@ -7,26 +7,8 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent/store"
 )
-
-// projectAdminRoutes are the pages where a project's leads (and admins) set it up and run
-// it: settings and scale, guidelines, team.
-func (s *Server) projectAdminRoutes(r chi.Router) {
-	r.Get("/settings", s.settingsPage)
-	r.Post("/settings", s.saveSettings)
-	r.Post("/scale", s.saveScale)
-	r.Post("/archive", s.archiveProject)
-	r.Post("/restore", s.restoreProject)
-	r.Get("/guidelines", s.guidelinesPage)
-	r.Post("/guidelines", s.reviseGuidelines)
-	r.Get("/guidelines/{revision}", s.revisionPage)
-	r.Get("/team", s.teamPage)
-	r.Post("/team", s.addMember)
-	r.Post("/team/{user}/remove", s.removeMember)
-}
 
 // settingsForm is the settings as the form shows them: percentages and minutes.
 type settingsForm struct {
