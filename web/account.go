@@ -30,12 +30,7 @@ func (s *Server) changePassword(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	if err := s.store.ChangePassword(r.Context(), u.ID, r.PostFormValue("current"), next); err != nil {
-		status, msg, ok := userError(err)
-		if !ok {
-			s.storeError(w, r, err)
-			return
-		}
-		fail(status, msg)
+		s.formError(w, r, err, fail)
 		return
 	}
 	token, err := s.store.CreateSession(r.Context(), u.ID, s.opts.SessionTTL)

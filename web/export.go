@@ -45,11 +45,7 @@ func (s *Server) exportZip(w http.ResponseWriter, r *http.Request) {
 			return
 		}
 	}
-	if status, msg, ok := userError(err); ok {
-		s.renderExport(w, r, status, f, msg)
-		return
-	}
-	s.storeError(w, r, err)
+	s.formError(w, r, err, func(status int, msg string) { s.renderExport(w, r, status, f, msg) })
 }
 
 func (s *Server) streamExportZip(w http.ResponseWriter, r *http.Request, p store.Project, plan *store.ExportPlan) {

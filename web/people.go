@@ -38,10 +38,7 @@ func (s *Server) renderPeople(w http.ResponseWriter, r *http.Request, status int
 		s.storeError(w, r, err)
 		return
 	}
-	if edit != nil {
-		edit(&d)
-	}
-	s.render(w, r, status, "users", "", s.newView(r, "People", d))
+	renderEdited(s, w, r, status, "users", "People", d, edit)
 }
 
 func (s *Server) usersPage(w http.ResponseWriter, r *http.Request) {
@@ -63,14 +60,11 @@ func (s *Server) createUser(w http.ResponseWriter, r *http.Request) {
 	role := r.PostFormValue("role")
 	l, err := s.store.InviteUser(r.Context(), username, display, store.Role(role), u.ID)
 	if err != nil {
-		status, msg, ok := userError(err)
-		if !ok {
-			s.storeError(w, r, err)
-			return
-		}
-		s.renderPeople(w, r, status, func(d *peopleData) {
-			d.Error = msg
-			d.Form.Username, d.Form.DisplayName, d.Form.Role = username, display, role
+		s.formError(w, r, err, func(status int, msg string) {
+			s.renderPeople(w, r, status, func(d *peopleData) {
+				d.Error = msg
+				d.Form.Username, d.Form.DisplayName, d.Form.Role = username, display, role
+			})
 		})
 		return
 	}
@@ -81,9 +75,8 @@ func (s *Server) createUser(w http.ResponseWriter, r *http.Request) {
 
 func (s *Server) issuePasswordLink(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
-	id, ok := idParam(r, "user")
+	id, ok := s.routeID(w, r, "user", "There is no such account.")
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such account.")
 		return
 	}
 	l, err := s.store.IssuePasswordLink(r.Context(), id, u.ID)
@@ -100,9 +93,8 @@ func (s *Server) enableUser(w http.ResponseWriter, r *http.Request)  { s.setDisa
 
 func (s *Server) setDisabled(w http.ResponseWriter, r *http.Request, disabled bool) {
 	u, _ := currentUser(r)
-	id, ok := idParam(r, "user")
+	id, ok := s.routeID(w, r, "user", "There is no such account.")
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such account.")
 		return
 	}
 	target, err := s.store.User(r.Context(), id)
