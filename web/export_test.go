@@ -35,11 +35,7 @@ func addGradedQueries(t *testing.T, a *testApp) {
 				id     string
 				grades [2]int
 			}{{"a", [2]int{3, 3}}, {"b", [2]int{0, 1}}} {
-				did, err := l.Document(store.Document{ExternalID: fmt.Sprintf("t%d-%s", i, d.id)})
-				if err != nil {
-					return err
-				}
-				pid, err := l.Pair(store.PairSpec{QueryID: qid, DocumentID: did})
+				pid, err := addPair(l, store.PairSpec{QueryID: qid}, store.Document{ExternalID: fmt.Sprintf("t%d-%s", i, d.id)})
 				if err != nil {
 					return err
 				}
