@@ -131,7 +131,9 @@ func TestExportPageDownloadsAZip(t *testing.T) {
 
 const webRun = "t1 Q0 t1-b 1 3.0 sys\nt1 Q0 t1-a 2 2.0 sys\nt1 Q0 t1-c 3 1.0 sys\nt2 Q0 t2-a 1 1.0 sys\nt9 Q0 t9-x 1 1.0 sys\n"
 
-func multipartRuns(t *testing.T, fields map[string]string, runs ...string) (io.Reader, string) {
+// postRuns uploads run files (the first as run, the second as run2) with the form's fields
+// to the project's Evaluate page as c; the caller reads and closes the response.
+func (a *testApp) postRuns(t *testing.T, c *http.Client, fields map[string]string, runs ...string) *http.Response {
 	t.Helper()
 	var buf bytes.Buffer
 	mw := multipart.NewWriter(&buf)
@@ -147,21 +149,20 @@ func multipartRuns(t *testing.T, fields map[string]string, runs ...string) (io.R
 		w.Write([]byte(r))
 	}
 	mw.Close()
-	return &buf, mw.FormDataContentType()
+	req, _ := http.NewRequest(http.MethodPost, fmt.Sprintf("%s/projects/%d/evaluate", a.server.URL, a.project.ID), &buf)
+	req.Header.Set("Content-Type", mw.FormDataContentType())
+	res, err := c.Do(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return res
 }
 
 func TestEvaluatePageScoresSavesAndSends(t *testing.T) {
 	a := newTestApp(t)
 	addGradedQueries(t, a)
 	lead := a.signIn("lena")
-	base := fmt.Sprintf("/projects/%d", a.project.ID)
-	body, ctype := multipartRuns(t, map[string]string{"k": "3", "gain": "exponential", "threshold": "2", "min_judgments": "2"}, webRun)
-	req, _ := http.NewRequest(http.MethodPost, a.server.URL+base+"/evaluate", body)
-	req.Header.Set("Content-Type", ctype)
-	res, err := lead.Do(req)
-	if err != nil {
-		t.Fatal(err)
-	}
+	res := a.postRuns(t, lead, map[string]string{"k": "3", "gain": "exponential", "threshold": "2", "min_judgments": "2"}, webRun)
 	res.Body.Close()
 	if res.StatusCode != http.StatusSeeOther {
 		t.Fatalf("evaluate: %d, want 303", res.StatusCode)
@@ -194,13 +195,7 @@ func TestEvaluatePageScoresSavesAndSends(t *testing.T) {
 	wantAudit(t, a, "pairs.pool", "lena")
 
 	// A broken run file comes back on the form with its problem.
-	body, ctype = multipartRuns(t, nil, "t1 Q0 t1-a first 1.0 sys\n")
-	req, _ = http.NewRequest(http.MethodPost, a.server.URL+base+"/evaluate", body)
-	req.Header.Set("Content-Type", ctype)
-	res, err = lead.Do(req)
-	if err != nil {
-		t.Fatal(err)
-	}
+	res = a.postRuns(t, lead, nil, "t1 Q0 t1-a first 1.0 sys\n")
 	b, _ := io.ReadAll(res.Body)
 	res.Body.Close()
 	if res.StatusCode != http.StatusBadRequest || !strings.Contains(string(b), "rank") {
