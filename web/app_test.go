@@ -1,9 +1,11 @@
 package web
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"io"
+	"mime/multipart"
 	"net/http"
 	"net/http/cookiejar"
 	"net/http/httptest"
@@ -303,6 +305,23 @@ func (a *testApp) post(c *http.Client, path string, form url.Values, headers ...
 		a.t.Fatal(err)
 	}
 	a.t.Cleanup(func() { res.Body.Close() })
+	return res
+}
+
+// postMultipart posts the multipart form that fill writes to path as c; the caller reads and
+// closes the response.
+func (a *testApp) postMultipart(c *http.Client, path string, fill func(*multipart.Writer)) *http.Response {
+	a.t.Helper()
+	var body bytes.Buffer
+	mw := multipart.NewWriter(&body)
+	fill(mw)
+	mw.Close()
+	req, _ := http.NewRequest(http.MethodPost, a.server.URL+path, &body)
+	req.Header.Set("Content-Type", mw.FormDataContentType())
+	res, err := c.Do(req)
+	if err != nil {
+		a.t.Fatal(err)
+	}
 	return res
 }
 

@@ -168,7 +168,7 @@ func walkApp(t *testing.T) (a *testApp, params *strings.Replacer) {
 	addGradedQueries(t, a)
 	lead := a.signIn("lena")
 	base := fmt.Sprintf("/projects/%d", a.project.ID)
-	res := a.postRuns(t, lead, map[string]string{"k": "3"}, webRun)
+	res := a.postRuns(lead, map[string]string{"k": "3"}, webRun)
 	res.Body.Close()
 	if res.StatusCode != http.StatusSeeOther {
 		t.Fatalf("evaluate: status %d", res.StatusCode)

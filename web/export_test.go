@@ -133,36 +133,28 @@ const webRun = "t1 Q0 t1-b 1 3.0 sys\nt1 Q0 t1-a 2 2.0 sys\nt1 Q0 t1-c 3 1.0 sys
 
 // postRuns uploads run files (the first as run, the second as run2) with the form's fields
 // to the project's Evaluate page as c; the caller reads and closes the response.
-func (a *testApp) postRuns(t *testing.T, c *http.Client, fields map[string]string, runs ...string) *http.Response {
-	t.Helper()
-	var buf bytes.Buffer
-	mw := multipart.NewWriter(&buf)
-	for k, v := range fields {
-		mw.WriteField(k, v)
-	}
-	for i, r := range runs {
-		field := "run"
-		if i == 1 {
-			field = "run2"
+func (a *testApp) postRuns(c *http.Client, fields map[string]string, runs ...string) *http.Response {
+	a.t.Helper()
+	return a.postMultipart(c, fmt.Sprintf("/projects/%d/evaluate", a.project.ID), func(mw *multipart.Writer) {
+		for k, v := range fields {
+			mw.WriteField(k, v)
 		}
-		w, _ := mw.CreateFormFile(field, fmt.Sprintf("sys%d.run", i+1))
-		w.Write([]byte(r))
-	}
-	mw.Close()
-	req, _ := http.NewRequest(http.MethodPost, fmt.Sprintf("%s/projects/%d/evaluate", a.server.URL, a.project.ID), &buf)
-	req.Header.Set("Content-Type", mw.FormDataContentType())
-	res, err := c.Do(req)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return res
+		for i, r := range runs {
+			field := "run"
+			if i == 1 {
+				field = "run2"
+			}
+			w, _ := mw.CreateFormFile(field, fmt.Sprintf("sys%d.run", i+1))
+			w.Write([]byte(r))
+		}
+	})
 }
 
 func TestEvaluatePageScoresSavesAndSends(t *testing.T) {
 	a := newTestApp(t)
 	addGradedQueries(t, a)
 	lead := a.signIn("lena")
-	res := a.postRuns(t, lead, map[string]string{"k": "3", "gain": "exponential", "threshold": "2", "min_judgments": "2"}, webRun)
+	res := a.postRuns(lead, map[string]string{"k": "3", "gain": "exponential", "threshold": "2", "min_judgments": "2"}, webRun)
 	res.Body.Close()
 	if res.StatusCode != http.StatusSeeOther {
 		t.Fatalf("evaluate: %d, want 303", res.StatusCode)
@@ -195,7 +187,7 @@ func TestEvaluatePageScoresSavesAndSends(t *testing.T) {
 	wantAudit(t, a, "pairs.pool", "lena")
 
 	// A broken run file comes back on the form with its problem.
-	res = a.postRuns(t, lead, nil, "t1 Q0 t1-a first 1.0 sys\n")
+	res = a.postRuns(lead, nil, "t1 Q0 t1-a first 1.0 sys\n")
 	b, _ := io.ReadAll(res.Body)
 	res.Body.Close()
 	if res.StatusCode != http.StatusBadRequest || !strings.Contains(string(b), "rank") {

@@ -1,7 +1,6 @@
 package web
 
 import (
-	"bytes"
 	"context"
 	"fmt"
 	"io"
@@ -257,18 +256,13 @@ func newHostile(t *testing.T) *hostile {
 		h.importDone(lead, res)
 		h.jobs = append(h.jobs, res.Header.Get("Location"))
 	}
-	var body bytes.Buffer
-	mw := multipart.NewWriter(&body)
-	mw.WriteField("k", "3")
-	w, _ := mw.CreateFormFile("run", "run"+h.cat.one("run file name", 1, true))
-	// A run tag is one token: a payload without spaces.
-	fmt.Fprintf(w, "xq1 Q0 xd-text 1 2.0 <svg/onload=%s>\nxq2 Q0 xd-html-00 1 1.0 <svg/onload=%s>\n",
-		xssCode(h.cat.idFor("run tag"), false), xssCode(h.cat.idFor("run tag"), false))
-	mw.Close()
-	req, _ := http.NewRequest(http.MethodPost, fmt.Sprintf("%s/projects/%d/evaluate", h.server.URL, h.project.ID), &body)
-	req.Header.Set("Content-Type", mw.FormDataContentType())
-	res, err := lead.Do(req)
-	must(err)
+	res := h.postMultipart(lead, fmt.Sprintf("/projects/%d/evaluate", h.project.ID), func(mw *multipart.Writer) {
+		mw.WriteField("k", "3")
+		w, _ := mw.CreateFormFile("run", "run"+h.cat.one("run file name", 1, true))
+		// A run tag is one token: a payload without spaces.
+		fmt.Fprintf(w, "xq1 Q0 xd-text 1 2.0 <svg/onload=%s>\nxq2 Q0 xd-html-00 1 1.0 <svg/onload=%s>\n",
+			xssCode(h.cat.idFor("run tag"), false), xssCode(h.cat.idFor("run tag"), false))
+	})
 	b, _ := io.ReadAll(res.Body)
 	res.Body.Close()
 	if res.StatusCode != http.StatusSeeOther {
