@@ -4,26 +4,9 @@ import (
 	"net/http"
 	"strings"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
 )
-
-// accountRoutes are a signed-in user's own pages.
-func (s *Server) accountRoutes(r chi.Router) {
-	r.Post("/signout", s.signout)
-	r.Get("/account", s.accountPage)
-	r.Post("/account/password", s.changePassword)
-}
-
-// passwordLinkRoutes serve the one-time set-password links; they need no session. The
-// token travels in the query string, which request logs never record.
-func (s *Server) passwordLinkRoutes(r chi.Router) {
-	r.Get("/set-password", s.setPasswordPage)
-	r.Post("/set-password", s.setPassword)
-	r.Get("/set-password/done", s.setPasswordDone)
-}
 
 type accountData struct {
 	Notices []string
@@ -47,12 +30,7 @@ func (s *Server) changePassword(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	if err := s.store.ChangePassword(r.Context(), u.ID, r.PostFormValue("current"), next); err != nil {
-		status, msg, ok := userError(err)
-		if !ok {
-			s.storeError(w, r, err)
-			return
-		}
-		fail(status, msg)
+		s.formError(w, r, err, fail)
 		return
 	}
 	token, err := s.store.CreateSession(r.Context(), u.ID, s.opts.SessionTTL)

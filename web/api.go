@@ -30,21 +30,6 @@ func crossOriginProtection() *http.CrossOriginProtection {
 	return c
 }
 
-func (s *Server) apiRoutes(r chi.Router) {
-	r.Use(s.apiAuth)
-	r.Get("/projects", s.apiProjects)
-	r.Route("/projects/{project}", func(r chi.Router) {
-		r.Use(s.apiProject)
-		r.With(s.longTransfer).Get("/export", s.apiExport)
-		r.With(s.longTransfer).Post("/evaluate", s.apiEvaluate)
-		r.Get("/designs/{design}", s.apiDesign)
-		r.Get("/designs/{design}/queries", s.apiDesignQueries)
-	})
-	r.NotFound(func(w http.ResponseWriter, r *http.Request) {
-		apiError(w, http.StatusNotFound, "no such endpoint")
-	})
-}
-
 func apiError(w http.ResponseWriter, status int, msg string) {
 	w.Header().Set("Content-Type", "application/json")
 	w.Header().Set("Cache-Control", "no-store")

@@ -3,17 +3,8 @@ package web
 import (
 	"net/http"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent/store"
 )
-
-// tokenRoutes are the signed-in user's API tokens, under the account page.
-func (s *Server) tokenRoutes(r chi.Router) {
-	r.Get("/account/tokens", s.tokensPage)
-	r.Post("/account/tokens", s.createToken)
-	r.Post("/account/tokens/{token}/revoke", s.revokeToken)
-}
 
 type tokensData struct {
 	Tokens  []store.APIToken
@@ -51,11 +42,7 @@ func (s *Server) createToken(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
 	token, _, err := s.store.CreateAPIToken(r.Context(), u.ID, r.PostFormValue("name"))
 	if err != nil {
-		if status, msg, ok := userError(err); ok {
-			s.renderTokens(w, r, status, tokensData{Error: msg})
-			return
-		}
-		s.storeError(w, r, err)
+		s.formError(w, r, err, func(status int, msg string) { s.renderTokens(w, r, status, tokensData{Error: msg}) })
 		return
 	}
 	s.flash(w, r, "new-api-token", token)
@@ -64,9 +51,8 @@ func (s *Server) createToken(w http.ResponseWriter, r *http.Request) {
 
 func (s *Server) revokeToken(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
-	id, ok := idParam(r, "token")
+	id, ok := s.routeID(w, r, "token", "There is no such token.")
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such token.")
 		return
 	}
 	if err := s.store.RevokeAPIToken(r.Context(), u.ID, id); err != nil {

@@ -1,9 +1,11 @@
 package web
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"io"
+	"mime/multipart"
 	"net/http"
 	"net/http/cookiejar"
 	"net/http/httptest"
@@ -120,6 +122,26 @@ func (a *testApp) member(ctx context.Context, project int64, u store.User, role 
 	}
 }
 
+// fatalIf is a check that ends the test on an error, for steps the rest cannot do without.
+func fatalIf(t testing.TB) func(error) {
+	return func(err error) {
+		t.Helper()
+		if err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// addPair adds a document and pairs it as spec says (spec's DocumentID is filled in).
+func addPair(l *store.Loader, spec store.PairSpec, d store.Document) (int64, error) {
+	did, err := l.Document(d)
+	if err != nil {
+		return 0, err
+	}
+	spec.DocumentID = did
+	return l.Pair(spec)
+}
+
 // load adds one document per pair under each query, keeping the pairs and documents.
 func (a *testApp) load(ctx context.Context, queries []store.Query, docs func(q int) []store.Document) (qids []int64) {
 	a.t.Helper()
@@ -131,11 +153,7 @@ func (a *testApp) load(ctx context.Context, queries []store.Query, docs func(q i
 			}
 			qids = append(qids, qid)
 			for _, d := range docs(qi) {
-				did, err := l.Document(d)
-				if err != nil {
-					return err
-				}
-				pid, err := l.Pair(store.PairSpec{QueryID: qid, DocumentID: did})
+				pid, err := addPair(l, store.PairSpec{QueryID: qid}, d)
 				if err != nil {
 					return err
 				}
@@ -222,12 +240,8 @@ func (a *testApp) buildLamps(ctx context.Context, f fixture) {
 	}
 	err = a.store.Load(ctx, a.project.ID, func(l *store.Loader) error {
 		for g := range f.gold {
-			did, err := l.Document(lamp(fmt.Sprintf("gold-%d", g), fmt.Sprintf("Lamp g%d", g)))
-			if err != nil {
-				return err
-			}
 			two := 2
-			pid, err := l.Pair(store.PairSpec{QueryID: qids[g%len(qids)], DocumentID: did, GoldGrade: &two})
+			pid, err := addPair(l, store.PairSpec{QueryID: qids[g%len(qids)], GoldGrade: &two}, lamp(fmt.Sprintf("gold-%d", g), fmt.Sprintf("Lamp g%d", g)))
 			if err != nil {
 				return err
 			}
@@ -291,6 +305,23 @@ func (a *testApp) post(c *http.Client, path string, form url.Values, headers ...
 		a.t.Fatal(err)
 	}
 	a.t.Cleanup(func() { res.Body.Close() })
+	return res
+}
+
+// postMultipart posts the multipart form that fill writes to path as c; the caller reads and
+// closes the response.
+func (a *testApp) postMultipart(c *http.Client, path string, fill func(*multipart.Writer)) *http.Response {
+	a.t.Helper()
+	var body bytes.Buffer
+	mw := multipart.NewWriter(&body)
+	fill(mw)
+	mw.Close()
+	req, _ := http.NewRequest(http.MethodPost, a.server.URL+path, &body)
+	req.Header.Set("Content-Type", mw.FormDataContentType())
+	res, err := c.Do(req)
+	if err != nil {
+		a.t.Fatal(err)
+	}
 	return res
 }
 

@@ -78,16 +78,35 @@ func (q auditQuery) encode(page int) string {
 }
 
 type auditData struct {
-	Query    auditQuery
-	Events   []store.AuditEvent
-	Users    []store.User
-	Projects []store.Project
-	Actions  []string
-	Newer    string // query strings of the neighbouring pages, empty when none
-	Older    string
-	CSV      string
-	Error    string
-	Page     int
+	Query   auditQuery
+	Events  []store.AuditEvent
+	Choices []auditChoice // the filter's drop-downs: who, project, action
+	Newer   string        // query strings of the neighbouring pages, empty when none
+	Older   string
+	CSV     string
+	Error   string
+	Page    int
+}
+
+// auditChoice is one drop-down of the filter; its first option, Any, leaves it out.
+type auditChoice struct {
+	Name, Label, Any string
+	Options          []auditOption
+}
+
+type auditOption struct {
+	Value, Label string
+	Selected     bool
+}
+
+// newAuditChoice offers each item as an option, the one whose value is current selected.
+func newAuditChoice[T any](name, label, anyLabel, current string, items []T, option func(T) (value, label string)) auditChoice {
+	c := auditChoice{Name: name, Label: label, Any: anyLabel}
+	for _, it := range items {
+		v, l := option(it)
+		c.Options = append(c.Options, auditOption{Value: v, Label: l, Selected: v == current})
+	}
+	return c
 }
 
 func (s *Server) auditPage(w http.ResponseWriter, r *http.Request) {
@@ -104,18 +123,25 @@ func (s *Server) auditPage(w http.ResponseWriter, r *http.Request) {
 	if enc := q.encode(1); enc != "" {
 		d.CSV += "&" + enc
 	}
-	var err error
-	if d.Users, err = s.store.Users(r.Context()); err != nil {
+	users, err := s.store.Users(r.Context())
+	if err != nil {
 		s.storeError(w, r, err)
 		return
 	}
-	if d.Projects, err = s.store.Projects(r.Context()); err != nil {
+	projects, err := s.store.Projects(r.Context())
+	if err != nil {
 		s.storeError(w, r, err)
 		return
 	}
-	if d.Actions, err = s.store.AuditActions(r.Context()); err != nil {
+	actions, err := s.store.AuditActions(r.Context())
+	if err != nil {
 		s.storeError(w, r, err)
 		return
+	}
+	d.Choices = []auditChoice{
+		newAuditChoice("actor", "Who", "Anyone", q.Actor, users, func(u store.User) (string, string) { return strconv.FormatInt(u.ID, 10), u.Username }),
+		newAuditChoice("project", "Project", "Any project", q.Project, projects, func(p store.Project) (string, string) { return strconv.FormatInt(p.ID, 10), p.Name }),
+		newAuditChoice("action", "Action", "Any action", q.Action, actions, func(a string) (string, string) { return a, a }),
 	}
 	status := http.StatusOK
 	if msg != "" {

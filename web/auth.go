@@ -6,15 +6,7 @@ import (
 	"strings"
 
 	"github.com/pertinent/pertinent/store"
-
-	"github.com/go-chi/chi/v5"
 )
-
-// signinRoutes are the sign-in form and its post; they need no session.
-func (s *Server) signinRoutes(r chi.Router) {
-	r.Get("/signin", s.signinPage)
-	r.Post("/signin", s.signin)
-}
 
 type signinData struct {
 	Username string

@@ -78,16 +78,28 @@ func TestSignInIsThrottledPerAccount(t *testing.T) {
 func TestSignOutEndsSessionOnServer(t *testing.T) {
 	a := newTestApp(t)
 	c := a.signIn("amir")
-	u, _ := url.Parse(a.server.URL)
-	stolen := c.Jar.Cookies(u) // a copy of the cookie, as an eavesdropper might keep it
+	stolen := a.cookies(c) // a copy of the cookie, as an eavesdropper might keep it
 	if res := a.post(c, "/signout", nil); res.StatusCode != http.StatusSeeOther {
 		t.Fatalf("sign-out: status %d", res.StatusCode)
 	}
-	replay := a.client()
-	replay.Jar.SetCookies(u, stolen)
-	if res, _ := a.get(replay, "/"); res.StatusCode != http.StatusSeeOther {
-		t.Errorf("replayed cookie after sign-out: status %d, want a redirect to sign in", res.StatusCode)
+	if status := a.homeWith(stolen); status != http.StatusSeeOther {
+		t.Errorf("replayed cookie after sign-out: status %d, want a redirect to sign in", status)
 	}
+}
+
+// cookies is a copy of the cookies c holds for the test server.
+func (a *testApp) cookies(c *http.Client) []*http.Cookie {
+	u, _ := url.Parse(a.server.URL)
+	return c.Jar.Cookies(u)
+}
+
+// homeWith is the status of the home page asked by a fresh client holding only these cookies.
+func (a *testApp) homeWith(cookies []*http.Cookie) int {
+	u, _ := url.Parse(a.server.URL)
+	c := a.client()
+	c.Jar.SetCookies(u, cookies)
+	res, _ := a.get(c, "/")
+	return res.StatusCode
 }
 
 func TestDisabledAccountLosesSessionAtOnce(t *testing.T) {
@@ -107,17 +119,14 @@ func TestDisabledAccountLosesSessionAtOnce(t *testing.T) {
 func TestSessionRotatesOnSignIn(t *testing.T) {
 	a := newTestApp(t)
 	c := a.signIn("amir")
-	u, _ := url.Parse(a.server.URL)
-	first := c.Jar.Cookies(u)
+	first := a.cookies(c)
 	a.post(c, "/signin", url.Values{"username": {"amir"}, "password": {testPassword}})
-	second := c.Jar.Cookies(u)
+	second := a.cookies(c)
 	if len(first) == 0 || len(second) == 0 || first[0].Value == second[0].Value {
 		t.Fatal("signing in again should issue a new session cookie")
 	}
-	old := a.client()
-	old.Jar.SetCookies(u, first)
-	if res, _ := a.get(old, "/"); res.StatusCode != http.StatusSeeOther {
-		t.Errorf("the session from before the new sign-in still works: status %d", res.StatusCode)
+	if status := a.homeWith(first); status != http.StatusSeeOther {
+		t.Errorf("the session from before the new sign-in still works: status %d", status)
 	}
 }
 

@@ -141,12 +141,7 @@ func TestBrowserKeyboardJudging(t *testing.T) {
 	dir := screenshotDir(t)
 	a := newTestApp(t, withPairs(2, 6), withAssessors(1), withPerPair(1), withGuidelines("# Judging reading lamps\n\nGrade how well the lamp suits **reading in bed**.\n\n- Warm light helps.\n- A clamp is a plus."))
 	loadDemoLikeDocument(t, a)
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
+	must := fatalIf(t)
 	must(chromedp.Do(ctx, chromedp.EmulateViewport(1280, 900)))
 	must(browserSignIn(ctx, a.server.URL, "a000", a.judgePath()))
 	pair, err := chromedp.Run(ctx, chromedp.Evaluate[string](pairValueJS))
@@ -253,12 +248,7 @@ func loadDemoLikeDocument(t *testing.T, a *testApp) {
 func TestBrowserJudgingWithoutJavaScript(t *testing.T) {
 	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	a := newTestApp(t, withPairs(1, 3), withAssessors(1), withPerPair(1))
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
+	must := fatalIf(t)
 	if _, err := chromedp.Call(ctx, emulation.SetScriptExecutionDisabled, emulation.SetScriptExecutionDisabledParams{Value: true}); err != nil {
 		t.Fatal(err)
 	}

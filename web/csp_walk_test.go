@@ -168,13 +168,7 @@ func walkApp(t *testing.T) (a *testApp, params *strings.Replacer) {
 	addGradedQueries(t, a)
 	lead := a.signIn("lena")
 	base := fmt.Sprintf("/projects/%d", a.project.ID)
-	body, ctype := multipartRuns(t, map[string]string{"k": "3"}, webRun)
-	req, _ := http.NewRequest(http.MethodPost, a.server.URL+base+"/evaluate", body)
-	req.Header.Set("Content-Type", ctype)
-	res, err := lead.Do(req)
-	if err != nil {
-		t.Fatal(err)
-	}
+	res := a.postRuns(lead, map[string]string{"k": "3"}, webRun)
 	res.Body.Close()
 	if res.StatusCode != http.StatusSeeOther {
 		t.Fatalf("evaluate: status %d", res.StatusCode)

@@ -50,11 +50,7 @@ func (s *Server) evaluateRuns(w http.ResponseWriter, r *http.Request) {
 	defer r.MultipartForm.RemoveAll()
 	f := readEvalForm(r.PostForm)
 	fail := func(err error) {
-		if status, msg, ok := userError(err); ok {
-			s.renderEvaluate(w, r, status, f, msg)
-			return
-		}
-		s.storeError(w, r, err)
+		s.formError(w, r, err, func(status int, msg string) { s.renderEvaluate(w, r, status, f, msg) })
 	}
 	req, err := f.request()
 	if err != nil {
@@ -142,9 +138,8 @@ func f4ok(v float64, ok bool) string {
 }
 
 func (s *Server) loadEvaluation(w http.ResponseWriter, r *http.Request) (store.Evaluation, bool) {
-	id, ok := idParam(r, "evaluation")
+	id, ok := s.routeID(w, r, "evaluation", "There is no such evaluation.")
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such evaluation.")
 		return store.Evaluation{}, false
 	}
 	ev, err := s.store.Evaluation(r.Context(), currentProject(r).ID, id)

@@ -7,23 +7,9 @@ import (
 	"time"
 	"unicode"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/store"
 )
-
-// exportRoutes are a project's export and evaluation pages, for its leads and admins;
-// archived projects can be exported and evaluated too.
-func (s *Server) exportRoutes(r chi.Router) {
-	r.Get("/export", s.exportPage)
-	r.With(s.longTransfer).Get("/export.zip", s.exportZip)
-	r.Get("/evaluate", s.evaluatePage)
-	r.With(s.longTransfer).Post("/evaluate", s.evaluateRuns)
-	r.Get("/evaluations/{evaluation}", s.evaluationPage)
-	r.Get("/evaluations/{evaluation}/per-query.csv", s.evaluationCSV)
-	r.Post("/evaluations/{evaluation}/send", s.sendUnjudged)
-}
 
 type exportData struct {
 	Form  exportForm
@@ -59,11 +45,7 @@ func (s *Server) exportZip(w http.ResponseWriter, r *http.Request) {
 			return
 		}
 	}
-	if status, msg, ok := userError(err); ok {
-		s.renderExport(w, r, status, f, msg)
-		return
-	}
-	s.storeError(w, r, err)
+	s.formError(w, r, err, func(status int, msg string) { s.renderExport(w, r, status, f, msg) })
 }
 
 func (s *Server) streamExportZip(w http.ResponseWriter, r *http.Request, p store.Project, plan *store.ExportPlan) {

@@ -35,11 +35,7 @@ func addGradedQueries(t *testing.T, a *testApp) {
 				id     string
 				grades [2]int
 			}{{"a", [2]int{3, 3}}, {"b", [2]int{0, 1}}} {
-				did, err := l.Document(store.Document{ExternalID: fmt.Sprintf("t%d-%s", i, d.id)})
-				if err != nil {
-					return err
-				}
-				pid, err := l.Pair(store.PairSpec{QueryID: qid, DocumentID: did})
+				pid, err := addPair(l, store.PairSpec{QueryID: qid}, store.Document{ExternalID: fmt.Sprintf("t%d-%s", i, d.id)})
 				if err != nil {
 					return err
 				}
@@ -135,37 +131,30 @@ func TestExportPageDownloadsAZip(t *testing.T) {
 
 const webRun = "t1 Q0 t1-b 1 3.0 sys\nt1 Q0 t1-a 2 2.0 sys\nt1 Q0 t1-c 3 1.0 sys\nt2 Q0 t2-a 1 1.0 sys\nt9 Q0 t9-x 1 1.0 sys\n"
 
-func multipartRuns(t *testing.T, fields map[string]string, runs ...string) (io.Reader, string) {
-	t.Helper()
-	var buf bytes.Buffer
-	mw := multipart.NewWriter(&buf)
-	for k, v := range fields {
-		mw.WriteField(k, v)
-	}
-	for i, r := range runs {
-		field := "run"
-		if i == 1 {
-			field = "run2"
+// postRuns uploads run files (the first as run, the second as run2) with the form's fields
+// to the project's Evaluate page as c; the caller reads and closes the response.
+func (a *testApp) postRuns(c *http.Client, fields map[string]string, runs ...string) *http.Response {
+	a.t.Helper()
+	return a.postMultipart(c, fmt.Sprintf("/projects/%d/evaluate", a.project.ID), func(mw *multipart.Writer) {
+		for k, v := range fields {
+			mw.WriteField(k, v)
 		}
-		w, _ := mw.CreateFormFile(field, fmt.Sprintf("sys%d.run", i+1))
-		w.Write([]byte(r))
-	}
-	mw.Close()
-	return &buf, mw.FormDataContentType()
+		for i, r := range runs {
+			field := "run"
+			if i == 1 {
+				field = "run2"
+			}
+			w, _ := mw.CreateFormFile(field, fmt.Sprintf("sys%d.run", i+1))
+			w.Write([]byte(r))
+		}
+	})
 }
 
 func TestEvaluatePageScoresSavesAndSends(t *testing.T) {
 	a := newTestApp(t)
 	addGradedQueries(t, a)
 	lead := a.signIn("lena")
-	base := fmt.Sprintf("/projects/%d", a.project.ID)
-	body, ctype := multipartRuns(t, map[string]string{"k": "3", "gain": "exponential", "threshold": "2", "min_judgments": "2"}, webRun)
-	req, _ := http.NewRequest(http.MethodPost, a.server.URL+base+"/evaluate", body)
-	req.Header.Set("Content-Type", ctype)
-	res, err := lead.Do(req)
-	if err != nil {
-		t.Fatal(err)
-	}
+	res := a.postRuns(lead, map[string]string{"k": "3", "gain": "exponential", "threshold": "2", "min_judgments": "2"}, webRun)
 	res.Body.Close()
 	if res.StatusCode != http.StatusSeeOther {
 		t.Fatalf("evaluate: %d, want 303", res.StatusCode)
@@ -198,13 +187,7 @@ func TestEvaluatePageScoresSavesAndSends(t *testing.T) {
 	wantAudit(t, a, "pairs.pool", "lena")
 
 	// A broken run file comes back on the form with its problem.
-	body, ctype = multipartRuns(t, nil, "t1 Q0 t1-a first 1.0 sys\n")
-	req, _ = http.NewRequest(http.MethodPost, a.server.URL+base+"/evaluate", body)
-	req.Header.Set("Content-Type", ctype)
-	res, err = lead.Do(req)
-	if err != nil {
-		t.Fatal(err)
-	}
+	res = a.postRuns(lead, nil, "t1 Q0 t1-a first 1.0 sys\n")
 	b, _ := io.ReadAll(res.Body)
 	res.Body.Close()
 	if res.StatusCode != http.StatusBadRequest || !strings.Contains(string(b), "rank") {

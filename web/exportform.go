@@ -1,6 +1,7 @@
 package web
 
 import (
+	"cmp"
 	"net/url"
 	"strconv"
 	"strings"
@@ -25,19 +26,9 @@ type policyForm struct {
 }
 
 func readPolicyForm(v url.Values) policyForm {
-	f := policyForm{Adjudication: v.Get("adjudication"), Consensus: v.Get("consensus"), MinJudgments: strings.TrimSpace(v.Get("min_judgments")),
-		MaxDisagreement: strings.TrimSpace(v.Get("max_disagreement")), ExcludeCannotJudge: checked(v, "exclude_cannot_judge"),
-		ExcludeFlagged: checked(v, "exclude_flagged"), ExcludeGold: checked(v, "exclude_gold")}
-	if f.Adjudication == "" {
-		f.Adjudication = "first"
-	}
-	if f.Consensus == "" {
-		f.Consensus = string(export.ConsensusMedian)
-	}
-	if f.MinJudgments == "" {
-		f.MinJudgments = "1"
-	}
-	return f
+	return policyForm{Adjudication: cmp.Or(v.Get("adjudication"), "first"), Consensus: cmp.Or(v.Get("consensus"), string(export.ConsensusMedian)),
+		MinJudgments: cmp.Or(strings.TrimSpace(v.Get("min_judgments")), "1"), MaxDisagreement: strings.TrimSpace(v.Get("max_disagreement")),
+		ExcludeCannotJudge: checked(v, "exclude_cannot_judge"), ExcludeFlagged: checked(v, "exclude_flagged"), ExcludeGold: checked(v, "exclude_gold")}
 }
 
 // checked reads a checkbox (browsers send "on") or an API flag ("1", "true").
@@ -81,11 +72,9 @@ type exportForm struct {
 }
 
 func readExportForm(v url.Values) exportForm {
-	f := exportForm{policyForm: readPolicyForm(v), Format: v.Get("format"), Split: v.Get("split"),
-		Ratios: strings.TrimSpace(v.Get("ratios")), Folds: strings.TrimSpace(v.Get("folds")), Seed: strings.TrimSpace(v.Get("seed"))}
-	if f.Format == "" {
-		f.Format = string(store.FormatSVMlight)
-	}
+	f := exportForm{policyForm: readPolicyForm(v), Format: cmp.Or(v.Get("format"), string(store.FormatSVMlight)), Split: v.Get("split"),
+		Ratios: cmp.Or(strings.TrimSpace(v.Get("ratios")), "0.8,0.1,0.1"), Folds: strings.TrimSpace(v.Get("folds")),
+		Seed: cmp.Or(strings.TrimSpace(v.Get("seed")), "1")}
 	// split=0.8,0.1,0.1 is short for split=ratio&ratios=0.8,0.1,0.1; folds=K alone asks for folds.
 	if strings.Contains(f.Split, ",") {
 		f.Split, f.Ratios = "ratio", f.Split
@@ -96,15 +85,7 @@ func readExportForm(v url.Values) exportForm {
 			f.Split = "folds"
 		}
 	}
-	if f.Ratios == "" {
-		f.Ratios = "0.8,0.1,0.1"
-	}
-	if f.Folds == "" {
-		f.Folds = "5"
-	}
-	if f.Seed == "" {
-		f.Seed = "1"
-	}
+	f.Folds = cmp.Or(f.Folds, "5") // only now: an empty folds field chose the split above
 	return f
 }
 
@@ -148,17 +129,8 @@ type evalForm struct {
 }
 
 func readEvalForm(v url.Values) evalForm {
-	f := evalForm{policyForm: readPolicyForm(v), K: strings.TrimSpace(v.Get("k")), Gain: v.Get("gain"), Threshold: strings.TrimSpace(v.Get("threshold"))}
-	if f.K == "" {
-		f.K = "10"
-	}
-	if f.Gain == "" {
-		f.Gain = "exponential"
-	}
-	if f.Threshold == "" {
-		f.Threshold = "2"
-	}
-	return f
+	return evalForm{policyForm: readPolicyForm(v), K: cmp.Or(strings.TrimSpace(v.Get("k")), "10"),
+		Gain: cmp.Or(v.Get("gain"), "exponential"), Threshold: cmp.Or(strings.TrimSpace(v.Get("threshold")), "2")}
 }
 
 func (f evalForm) request() (store.EvalRequest, error) {

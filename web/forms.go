@@ -23,6 +23,16 @@ func userError(err error) (status int, msg string, ok bool) {
 	return status, e.Message, true
 }
 
+// formError answers a form whose change was refused: beside its fields through show when
+// userError says a form can show err, with the error page otherwise.
+func (s *Server) formError(w http.ResponseWriter, r *http.Request, err error, show func(status int, msg string)) {
+	if status, msg, ok := userError(err); ok {
+		show(status, msg)
+		return
+	}
+	s.storeError(w, r, err)
+}
+
 // flash keeps a notice for the next page shown to this browser, in the encrypted session
 // cookie, so a POST can redirect and the page after it can still say what happened.
 func (s *Server) flash(w http.ResponseWriter, r *http.Request, key, msg string) {
@@ -56,6 +66,15 @@ func (s *Server) flashes(w http.ResponseWriter, r *http.Request, key string) []s
 func idParam(r *http.Request, name string) (int64, bool) {
 	id, err := strconv.ParseInt(chi.URLParam(r, name), 10, 64)
 	return id, err == nil && id > 0
+}
+
+// routeID reads a numeric id from the route, answering 404 with missing when it is not one.
+func (s *Server) routeID(w http.ResponseWriter, r *http.Request, name, missing string) (int64, bool) {
+	id, ok := idParam(r, name)
+	if !ok {
+		s.fail(w, r, http.StatusNotFound, missing)
+	}
+	return id, ok
 }
 
 // formInt reads a whole number from a form field; def when it is empty.

@@ -27,10 +27,7 @@ func (s *Server) renderGuidelines(w http.ResponseWriter, r *http.Request, status
 		d.Current = d.History[0]
 	}
 	d.Rendered, d.Draft = renderMarkdown(d.Current.Body), d.Current.Body
-	if edit != nil {
-		edit(&d)
-	}
-	s.render(w, r, status, "guidelines", "", s.newView(r, "Guidelines: "+currentProject(r).Name, d))
+	renderEdited(s, w, r, status, "guidelines", "Guidelines: "+currentProject(r).Name, d, edit)
 }
 
 func (s *Server) guidelinesPage(w http.ResponseWriter, r *http.Request) {
@@ -41,12 +38,9 @@ func (s *Server) reviseGuidelines(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
 	body := r.PostFormValue("body")
 	if _, err := s.store.ReviseGuidelines(r.Context(), currentProject(r).ID, body, u.ID); err != nil {
-		status, msg, ok := userError(err)
-		if !ok {
-			s.storeError(w, r, err)
-			return
-		}
-		s.renderGuidelines(w, r, status, func(d *guidelinesData) { d.Draft, d.Error = body, msg })
+		s.formError(w, r, err, func(status int, msg string) {
+			s.renderGuidelines(w, r, status, func(d *guidelinesData) { d.Draft, d.Error = body, msg })
+		})
 		return
 	}
 	s.flash(w, r, "notice", "Guidelines saved. Judgments from now on record this revision.")
@@ -59,9 +53,8 @@ type revisionData struct {
 }
 
 func (s *Server) revisionPage(w http.ResponseWriter, r *http.Request) {
-	id, ok := idParam(r, "revision")
+	id, ok := s.routeID(w, r, "revision", "There is no such revision.")
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such revision.")
 		return
 	}
 	g, err := s.store.GuidelineRevision(r.Context(), currentProject(r).ID, id)

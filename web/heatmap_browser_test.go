@@ -129,12 +129,7 @@ func TestBrowserHeatMapScrollsWhenWide(t *testing.T) {
 	}
 	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	dir := screenshotDir(t)
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
+	must := fatalIf(t)
 	f := openHeatMap(t, ctx, a, "leader", dir, "agreement-12-assessors.png")
 	t.Logf("12 assessors at 1280: %+v", f)
 	checkHeat(t, f, assessors)

@@ -2,14 +2,7 @@ package web
 
 import (
 	"net/http"
-
-	"github.com/go-chi/chi/v5"
 )
-
-// homeRoutes are the start page of a signed-in user.
-func (s *Server) homeRoutes(r chi.Router) {
-	r.Get("/", s.home)
-}
 
 func (s *Server) home(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)

@@ -24,13 +24,6 @@ import (
 	"github.com/pertinent/pertinent/store"
 )
 
-// importRoutes are the import form, its upload and the status of a running import.
-func (s *Server) importRoutes(r chi.Router) {
-	r.Get("/import", s.importPage)
-	r.With(s.longTransfer).Post("/import", s.importSubmit)
-	r.Get("/import/{job}", s.importStatus)
-}
-
 // Imports run in the background so a long one can show its progress: the upload is
 // streamed to temporary files (never held in memory), the import reads them through a
 // byte counter, and the page polls a small status fragment. Jobs belong to their Server

@@ -1,7 +1,6 @@
 package web
 
 import (
-	"bytes"
 	"context"
 	"fmt"
 	"io"
@@ -18,22 +17,15 @@ import (
 // postImport sends the import form as a browser does: fields, then the files.
 func (a *testApp) postImport(c *http.Client, projectID int64, fields map[string]string, files ...string) *http.Response {
 	a.t.Helper()
-	var body bytes.Buffer
-	mw := multipart.NewWriter(&body)
-	for k, v := range fields {
-		mw.WriteField(k, v)
-	}
-	for i := 0; i+1 < len(files); i += 2 {
-		w, _ := mw.CreateFormFile("files", files[i])
-		io.WriteString(w, files[i+1])
-	}
-	mw.Close()
-	req, _ := http.NewRequest(http.MethodPost, fmt.Sprintf("%s/projects/%d/import", a.server.URL, projectID), &body)
-	req.Header.Set("Content-Type", mw.FormDataContentType())
-	res, err := c.Do(req)
-	if err != nil {
-		a.t.Fatal(err)
-	}
+	res := a.postMultipart(c, fmt.Sprintf("/projects/%d/import", projectID), func(mw *multipart.Writer) {
+		for k, v := range fields {
+			mw.WriteField(k, v)
+		}
+		for i := 0; i+1 < len(files); i += 2 {
+			w, _ := mw.CreateFormFile("files", files[i])
+			io.WriteString(w, files[i+1])
+		}
+	})
 	a.t.Cleanup(func() { res.Body.Close() })
 	return res
 }

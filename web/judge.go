@@ -15,16 +15,7 @@ import (
 
 	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/store"
-
-	"github.com/go-chi/chi/v5"
 )
-
-// judgeRoutes are the judging screen and its undo, for a project's assessors.
-func (s *Server) judgeRoutes(r chi.Router) {
-	r.Get("/judge", s.judgePage)
-	r.Post("/judge", s.judgeSubmit)
-	r.Post("/undo", s.judgeUndo)
-}
 
 // bodyPolicy keeps the readable structure of an HTML document body and drops everything
 // that could run or load: scripts, event attributes, styles, frames, forms.

@@ -56,12 +56,7 @@ func TestBrowserQueryAndDocumentCardsSitTogether(t *testing.T) {
 	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
 	dir := screenshotDir(t)
 	a := newTestApp(t, withPairs(1, 2), withAssessors(1), withPerPair(1))
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
+	must := fatalIf(t)
 	must(chromedp.Do(ctx, chromedp.EmulateViewport(1280, 900)))
 	must(browserSignIn(ctx, a.server.URL, "a000", a.judgePath()))
 	// 1rem between cards, with a pixel for rounding.
@@ -107,12 +102,7 @@ func TestBrowserPhoneGradesWithinReach(t *testing.T) {
 	dir := screenshotDir(t)
 	a := newTestApp(t, withPairs(1, 3), withAssessors(1), withPerPair(1))
 	loadDemoLikeDocument(t, a)
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
+	must := fatalIf(t)
 	must(chromedp.Do(ctx, phone()))
 	must(browserSignIn(ctx, a.server.URL, "a000", a.judgePath()))
 	touch, err := chromedp.Run(ctx, chromedp.Evaluate[bool](`matchMedia("(hover: none) and (pointer: coarse)").matches`))

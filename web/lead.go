@@ -6,20 +6,7 @@ import (
 
 	"github.com/pertinent/pertinent/agreement"
 	"github.com/pertinent/pertinent/store"
-
-	"github.com/go-chi/chi/v5"
 )
-
-// leadRoutes are the lead's desk: overview, assessors, agreement, queue and adjudication.
-func (s *Server) leadRoutes(r chi.Router) {
-	r.Get("/overview", s.overview)
-	r.Get("/assessors", s.assessorsPage)
-	r.Get("/assessors/{user}", s.assessorPage)
-	r.Get("/agreement", s.agreementPage)
-	r.Get("/queue", s.queuePage)
-	r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)
-	r.Post("/pairs/{pair}/adjudicate", s.adjudicateSubmit)
-}
 
 // The lead's desk: overview (lead_overview.go), assessors (lead_assessors.go), agreement
 // detail (lead_agreement.go), disagreement queue and adjudication (lead_queue.go); this file

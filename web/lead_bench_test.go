@@ -68,11 +68,7 @@ func seedLarge(tb testing.TB, path string, pairs int) (*store.Store, store.Proje
 						return err
 					}
 				}
-				did, err := l.Document(store.Document{ExternalID: "d" + strconv.Itoa(i), Title: "Document " + strconv.Itoa(i), Body: "Text."})
-				if err != nil {
-					return err
-				}
-				pid, err := l.Pair(store.PairSpec{QueryID: qid, DocumentID: did})
+				pid, err := addPair(l, store.PairSpec{QueryID: qid}, store.Document{ExternalID: "d" + strconv.Itoa(i), Title: "Document " + strconv.Itoa(i), Body: "Text."})
 				if err != nil {
 					return err
 				}

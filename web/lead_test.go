@@ -39,12 +39,9 @@ func seedLead(t *testing.T, a *testApp) {
 		if err != nil {
 			return err
 		}
-		did, err := l.Document(store.Document{ExternalID: "quiet electric kettlea", Title: "Kettle model A", Body: "A kettle."})
-		if err != nil {
-			return err
-		}
 		zero := 0
-		if _, err := l.Pair(store.PairSpec{QueryID: qid, DocumentID: did, GoldGrade: &zero}); err != nil {
+		doc := store.Document{ExternalID: "quiet electric kettlea", Title: "Kettle model A", Body: "A kettle."}
+		if _, err := addPair(l, store.PairSpec{QueryID: qid, GoldGrade: &zero}, doc); err != nil {
 			return err
 		}
 		n := 0

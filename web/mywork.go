@@ -7,16 +7,7 @@ import (
 	"time"
 
 	"github.com/pertinent/pertinent/store"
-
-	"github.com/go-chi/chi/v5"
 )
-
-// myWorkRoutes are an assessor's own judgments and the feedback on them.
-func (s *Server) myWorkRoutes(r chi.Router) {
-	r.Get("/mine", s.myWorkPage)
-	r.Post("/mine", s.myWorkChange)
-	r.Get("/feedback", s.feedbackPage)
-}
 
 // myWorkData is an assessor's own recent judgments: nothing of anyone else's.
 type myWorkData struct {

@@ -5,24 +5,8 @@ import (
 	"strings"
 	"time"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent/store"
 )
-
-// adminRoutes are the installation-wide pages, behind requireAdmin: projects, people, and
-// the audit trail.
-func (s *Server) adminRoutes(r chi.Router) {
-	r.Get("/users", s.usersPage)
-	r.Get("/projects/new", s.newProjectPage)
-	r.Post("/projects", s.createProject)
-	r.Post("/users", s.createUser)
-	r.Post("/users/{user}/disable", s.disableUser)
-	r.Post("/users/{user}/enable", s.enableUser)
-	r.Post("/users/{user}/password-link", s.issuePasswordLink)
-	r.Get("/audit", s.auditPage)
-	r.Get("/audit.csv", s.auditCSV)
-}
 
 // issuedLink is a set-password link shown once to the admin who issued it.
 type issuedLink struct {
@@ -54,10 +38,7 @@ func (s *Server) renderPeople(w http.ResponseWriter, r *http.Request, status int
 		s.storeError(w, r, err)
 		return
 	}
-	if edit != nil {
-		edit(&d)
-	}
-	s.render(w, r, status, "users", "", s.newView(r, "People", d))
+	renderEdited(s, w, r, status, "users", "People", d, edit)
 }
 
 func (s *Server) usersPage(w http.ResponseWriter, r *http.Request) {
@@ -79,14 +60,11 @@ func (s *Server) createUser(w http.ResponseWriter, r *http.Request) {
 	role := r.PostFormValue("role")
 	l, err := s.store.InviteUser(r.Context(), username, display, store.Role(role), u.ID)
 	if err != nil {
-		status, msg, ok := userError(err)
-		if !ok {
-			s.storeError(w, r, err)
-			return
-		}
-		s.renderPeople(w, r, status, func(d *peopleData) {
-			d.Error = msg
-			d.Form.Username, d.Form.DisplayName, d.Form.Role = username, display, role
+		s.formError(w, r, err, func(status int, msg string) {
+			s.renderPeople(w, r, status, func(d *peopleData) {
+				d.Error = msg
+				d.Form.Username, d.Form.DisplayName, d.Form.Role = username, display, role
+			})
 		})
 		return
 	}
@@ -97,9 +75,8 @@ func (s *Server) createUser(w http.ResponseWriter, r *http.Request) {
 
 func (s *Server) issuePasswordLink(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
-	id, ok := idParam(r, "user")
+	id, ok := s.routeID(w, r, "user", "There is no such account.")
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such account.")
 		return
 	}
 	l, err := s.store.IssuePasswordLink(r.Context(), id, u.ID)
@@ -116,9 +93,8 @@ func (s *Server) enableUser(w http.ResponseWriter, r *http.Request)  { s.setDisa
 
 func (s *Server) setDisabled(w http.ResponseWriter, r *http.Request, disabled bool) {
 	u, _ := currentUser(r)
-	id, ok := idParam(r, "user")
+	id, ok := s.routeID(w, r, "user", "There is no such account.")
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such account.")
 		return
 	}
 	target, err := s.store.User(r.Context(), id)

@@ -351,15 +351,9 @@ func interval(iv estimate.Interval) string {
 // designPage is "How sure are we?": the estimates of one design's runs.
 func (s *Server) designPage(w http.ResponseWriter, r *http.Request) {
 	p := currentProject(r)
-	u, _ := currentUser(r)
-	id, ok := idParam(r, "design")
-	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such judging design.")
-		return
-	}
 	// An adaptive design tops up its next wave whenever the lead looks.
-	if _, err := s.store.AdvanceDesign(r.Context(), p.ID, u.ID, id); err != nil {
-		s.storeError(w, r, err)
+	id, _, ok := s.advanceDesign(w, r)
+	if !ok {
 		return
 	}
 	rep, err := s.store.DesignEstimate(r.Context(), p.ID, id)
@@ -395,15 +389,8 @@ func (s *Server) designPage(w http.ResponseWriter, r *http.Request) {
 // designAdvance releases an adaptive design's next wave now.
 func (s *Server) designAdvance(w http.ResponseWriter, r *http.Request) {
 	p := currentProject(r)
-	u, _ := currentUser(r)
-	id, ok := idParam(r, "design")
+	id, n, ok := s.advanceDesign(w, r)
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such judging design.")
-		return
-	}
-	n, err := s.store.AdvanceDesign(r.Context(), p.ID, u.ID, id)
-	if err != nil {
-		s.storeError(w, r, err)
 		return
 	}
 	msg := fmt.Sprintf("Sent %d more pairs to judging.", n)
@@ -412,6 +399,21 @@ func (s *Server) designAdvance(w http.ResponseWriter, r *http.Request) {
 	}
 	s.flash(w, r, "design", msg)
 	http.Redirect(w, r, fmt.Sprintf("/projects/%d/plan/%d", p.ID, id), http.StatusSeeOther)
+}
+
+// advanceDesign releases the next wave of the route's design if it is adaptive and one is
+// due, and says how many pairs it sent; false once it has answered the request itself.
+func (s *Server) advanceDesign(w http.ResponseWriter, r *http.Request) (id int64, sent int, ok bool) {
+	if id, ok = s.routeID(w, r, "design", "There is no such judging design."); !ok {
+		return 0, 0, false
+	}
+	u, _ := currentUser(r)
+	sent, err := s.store.AdvanceDesign(r.Context(), currentProject(r).ID, u.ID, id)
+	if err != nil {
+		s.storeError(w, r, err)
+		return 0, 0, false
+	}
+	return id, sent, true
 }
 
 // kindName is a design's kind in the page's words.

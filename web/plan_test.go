@@ -1,7 +1,6 @@
 package web
 
 import (
-	"bytes"
 	"context"
 	"encoding/csv"
 	"encoding/json"
@@ -48,20 +47,12 @@ func addPlanQueries(t *testing.T, a *testApp) (runA, runB string) {
 
 func (a *testApp) keepRuns(c *http.Client, files map[string]string) *http.Response {
 	a.t.Helper()
-	var buf bytes.Buffer
-	mw := multipart.NewWriter(&buf)
-	for name, body := range files {
-		w, _ := mw.CreateFormFile("runs", name)
-		w.Write([]byte(body))
-	}
-	mw.Close()
-	req, _ := http.NewRequest(http.MethodPost, fmt.Sprintf("%s/projects/%d/plan/runs", a.server.URL, a.project.ID), &buf)
-	req.Header.Set("Content-Type", mw.FormDataContentType())
-	res, err := c.Do(req)
-	if err != nil {
-		a.t.Fatal(err)
-	}
-	return res
+	return a.postMultipart(c, fmt.Sprintf("/projects/%d/plan/runs", a.project.ID), func(mw *multipart.Writer) {
+		for name, body := range files {
+			w, _ := mw.CreateFormFile("runs", name)
+			w.Write([]byte(body))
+		}
+	})
 }
 
 // A lead keeps two runs, previews a stratified design (nothing stored), sends it, reads "How sure

@@ -7,26 +7,8 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent/store"
 )
-
-// projectAdminRoutes are the pages where a project's leads (and admins) set it up and run
-// it: settings and scale, guidelines, team.
-func (s *Server) projectAdminRoutes(r chi.Router) {
-	r.Get("/settings", s.settingsPage)
-	r.Post("/settings", s.saveSettings)
-	r.Post("/scale", s.saveScale)
-	r.Post("/archive", s.archiveProject)
-	r.Post("/restore", s.restoreProject)
-	r.Get("/guidelines", s.guidelinesPage)
-	r.Post("/guidelines", s.reviseGuidelines)
-	r.Get("/guidelines/{revision}", s.revisionPage)
-	r.Get("/team", s.teamPage)
-	r.Post("/team", s.addMember)
-	r.Post("/team/{user}/remove", s.removeMember)
-}
 
 // settingsForm is the settings as the form shows them: percentages and minutes.
 type settingsForm struct {
@@ -108,10 +90,7 @@ func (s *Server) renderSettings(w http.ResponseWriter, r *http.Request, status i
 		s.storeError(w, r, err)
 		return
 	}
-	if edit != nil {
-		edit(&d)
-	}
-	s.render(w, r, status, "settings", "", s.newView(r, "Project settings: "+currentProject(r).Name, d))
+	renderEdited(s, w, r, status, "settings", "Project settings: "+currentProject(r).Name, d, edit)
 }
 
 func (s *Server) settingsPage(w http.ResponseWriter, r *http.Request) {
@@ -181,16 +160,13 @@ func (s *Server) saveScale(w http.ResponseWriter, r *http.Request) {
 		http.Redirect(w, r, projectPath(r, "settings"), http.StatusSeeOther)
 		return
 	}
-	status, msg, ok := userError(err)
-	if !ok {
-		s.storeError(w, r, err)
-		return
-	}
-	s.renderSettings(w, r, status, func(d *settingsData) {
-		d.ScaleError = msg
-		if !d.ScaleLocked || len(levels) == len(d.Scale) {
-			d.Scale, d.Levels = levels, len(levels)
-		}
+	s.formError(w, r, err, func(status int, msg string) {
+		s.renderSettings(w, r, status, func(d *settingsData) {
+			d.ScaleError = msg
+			if !d.ScaleLocked || len(levels) == len(d.Scale) {
+				d.Scale, d.Levels = levels, len(levels)
+			}
+		})
 	})
 }
 
@@ -279,19 +255,16 @@ func (s *Server) createProject(w http.ResponseWriter, r *http.Request) {
 		err = s.store.SetMember(r.Context(), p.ID, lead.ID, store.RoleLead, u.ID)
 	}
 	if err != nil {
-		status, msg, ok := userError(err)
-		if !ok {
-			s.storeError(w, r, err)
-			return
-		}
-		if p.ID != 0 {
-			// The project exists; only the lead could not be added. Say so on its page.
-			s.flash(w, r, "notice", "Project created, but the lead was not added: "+msg)
-			http.Redirect(w, r, fmt.Sprintf("/projects/%d/team", p.ID), http.StatusSeeOther)
-			return
-		}
-		f.Error = msg
-		s.renderNewProject(w, r, status, f)
+		s.formError(w, r, err, func(status int, msg string) {
+			if p.ID != 0 {
+				// The project exists; only the lead could not be added. Say so on its page.
+				s.flash(w, r, "notice", "Project created, but the lead was not added: "+msg)
+				http.Redirect(w, r, fmt.Sprintf("/projects/%d/team", p.ID), http.StatusSeeOther)
+				return
+			}
+			f.Error = msg
+			s.renderNewProject(w, r, status, f)
+		})
 		return
 	}
 	s.flash(w, r, "notice", "Project created. Word its scale and guidelines, then add assessors and pairs.")

@@ -82,6 +82,15 @@ func (s *Server) newView(r *http.Request, title string, data any) view {
 	return v
 }
 
+// renderEdited renders a form's page from d once edit, where given, has put a refused form's
+// values and message into it.
+func renderEdited[T any](s *Server, w http.ResponseWriter, r *http.Request, status int, page, title string, d T, edit func(*T)) {
+	if edit != nil {
+		edit(&d)
+	}
+	s.render(w, r, status, page, "", s.newView(r, title, d))
+}
+
 // render executes a page (the "layout" template) or, with block set, one named block of it;
 // output is buffered so a template error becomes a clean 500, not half a page.
 func (s *Server) render(w http.ResponseWriter, r *http.Request, status int, page, block string, v view) {

@@ -8,13 +8,11 @@ import (
 	"context"
 	"embed"
 	"fmt"
-	"io/fs"
 	"log/slog"
 	"net/http"
 	"time"
 
 	"github.com/go-chi/chi/v5"
-	"github.com/go-chi/chi/v5/middleware"
 	"github.com/gorilla/sessions"
 
 	"github.com/pertinent/pertinent/store"
@@ -107,51 +105,6 @@ func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) { s.router.Se
 
 // Router exposes the routes, so tests can walk every registered route.
 func (s *Server) Router() chi.Router { return s.router }
-
-// routes wires every area's routes into the role group it needs. Each area registers its own
-// routes in a xxxRoutes(chi.Router) method beside its handlers, and checks no role itself.
-func (s *Server) routes() chi.Router {
-	r := chi.NewRouter()
-	r.Use(clientIP, s.logRequests, middleware.Recoverer, securityHeaders)
-	r.Use(crossOriginProtection().Handler)
-	r.Use(s.loadUser)
-
-	static, _ := fs.Sub(assets, "static")
-	r.Handle("/static/*", http.StripPrefix("/static/", cacheStatic(http.FileServerFS(static))))
-	r.Get("/healthz", s.healthz)
-	r.Group(s.signinRoutes)
-	r.Group(s.passwordLinkRoutes)
-	r.Route("/api/v1", s.apiRoutes)
-
-	r.Group(func(r chi.Router) {
-		r.Use(s.requireUser)
-		r.Group(s.homeRoutes)
-		r.Group(s.accountRoutes)
-		r.Group(s.tokenRoutes)
-		r.Route("/projects/{project}", func(r chi.Router) {
-			r.Use(s.loadProject)
-			r.Group(func(r chi.Router) {
-				r.Use(s.requireProjectRole(store.RoleAssessor))
-				r.Group(s.judgeRoutes)
-				r.Group(s.myWorkRoutes)
-			})
-			r.Group(func(r chi.Router) {
-				r.Use(s.requireProjectRole(store.RoleLead))
-				r.Group(s.leadRoutes)
-				r.Group(s.importRoutes)
-				r.Group(s.projectAdminRoutes)
-				r.Group(s.exportRoutes)
-				r.Group(s.planRoutes)
-			})
-		})
-		r.Route("/admin", func(r chi.Router) {
-			r.Use(s.requireAdmin)
-			r.Group(s.adminRoutes)
-		})
-	})
-	r.NotFound(s.notFound)
-	return r
-}
 
 func (s *Server) notFound(w http.ResponseWriter, r *http.Request) {
 	s.fail(w, r, http.StatusNotFound, "There is no page here.")

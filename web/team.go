@@ -45,10 +45,7 @@ func (s *Server) renderTeam(w http.ResponseWriter, r *http.Request, status int, 
 			d.Candidates = append(d.Candidates, x)
 		}
 	}
-	if edit != nil {
-		edit(&d)
-	}
-	s.render(w, r, status, "team", "", s.newView(r, "Team: "+currentProject(r).Name, d))
+	renderEdited(s, w, r, status, "team", "Team: "+currentProject(r).Name, d, edit)
 }
 
 func (s *Server) teamPage(w http.ResponseWriter, r *http.Request) {
@@ -85,12 +82,7 @@ func (s *Server) addMember(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	if err := s.store.SetMember(r.Context(), p.ID, target.ID, role, u.ID); err != nil {
-		status, msg, ok := userError(err)
-		if !ok {
-			s.storeError(w, r, err)
-			return
-		}
-		formErr(status, msg)
+		s.formError(w, r, err, formErr)
 		return
 	}
 	s.flash(w, r, "notice", target.Name()+" is now "+string(role)+" of "+p.Name+".")
@@ -101,9 +93,8 @@ func (s *Server) addMember(w http.ResponseWriter, r *http.Request) {
 func (s *Server) removeMember(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
 	p := currentProject(r)
-	id, ok := idParam(r, "user")
+	id, ok := s.routeID(w, r, "user", "There is no such member.")
 	if !ok {
-		s.fail(w, r, http.StatusNotFound, "There is no such member.")
 		return
 	}
 	role, member, err := s.store.MemberRole(r.Context(), p.ID, id)

@@ -206,12 +206,7 @@ func (p *xssPass) download(url string) {
 
 func (p *xssPass) run() {
 	t, h := p.t, p.h
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
+	must := fatalIf(t)
 	must(chromedp.Do(p.ctx, chromedp.EmulateViewport(1280, 6000)))
 	_, err := chromedp.Call(p.ctx, page.AddScriptToEvaluateOnNewDocument, page.AddScriptToEvaluateOnNewDocumentParams{Source: xssWatch})
 	must(err)

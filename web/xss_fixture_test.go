@@ -1,7 +1,6 @@
 package web
 
 import (
-	"bytes"
 	"context"
 	"fmt"
 	"io"
@@ -183,12 +182,7 @@ func newHostile(t *testing.T) *hostile {
 	if _, err := h.store.ReviseGuidelines(ctx, h.project.ID, "Second revision "+h.cat.all("guidelines revision"), lena.ID); err != nil {
 		t.Fatal(err)
 	}
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
+	must := fatalIf(t)
 	must(h.store.SetMember(ctx, h.project.ID, lena.ID, store.RoleLead, root.ID))
 	must(h.store.SetMember(ctx, h.project.ID, h.users["bea"].ID, store.RoleAssessor, root.ID))
 	// Display names are the one free text of an account (usernames are letters and digits).
@@ -210,12 +204,8 @@ func newHostile(t *testing.T) *hostile {
 		if err != nil {
 			return err
 		}
-		d, err := l.Document(store.Document{ExternalID: "xd-text", Title: h.textTitle,
+		p, err := addPair(l, store.PairSpec{QueryID: q1}, store.Document{ExternalID: "xd-text", Title: h.textTitle,
 			URL: "javascript:" + xssCode(h.cat.idFor("document URL: javascript: scheme"), false), Body: h.cat.all("document body as text")})
-		if err != nil {
-			return err
-		}
-		p, err := l.Pair(store.PairSpec{QueryID: q1, DocumentID: d})
 		if err != nil {
 			return err
 		}
@@ -227,12 +217,8 @@ func newHostile(t *testing.T) *hostile {
 		// Each attack on its own in an HTML body, so that no payload swallows the next
 		// before the sanitiser sees it.
 		for i := range xssForms {
-			d, err := l.Document(store.Document{ExternalID: fmt.Sprintf("xd-html-%02d", i), Title: fmt.Sprintf("HTML body %d", i),
+			p, err := addPair(l, store.PairSpec{QueryID: q2}, store.Document{ExternalID: fmt.Sprintf("xd-html-%02d", i), Title: fmt.Sprintf("HTML body %d", i),
 				URL: h.cat.one("document URL", 22, false), Body: "<p>Body</p>" + h.cat.one("document body as HTML", i, false), BodyFormat: "html"})
-			if err != nil {
-				return err
-			}
-			p, err := l.Pair(store.PairSpec{QueryID: q2, DocumentID: d})
 			if err != nil {
 				return err
 			}
@@ -270,18 +256,13 @@ func newHostile(t *testing.T) *hostile {
 		h.importDone(lead, res)
 		h.jobs = append(h.jobs, res.Header.Get("Location"))
 	}
-	var body bytes.Buffer
-	mw := multipart.NewWriter(&body)
-	mw.WriteField("k", "3")
-	w, _ := mw.CreateFormFile("run", "run"+h.cat.one("run file name", 1, true))
-	// A run tag is one token: a payload without spaces.
-	fmt.Fprintf(w, "xq1 Q0 xd-text 1 2.0 <svg/onload=%s>\nxq2 Q0 xd-html-00 1 1.0 <svg/onload=%s>\n",
-		xssCode(h.cat.idFor("run tag"), false), xssCode(h.cat.idFor("run tag"), false))
-	mw.Close()
-	req, _ := http.NewRequest(http.MethodPost, fmt.Sprintf("%s/projects/%d/evaluate", h.server.URL, h.project.ID), &body)
-	req.Header.Set("Content-Type", mw.FormDataContentType())
-	res, err := lead.Do(req)
-	must(err)
+	res := h.postMultipart(lead, fmt.Sprintf("/projects/%d/evaluate", h.project.ID), func(mw *multipart.Writer) {
+		mw.WriteField("k", "3")
+		w, _ := mw.CreateFormFile("run", "run"+h.cat.one("run file name", 1, true))
+		// A run tag is one token: a payload without spaces.
+		fmt.Fprintf(w, "xq1 Q0 xd-text 1 2.0 <svg/onload=%s>\nxq2 Q0 xd-html-00 1 1.0 <svg/onload=%s>\n",
+			xssCode(h.cat.idFor("run tag"), false), xssCode(h.cat.idFor("run tag"), false))
+	})
 	b, _ := io.ReadAll(res.Body)
 	res.Body.Close()
 	if res.StatusCode != http.StatusSeeOther {
