@@ -40,15 +40,22 @@ func eachLine(r io.Reader, o Options, c *collector, comments bool, fn func(line 
 	}
 }
 
-// fields splits a whitespace-separated line into as many columns as layout names, or reports
-// the line and returns false.
-func fields(c *collector, line int, s, layout string) ([]string, bool) {
-	f := strings.Fields(s)
-	if n := strings.Count(layout, " ") + 1; len(f) != n {
-		c.addf(line, "", "has %d columns, expected %d: %s", len(f), n, layout)
-		return nil, false
-	}
-	return f, true
+// eachRow reads a whitespace-separated file with the columns layout names, such as a run or
+// qrels file: fn gets the columns of each line that has that many, with the collector and a
+// set for the keys that may appear once. It returns the problems collected.
+func eachRow(r io.Reader, o Options, layout string, fn func(c *collector, dups *seen, line int, f []string) error) error {
+	o = o.withDefaults()
+	c := o.collector()
+	dups := newSeen()
+	n := strings.Count(layout, " ") + 1
+	return eachLine(r, o, c, false, func(line int, s string) error {
+		f := strings.Fields(s)
+		if len(f) != n {
+			c.addf(line, "", "has %d columns, expected %d: %s", len(f), n, layout)
+			return nil
+		}
+		return fn(c, dups, line, f)
+	})
 }
 
 // deliver hands v to fn, unless there is no fn or a problem has been found: after the first

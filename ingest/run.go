@@ -20,16 +20,9 @@ type RunEntry struct {
 // tools write Q0, 0 or other placeholders there. A (run-tag, query, doc)
 // may appear once.
 func ReadRun(r io.Reader, o Options, fn func(RunEntry) error) error {
-	o = o.withDefaults()
-	c := o.collector()
-	dups := newSeen()
-	return eachLine(r, o, c, false, func(line int, s string) error {
-		f, ok := fields(c, line, s, "<query-id> Q0 <doc-id> <rank> <score> <run-tag>")
-		if !ok {
-			return nil
-		}
+	return eachRow(r, o, "<query-id> Q0 <doc-id> <rank> <score> <run-tag>", func(c *collector, dups *seen, line int, f []string) error {
 		e := RunEntry{QueryID: f[0], DocID: f[2], Tag: f[5], Line: line}
-		ok = idField(c, line, 1, "query id", f[0]) && ok
+		ok := idField(c, line, 1, "query id", f[0])
 		ok = idField(c, line, 3, "doc id", f[2]) && ok
 		var why string
 		if e.Rank, why = parseInt(f[3]); why == "" && e.Rank < 0 {
