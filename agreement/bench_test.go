@@ -44,6 +44,8 @@ func benchRatings() []Rating {
 
 var benchData *Data
 
+// benchPrepared returns the prepared judgments, made once for all benchmarks, and starts the
+// benchmark's clock and allocation count after them.
 func benchPrepared(b *testing.B) *Data {
 	if benchData == nil {
 		d, err := FromRatings(5, benchRatings())
@@ -53,6 +55,8 @@ func benchPrepared(b *testing.B) *Data {
 		d.built()
 		benchData = d
 	}
+	b.ReportAllocs()
+	b.ResetTimer()
 	return benchData
 }
 
@@ -62,8 +66,6 @@ func benchPrepared(b *testing.B) *Data {
 func BenchmarkHeadline(b *testing.B) {
 	d := benchPrepared(b)
 	ix := d.built()
-	b.ReportAllocs()
-	b.ResetTimer()
 	for b.Loop() {
 		t := tallyOf(ix, true)
 		f := fleissOf(t, 0.95)
@@ -79,8 +81,6 @@ func BenchmarkHeadline(b *testing.B) {
 // single-statistic functions (three passes).
 func BenchmarkSeparateCalls(b *testing.B) {
 	d := benchPrepared(b)
-	b.ReportAllocs()
-	b.ResetTimer()
 	for b.Loop() {
 		_ = Fleiss(d, 0.95)
 		_ = Alpha(d, Ordinal)
@@ -106,8 +106,6 @@ func BenchmarkFromRatings(b *testing.B) {
 // BenchmarkCompute: the full report without bootstrap on prepared data.
 func BenchmarkCompute(b *testing.B) {
 	d := benchPrepared(b)
-	b.ReportAllocs()
-	b.ResetTimer()
 	for b.Loop() {
 		_ = Compute(d, Options{})
 	}
@@ -116,8 +114,6 @@ func BenchmarkCompute(b *testing.B) {
 // BenchmarkBootstrap100: 100 bootstrap replicates on 1,000,000 judgments.
 func BenchmarkBootstrap100(b *testing.B) {
 	d := benchPrepared(b)
-	b.ReportAllocs()
-	b.ResetTimer()
 	for b.Loop() {
 		_ = Bootstrap(d, BootstrapOptions{Replicates: 100, Seed: 1})
 	}
@@ -126,8 +122,6 @@ func BenchmarkBootstrap100(b *testing.B) {
 // BenchmarkDawidSkene: EM to convergence on 1,000,000 judgments.
 func BenchmarkDawidSkene(b *testing.B) {
 	d := benchPrepared(b)
-	b.ReportAllocs()
-	b.ResetTimer()
 	for b.Loop() {
 		_ = DawidSkene(d, DSOptions{})
 	}

@@ -118,19 +118,7 @@ func (d *Data) Add(item, rater string, g int) error {
 		d.itemStr = map[string]int32{}
 		d.raterStr = map[string]int32{}
 	}
-	it, ok := d.itemStr[item]
-	if !ok {
-		it = int32(len(d.itemNames))
-		d.itemStr[item] = it
-		d.itemNames = append(d.itemNames, item)
-	}
-	r, ok := d.raterStr[rater]
-	if !ok {
-		r = int32(len(d.raterNames))
-		d.raterStr[rater] = r
-		d.raterNames = append(d.raterNames, rater)
-	}
-	d.push(it, r, g)
+	d.push(intern(d.itemStr, &d.itemNames, item), intern(d.raterStr, &d.raterNames, rater), g)
 	return nil
 }
 
@@ -152,14 +140,20 @@ func (d *Data) AddID(item, rater int64, g int) error {
 		it = d.internItem(item)
 		d.lastItem = it
 	}
-	r, ok := d.raterID[rater]
-	if !ok {
-		r = int32(len(d.raterIDs))
-		d.raterID[rater] = r
-		d.raterIDs = append(d.raterIDs, rater)
-	}
-	d.push(it, r, g)
+	d.push(it, intern(d.raterID, &d.raterIDs, rater), g)
 	return nil
+}
+
+// intern returns key's index in index, giving a key not seen before the next index and
+// appending it to keys.
+func intern[K comparable](index map[K]int32, keys *[]K, key K) int32 {
+	i, ok := index[key]
+	if !ok {
+		i = int32(len(*keys))
+		index[key] = i
+		*keys = append(*keys, key)
+	}
+	return i
 }
 
 // NameRaters names the raters of id-keyed data (AddID) by name(id) instead of their decimal
@@ -194,13 +188,7 @@ func (d *Data) internItem(item int64) int32 {
 			d.itemID[id] = int32(i)
 		}
 	}
-	it, ok := d.itemID[item]
-	if !ok {
-		it = int32(n)
-		d.itemID[item] = it
-		d.itemIDs = append(d.itemIDs, item)
-	}
-	return it
+	return intern(d.itemID, &d.itemIDs, item)
 }
 
 // findItem looks up an int64 item without adding it.

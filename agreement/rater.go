@@ -102,24 +102,20 @@ func raterStatsOf(d *Data, ix *index, pairs []PairKappa, gold map[string]int) ([
 		} else {
 			s.MeanKappaQuadratic = undefined("kappa with no other rater is defined")
 		}
-		if s.ConsensusItems > 0 {
-			n := float64(s.ConsensusItems)
-			s.ConsensusAgreement = defined(float64(consAgree[r]) / n)
-			s.ConsensusMAE = defined(float64(consAbs[r]) / n)
-		} else {
-			why := "no item graded by this rater was graded by another"
-			s.ConsensusAgreement, s.ConsensusMAE = undefined(why), undefined(why)
-		}
-		if s.GoldItems > 0 {
-			n := float64(s.GoldItems)
-			s.GoldAccuracy = defined(float64(goldHit[r]) / n)
-			s.GoldMAE = defined(float64(goldAbs[r]) / n)
-		} else {
-			why := "no gold item graded"
-			s.GoldAccuracy, s.GoldMAE = undefined(why), undefined(why)
-		}
+		s.ConsensusAgreement, s.ConsensusMAE = hitsAndMAE(consAgree[r], consAbs[r], s.ConsensusItems,
+			"no item graded by this rater was graded by another")
+		s.GoldAccuracy, s.GoldMAE = hitsAndMAE(goldHit[r], goldAbs[r], s.GoldItems, "no gold item graded")
 	}
 	return out, skipped
+}
+
+// hitsAndMAE is the share of n items graded the same and the mean absolute difference over
+// them, both undefined for why when there are none.
+func hitsAndMAE(hits, abs, n int, why string) (Value, Value) {
+	if n == 0 {
+		return undefined(why), undefined(why)
+	}
+	return defined(float64(hits) / float64(n)), defined(float64(abs) / float64(n))
 }
 
 // goldIndex maps item index -> gold grade (-1 when none).

@@ -46,23 +46,16 @@ func ReadFeatures(r io.Reader, f Format, o Options, fn func(FeatureRow) error) e
 			c.addf(row.Line, "", "duplicate pair (%s, %s) (first at line %d)", quote(row.QueryID), quote(row.DocID), first)
 			return nil
 		}
-		if fn != nil && !c.failed() {
-			return fn(row)
-		}
-		return nil
+		return deliver(c, fn, row)
 	}
 	switch f {
 	case SVMlight:
-		err := eachLine(r, o, c, true, func(line int, s string) error {
+		return eachLine(r, o, c, true, func(line int, s string) error {
 			if row, ok := parseSVMlight(c, line, s); ok {
 				return emit(row)
 			}
 			return nil
 		})
-		if err != nil {
-			return err
-		}
-		return c.err()
 	case CSV:
 		return readFeatureCSV(r, o, c, emit)
 	}
@@ -150,14 +143,7 @@ func readFeatureCSV(r io.Reader, o Options, c *collector, emit func(FeatureRow) 
 		c.add(1, "", "no feature columns besides query_id and doc_id")
 		return c.err()
 	}
-	for {
-		rec, err := t.next()
-		if err == io.EOF {
-			return c.err()
-		}
-		if err != nil {
-			return err
-		}
+	return t.each(c, func(rec *record) error {
 		row := FeatureRow{Grade: NoGrade, Names: names, Line: rec.line}
 		ok := true
 		row.QueryID, ok = rec.id(0, c)
@@ -179,10 +165,8 @@ func readFeatureCSV(r io.Reader, o Options, c *collector, emit func(FeatureRow) 
 			row.Features = append(row.Features, Feature{Index: uint32(i + 1), Value: x})
 		}
 		if !ok {
-			continue
+			return nil
 		}
-		if err := emit(row); err != nil {
-			return err
-		}
-	}
+		return emit(row)
+	})
 }

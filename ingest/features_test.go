@@ -17,10 +17,7 @@ func TestSVMlight(t *testing.T) {
 		"2 qid:q1 1:0.5 3:-1e-3 10:7 # d1 extra words\n" +
 		"0 qid:301 #d2\n"
 	got, err := features(t, SVMlight, src)
-	if err != nil {
-		t.Fatal(err)
-	}
-	mustEqual(t, got, []FeatureRow{
+	wantRead(t, got, err, []FeatureRow{
 		{QueryID: "q1", DocID: "d1", Grade: 2, Features: []Feature{{1, 0.5}, {3, -0.001}, {10, 7}}, Line: 2},
 		{QueryID: "301", DocID: "d2", Grade: 0, Features: []Feature{}, Line: 3},
 	})

@@ -34,6 +34,15 @@ func wantProblems(t *testing.T, err error, want ...string) {
 	}
 }
 
+// wantRead checks what a reader returned: no error, and exactly the records want.
+func wantRead[T any](t *testing.T, got []T, err error, want []T) {
+	t.Helper()
+	if err != nil {
+		t.Fatal(err)
+	}
+	mustEqual(t, got, want)
+}
+
 func mustEqual(t *testing.T, got, want any) {
 	t.Helper()
 	if !reflect.DeepEqual(got, want) {

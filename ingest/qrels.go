@@ -1,9 +1,6 @@
 package ingest
 
-import (
-	"io"
-	"strings"
-)
+import "io"
 
 // Qrel is one prior judgment from a qrels file.
 type Qrel struct {
@@ -18,21 +15,14 @@ type Qrel struct {
 // ignored. Grades must lie on the scale of Options.Scale; a (query, doc)
 // may appear once.
 func ReadQrels(r io.Reader, o Options, fn func(Qrel) error) error {
-	o = o.withDefaults()
-	c := o.collector()
-	dups := newSeen()
-	err := eachLine(r, o, c, false, func(line int, s string) error {
-		f := strings.Fields(s)
-		if len(f) != 4 {
-			c.addf(line, "", "has %d columns, expected 4: <query-id> <iteration> <doc-id> <grade>", len(f))
-			return nil
-		}
+	scale := o.withDefaults().Scale
+	return eachRow(r, o, "<query-id> <iteration> <doc-id> <grade>", func(c *collector, dups *seen, line int, f []string) error {
 		q := Qrel{QueryID: f[0], DocID: f[2], Line: line}
 		ok := idField(c, line, 1, "query id", f[0])
 		ok = idField(c, line, 3, "doc id", f[2]) && ok
 		var why string
 		if q.Grade, why = parseInt(f[3]); why == "" {
-			why = checkGrade(q.Grade, o.Scale)
+			why = checkGrade(q.Grade, scale)
 		}
 		if why != "" {
 			c.add(line, column(4, "grade"), why)
@@ -45,13 +35,6 @@ func ReadQrels(r io.Reader, o Options, fn func(Qrel) error) error {
 			c.addf(line, "", "duplicate pair (%s, %s) (first at line %d)", quote(q.QueryID), quote(q.DocID), first)
 			return nil
 		}
-		if fn != nil && !c.failed() {
-			return fn(q)
-		}
-		return nil
+		return deliver(c, fn, q)
 	})
-	if err != nil {
-		return err
-	}
-	return c.err()
 }

@@ -62,24 +62,18 @@ var (
 
 // ReadQueries reads a queries file (CSV or JSONL). Query ids must be unique.
 func ReadQueries(r io.Reader, f Format, o Options, fn func(Query) error) error {
-	return readUnique(r, f, o, querySchema,
+	return readUniqueID(r, f, o, querySchema, "query",
 		func(rec *record, c *collector) (Query, bool) { return buildQuery(rec, 0, c) },
-		func(ids *seen, q Query) uint64 { return ids.key(q.ID) },
-		func(c *collector, rec *record, q Query, first int) {
-			c.addf(rec.lines[0], rec.where(0), "duplicate query id %s (first at line %d)", quote(q.ID), first)
-		}, fn)
+		func(q Query) string { return q.ID }, fn)
 }
 
 // ReadDocuments reads a documents file (CSV or JSONL). Document ids must be
 // unique. CSV columns other than the known ones become Meta (empty cells
 // are left out); JSONL carries them in a "meta" object.
 func ReadDocuments(r io.Reader, f Format, o Options, fn func(Document) error) error {
-	return readUnique(r, f, o, docSchema,
+	return readUniqueID(r, f, o, docSchema, "document",
 		func(rec *record, c *collector) (Document, bool) { return buildDocument(rec, 0, c) },
-		func(ids *seen, d Document) uint64 { return ids.key(d.ID) },
-		func(c *collector, rec *record, d Document, first int) {
-			c.addf(rec.lines[0], rec.where(0), "duplicate document id %s (first at line %d)", quote(d.ID), first)
-		}, fn)
+		func(d Document) string { return d.ID }, fn)
 }
 
 // ReadPairs reads a pairs file (CSV or JSONL). A (query_id, doc_id) pair
@@ -108,28 +102,27 @@ func readUnique[T interface{ line() int }](r io.Reader, f Format, o Options, s *
 		return err
 	}
 	ids := newSeen()
-	for {
-		rec, err := t.next()
-		if err == io.EOF {
-			return c.err()
-		}
-		if err != nil {
-			return err
-		}
+	return t.each(c, func(rec *record) error {
 		v, ok := build(rec, c)
 		if !ok {
-			continue
+			return nil
 		}
 		if first, isDup := ids.add(key(ids, v), v.line()); isDup {
 			dup(c, rec, v, first)
-			continue
+			return nil
 		}
-		if fn != nil && !c.failed() {
-			if err := fn(v); err != nil {
-				return err
-			}
-		}
-	}
+		return deliver(c, fn, v)
+	})
+}
+
+// readUniqueID is readUnique for a file whose records carry one id that may appear once.
+func readUniqueID[T interface{ line() int }](r io.Reader, f Format, o Options, s *schema, what string,
+	build func(*record, *collector) (T, bool), id func(T) string, fn func(T) error) error {
+	return readUnique(r, f, o, s, build,
+		func(ids *seen, v T) uint64 { return ids.key(id(v)) },
+		func(c *collector, rec *record, v T, first int) {
+			c.addf(rec.lines[0], rec.where(0), "duplicate %s id %s (first at line %d)", what, quote(id(v)), first)
+		}, fn)
 }
 
 func (q Query) line() int    { return q.Line }
@@ -151,43 +144,32 @@ func ReadPairRows(r io.Reader, f Format, o Options, fn func(PairRow) error) erro
 	pairs := newSeen()
 	queries := newContentSeen()
 	docs := newContentSeen()
-	for {
-		rec, err := t.next()
-		if err == io.EOF {
-			return c.err()
-		}
-		if err != nil {
-			return err
-		}
+	return t.each(c, func(rec *record) error {
 		q, okq := buildQuery(rec, 0, c)
 		d, okd := buildDocument(rec, 3, c)
 		p, okp := buildPair(rec, 0, 3, 8, 9, o.Scale, c)
 		if !okq || !okd || !okp {
-			continue
+			return nil
 		}
 		row := PairRow{Query: q, Document: d, Pair: p}
 		var first int
 		var dup bool
 		if first, dup = pairs.add(pairs.key(q.ID, d.ID), p.Line); dup {
 			c.addf(p.Line, "", "duplicate pair (%s, %s) (first at line %d)", quote(q.ID), quote(d.ID), first)
-			continue
+			return nil
 		}
 		first, row.NewQuery, _ = queries.add(q.ID, p.Line, queries.ids.key(q.Text, q.Need))
 		if first > 0 {
 			c.addf(p.Line, "", "query %s differs from its row at line %d (text or need)", quote(q.ID), first)
-			continue
+			return nil
 		}
 		first, row.NewDocument, row.DocumentIndex = docs.add(d.ID, p.Line, docSum(&docs.ids.h, d))
 		if first > 0 {
 			c.addf(p.Line, "", "document %s differs from its row at line %d (title, url, body, body_format or metadata)", quote(d.ID), first)
-			continue
+			return nil
 		}
-		if fn != nil && !c.failed() {
-			if err := fn(row); err != nil {
-				return err
-			}
-		}
-	}
+		return deliver(c, fn, row)
+	})
 }
 
 func buildQuery(rec *record, base int, c *collector) (Query, bool) {

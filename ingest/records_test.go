@@ -31,10 +31,7 @@ func TestQueriesCSV(t *testing.T) {
 		"\r\n" +
 		",q2,\"two\nlines \"\"quoted\"\"\"\r\n"
 	got, err := queries(t, CSV, src)
-	if err != nil {
-		t.Fatal(err)
-	}
-	mustEqual(t, got, []Query{
+	wantRead(t, got, err, []Query{
 		{ID: "q1", Text: "cheap flights", Need: "find, compare", Line: 2},
 		{ID: "q2", Text: "two\nlines \"quoted\"", Line: 4},
 	})
@@ -85,11 +82,8 @@ func TestQueriesJSONL(t *testing.T) {
 		"\n" +
 		`{"query_id":301,"text":"numeric id","need":null}` + "\n"
 	got, err := queries(t, JSONL, src)
-	if err != nil {
-		t.Fatal(err)
-	}
 	// Markup is data here; the renderer escapes it.
-	mustEqual(t, got, []Query{
+	wantRead(t, got, err, []Query{
 		{ID: "q1", Text: "<b>bold</b> & <script>alert(1)</script>", Need: "x", Line: 1},
 		{ID: "301", Text: "numeric id", Line: 3},
 	})
@@ -123,10 +117,7 @@ func TestDocumentsCSV(t *testing.T) {
 		"d1,<i>Title</i>,en,\"<p onclick=\"\"x()\"\">Body\ttext</p>\",http://e.x/1,html,\n" +
 		"d2,Plain,,just text,,,shop\n"
 	got, err := docs(t, CSV, src)
-	if err != nil {
-		t.Fatal(err)
-	}
-	mustEqual(t, got, []Document{
+	wantRead(t, got, err, []Document{
 		{ID: "d1", Title: "<i>Title</i>", URL: "http://e.x/1", Body: "<p onclick=\"x()\">Body\ttext</p>", BodyFormat: "html", Meta: map[string]string{"lang": "en"}, Line: 2},
 		{ID: "d2", Title: "Plain", Body: "just text", BodyFormat: "text", Meta: map[string]string{"site": "shop"}, Line: 3},
 	})
@@ -158,10 +149,7 @@ func TestDocumentsJSONL(t *testing.T) {
 
 func TestPairs(t *testing.T) {
 	got, err := pairs(t, CSV, "doc_id,query_id,gold_grade,priority\nd1,q1,,\nd2,q1,2,-3\n")
-	if err != nil {
-		t.Fatal(err)
-	}
-	mustEqual(t, got, []Pair{
+	wantRead(t, got, err, []Pair{
 		{QueryID: "q1", DocID: "d1", GoldGrade: NoGrade, Line: 2},
 		{QueryID: "q1", DocID: "d2", GoldGrade: 2, Priority: -3, Line: 3},
 	})
@@ -175,10 +163,7 @@ func TestPairs(t *testing.T) {
 		`p:5: duplicate pair ("q1", "d3") (first at line 4)`,
 	)
 	got, err = pairs(t, JSONL, `{"query_id":"q1","doc_id":"d1","priority":"7","gold_grade":0}`+"\n")
-	if err != nil {
-		t.Fatal(err)
-	}
-	mustEqual(t, got, []Pair{{QueryID: "q1", DocID: "d1", Priority: 7, GoldGrade: 0, Line: 1}})
+	wantRead(t, got, err, []Pair{{QueryID: "q1", DocID: "d1", Priority: 7, GoldGrade: 0, Line: 1}})
 }
 
 func TestPairRows(t *testing.T) {

@@ -3,7 +3,6 @@ package ingest
 import (
 	"fmt"
 	"io"
-	"strings"
 )
 
 // RunEntry is one line of a run file.
@@ -21,17 +20,9 @@ type RunEntry struct {
 // tools write Q0, 0 or other placeholders there. A (run-tag, query, doc)
 // may appear once.
 func ReadRun(r io.Reader, o Options, fn func(RunEntry) error) error {
-	o = o.withDefaults()
-	c := o.collector()
-	dups := newSeen()
-	err := eachLine(r, o, c, false, func(line int, s string) error {
-		f := strings.Fields(s)
-		if len(f) != 6 {
-			c.addf(line, "", "has %d columns, expected 6: <query-id> Q0 <doc-id> <rank> <score> <run-tag>", len(f))
-			return nil
-		}
-		e, ok := RunEntry{QueryID: f[0], DocID: f[2], Tag: f[5], Line: line}, true
-		ok = idField(c, line, 1, "query id", f[0]) && ok
+	return eachRow(r, o, "<query-id> Q0 <doc-id> <rank> <score> <run-tag>", func(c *collector, dups *seen, line int, f []string) error {
+		e := RunEntry{QueryID: f[0], DocID: f[2], Tag: f[5], Line: line}
+		ok := idField(c, line, 1, "query id", f[0])
 		ok = idField(c, line, 3, "doc id", f[2]) && ok
 		var why string
 		if e.Rank, why = parseInt(f[3]); why == "" && e.Rank < 0 {
@@ -53,13 +44,6 @@ func ReadRun(r io.Reader, o Options, fn func(RunEntry) error) error {
 			c.addf(line, "", "duplicate document %s for query %s in run %s (first at line %d)", quote(e.DocID), quote(e.QueryID), quote(e.Tag), first)
 			return nil
 		}
-		if fn != nil && !c.failed() {
-			return fn(e)
-		}
-		return nil
+		return deliver(c, fn, e)
 	})
-	if err != nil {
-		return err
-	}
-	return c.err()
 }

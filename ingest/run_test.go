@@ -13,10 +13,7 @@ func runEntries(t *testing.T, src string) ([]RunEntry, error) {
 
 func TestReadRun(t *testing.T) {
 	got, err := runEntries(t, "q1 Q0 d1 1 12.5 bm25\n\n  q1\t0  d2 2 -3e-1 bm25  \r\n")
-	if err != nil {
-		t.Fatal(err)
-	}
-	mustEqual(t, got, []RunEntry{
+	wantRead(t, got, err, []RunEntry{
 		{QueryID: "q1", DocID: "d1", Rank: 1, Score: 12.5, Tag: "bm25", Line: 1},
 		{QueryID: "q1", DocID: "d2", Rank: 2, Score: -0.3, Tag: "bm25", Line: 3},
 	})
@@ -52,10 +49,7 @@ func TestReadQrels(t *testing.T) {
 		got = append(got, q)
 		return nil
 	})
-	if err != nil {
-		t.Fatal(err)
-	}
-	mustEqual(t, got, []Qrel{{QueryID: "q1", DocID: "d1", Grade: 4, Line: 1}, {QueryID: "q1", DocID: "d2", Grade: 0, Line: 2}})
+	wantRead(t, got, err, []Qrel{{QueryID: "q1", DocID: "d1", Grade: 4, Line: 1}, {QueryID: "q1", DocID: "d2", Grade: 0, Line: 2}})
 
 	src := "q1 0 d1 1\nq1 0 d2 5\nq1 0 d3 -1\nq1 0 d4 1.0\nq1 0 d1 2\nq1 0 d5\n"
 	err = ReadQrels(strings.NewReader(src), Options{File: "qrels", Scale: 5}, nil)

@@ -196,6 +196,23 @@ func (t *tableReader) readHeader() error {
 	return nil
 }
 
+// each hands every well-formed record to fn, then returns the problems c collected; an I/O
+// error or one from fn stops it.
+func (t *tableReader) each(c *collector, fn func(*record) error) error {
+	for {
+		rec, err := t.next()
+		if err == io.EOF {
+			return c.err()
+		}
+		if err != nil {
+			return err
+		}
+		if err := fn(rec); err != nil {
+			return err
+		}
+	}
+}
+
 // next returns the next well-formed record, io.EOF at the end, or an I/O
 // error. The record is reused by the following call.
 func (t *tableReader) next() (*record, error) {

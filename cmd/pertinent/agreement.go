@@ -19,8 +19,7 @@ import (
 // runAgreement implements "pertinent agreement": it reads judgments and
 // prints the agreement report as text or, with --json, as one JSON object.
 func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("agreement", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlags("agreement", stderr)
 	from := fs.String("from", "", "CSV file of judgments with header item,rater,grade")
 	dbPath := fs.String("db", "", "database file to read judgments from (with --project)")
 	project := fs.String("project", "", "project name (with --db)")

@@ -6,22 +6,12 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 	"strings"
 	"testing"
 
 	"github.com/pertinent/pertinent/store"
 )
-
-func writeFile(t *testing.T, name, body string) string {
-	t.Helper()
-	p := filepath.Join(t.TempDir(), name)
-	if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	return p
-}
 
 // cohenCSV is the 2x2 textbook example (yes/yes 20, yes/no 5, no/yes 10,
 // no/no 15; kappa 0.400, statsmodels std_kappa 0.12700) as judgments, with

@@ -69,29 +69,31 @@ func writeAgreementText(out io.Writer, source string, r agreement.Report) error 
 		return err
 	}
 
-	if len(r.Cohen) > 0 {
-		fmt.Fprintf(out, "\nCohen's kappa by rater pair (SE: Fleiss, Cohen & Everitt 1969)\n")
-		tw := tabwriter.NewWriter(out, 0, 0, 2, ' ', tabwriter.AlignRight)
-		fmt.Fprintln(tw, "a\tb\tn\tkappa\tSE\tlinear\tquadratic\tagreement\t")
-		for _, p := range r.Cohen {
-			fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", p.A, p.B, p.N, num(p.Kappa), num(p.SE), num(p.KappaLinear), num(p.KappaQuadratic), num(p.Agreement))
-		}
-		if err := tw.Flush(); err != nil {
-			return err
-		}
+	err := writeTable(out, "Cohen's kappa by rater pair (SE: Fleiss, Cohen & Everitt 1969)",
+		"a\tb\tn\tkappa\tSE\tlinear\tquadratic\tagreement\t", r.Cohen, func(w io.Writer, p agreement.PairKappa) {
+			fmt.Fprintf(w, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", p.A, p.B, p.N, num(p.Kappa), num(p.SE), num(p.KappaLinear), num(p.KappaQuadratic), num(p.Agreement))
+		})
+	if err != nil {
+		return err
 	}
-	if len(r.RaterStats) > 0 {
-		fmt.Fprintf(out, "\nRaters (consensus: lower median of the other raters' grades)\n")
-		tw := tabwriter.NewWriter(out, 0, 0, 2, ' ', tabwriter.AlignRight)
-		fmt.Fprintln(tw, "rater\tjudgments\tmean quadratic kappa\tconsensus agreement\tconsensus MAE\tgrades\t")
-		for _, s := range r.RaterStats {
-			fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%v\t\n", s.Rater, s.Judgments, num(s.MeanKappaQuadratic), num(s.ConsensusAgreement), num(s.ConsensusMAE), s.Grades)
-		}
-		if err := tw.Flush(); err != nil {
-			return err
-		}
+	return writeTable(out, "Raters (consensus: lower median of the other raters' grades)",
+		"rater\tjudgments\tmean quadratic kappa\tconsensus agreement\tconsensus MAE\tgrades\t", r.RaterStats, func(w io.Writer, s agreement.RaterStats) {
+			fmt.Fprintf(w, "%s\t%d\t%s\t%s\t%s\t%v\t\n", s.Rater, s.Judgments, num(s.MeanKappaQuadratic), num(s.ConsensusAgreement), num(s.ConsensusMAE), s.Grades)
+		})
+}
+
+// writeTable writes a titled table, right-aligned, with a line per row; nothing without rows.
+func writeTable[T any](out io.Writer, title, header string, rows []T, line func(io.Writer, T)) error {
+	if len(rows) == 0 {
+		return nil
 	}
-	return nil
+	fmt.Fprintf(out, "\n%s\n", title)
+	tw := tabwriter.NewWriter(out, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, header)
+	for _, v := range rows {
+		line(tw, v)
+	}
+	return tw.Flush()
 }
 
 func num(v agreement.Value) string {

@@ -63,6 +63,31 @@ func startBinary(t *testing.T, bin, db, addr string) *exec.Cmd {
 	return nil
 }
 
+// loadRig is what the process tests start from: the real binary, a throwaway project of
+// virtual assessors in a new database file, and a free loopback address to serve it on.
+type loadRig struct {
+	bin, db, addr, base, judgeURL string
+	project                       int64
+	users                         []loadUser
+}
+
+func newLoadRig(t *testing.T, file string, pairs, assessors int) loadRig {
+	t.Helper()
+	if testing.Short() {
+		t.Skip("process test; runs without -short")
+	}
+	rig := loadRig{bin: buildBinary(t), db: filepath.Join(t.TempDir(), file)}
+	var err error
+	rig.project, rig.users, err = setupLoadProject(context.Background(), rig.db, pairs, assessors, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rig.addr = freeAddr(t)
+	rig.base = "http://" + rig.addr
+	rig.judgeURL = fmt.Sprintf("%s/projects/%d/judge", rig.base, rig.project)
+	return rig
+}
+
 type ack struct {
 	pair string
 	user string
@@ -73,47 +98,36 @@ type ack struct {
 // file, and checks that every judgment whose submission was answered with success is in the
 // database exactly once, and that the file passes SQLite's integrity check.
 func TestKilledServerLosesNoAcknowledgedJudgment(t *testing.T) {
-	if testing.Short() {
-		t.Skip("process test; runs without -short")
-	}
-	bin := buildBinary(t)
-	db := filepath.Join(t.TempDir(), "crash.db")
 	ctx := context.Background()
-	project, users, err := setupLoadProject(ctx, db, 6000, 50, 3)
-	if err != nil {
-		t.Fatal(err)
-	}
-	addr := freeAddr(t)
-	base := "http://" + addr
-	judgeURL := fmt.Sprintf("%s/projects/%d/judge", base, project)
+	rig := newLoadRig(t, "crash.db", 6000, 50)
 
 	var mu sync.Mutex
 	var acks []ack
 	var stop atomic.Bool
 	var wg sync.WaitGroup
-	server := startBinary(t, bin, db, addr)
+	server := startBinary(t, rig.bin, rig.db, rig.addr)
 	// Sessions are kept in the database, so one sign-in outlives every restart.
-	clients := make([]*http.Client, len(users))
-	for i, u := range users {
+	clients := make([]*http.Client, len(rig.users))
+	for i, u := range rig.users {
 		jar, _ := cookiejar.New(nil)
 		clients[i] = &http.Client{Jar: jar, Timeout: 5 * time.Second,
 			CheckRedirect: func(*http.Request, []*http.Request) error { return http.ErrUseLastResponse }}
-		if err := loadSignIn(ctx, clients[i], base, u); err != nil {
+		if err := loadSignIn(ctx, clients[i], rig.base, u); err != nil {
 			t.Fatal(err)
 		}
 	}
-	for i, u := range users {
+	for i, u := range rig.users {
 		c := clients[i]
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
 			rng := rand.New(rand.NewPCG(uint64(i), 9))
 			for !stop.Load() {
-				pair, err := loadFetch(ctx, c, http.MethodGet, judgeURL, nil)
+				pair, err := loadFetch(ctx, c, http.MethodGet, rig.judgeURL, nil)
 				for err == nil && pair != "" && !stop.Load() {
 					form := url.Values{"pair": {pair}, "grade": {strconv.Itoa(rng.IntN(5))}}
 					var next string
-					next, err = loadFetch(ctx, c, http.MethodPost, judgeURL, form)
+					next, err = loadFetch(ctx, c, http.MethodPost, rig.judgeURL, form)
 					if err == nil { // a complete 200 answer: the judgment is acknowledged
 						mu.Lock()
 						acks = append(acks, ack{pair, u.name})
@@ -135,7 +149,7 @@ func TestKilledServerLosesNoAcknowledgedJudgment(t *testing.T) {
 			t.Fatal(err)
 		}
 		server.Wait()
-		server = startBinary(t, bin, db, addr)
+		server = startBinary(t, rig.bin, rig.db, rig.addr)
 	}
 	time.Sleep(300 * time.Millisecond)
 	stop.Store(true)
@@ -146,16 +160,12 @@ func TestKilledServerLosesNoAcknowledgedJudgment(t *testing.T) {
 	if len(acks) < 200 {
 		t.Fatalf("only %d judgments acknowledged: too few to prove anything", len(acks))
 	}
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
-	if err := store.IntegrityCheck(ctx, db); err != nil {
+	st := openTestStore(t, rig.db)
+	if err := store.IntegrityCheck(ctx, rig.db); err != nil {
 		t.Fatalf("integrity check after ten kills: %v", err)
 	}
 	ids := map[string]int64{}
-	for _, u := range users {
+	for _, u := range rig.users {
 		uu, err := st.UserByUsername(ctx, u.name)
 		if err != nil {
 			t.Fatal(err)
@@ -186,36 +196,25 @@ func TestKilledServerLosesNoAcknowledgedJudgment(t *testing.T) {
 // Requests that race the closing of an idle keep-alive connection are never read by the
 // server; they leave no judgment and are not counted against it.
 func TestTerminateFinishesRequestsInFlight(t *testing.T) {
-	if testing.Short() {
-		t.Skip("process test; runs without -short")
-	}
-	bin := buildBinary(t)
-	db := filepath.Join(t.TempDir(), "term.db")
 	ctx := context.Background()
-	project, users, err := setupLoadProject(ctx, db, 2000, 20, 3)
-	if err != nil {
-		t.Fatal(err)
-	}
-	addr := freeAddr(t)
-	base := "http://" + addr
-	server := startBinary(t, bin, db, addr)
-	judgeURL := fmt.Sprintf("%s/projects/%d/judge", base, project)
+	rig := newLoadRig(t, "term.db", 2000, 20)
+	server := startBinary(t, rig.bin, rig.db, rig.addr)
 	var mu sync.Mutex
 	answered := map[ack]bool{}
 	var wg sync.WaitGroup
-	for _, u := range users {
+	for _, u := range rig.users {
 		jar, _ := cookiejar.New(nil)
 		c := &http.Client{Jar: jar, CheckRedirect: func(*http.Request, []*http.Request) error { return http.ErrUseLastResponse }}
-		if err := loadSignIn(ctx, c, base, u); err != nil {
+		if err := loadSignIn(ctx, c, rig.base, u); err != nil {
 			t.Fatal(err)
 		}
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			pair, err := loadFetch(ctx, c, http.MethodGet, judgeURL, nil)
+			pair, err := loadFetch(ctx, c, http.MethodGet, rig.judgeURL, nil)
 			for i := 0; err == nil && pair != "" && i < 300; i++ {
 				var next string
-				next, err = loadFetch(ctx, c, http.MethodPost, judgeURL, url.Values{"pair": {pair}, "grade": {"2"}})
+				next, err = loadFetch(ctx, c, http.MethodPost, rig.judgeURL, url.Values{"pair": {pair}, "grade": {"2"}})
 				if err == nil {
 					mu.Lock()
 					answered[ack{pair, u.name}] = true
@@ -229,7 +228,7 @@ func TestTerminateFinishesRequestsInFlight(t *testing.T) {
 	if err := server.Process.Signal(syscall.SIGTERM); err != nil {
 		t.Fatal(err)
 	}
-	err = server.Wait()
+	err := server.Wait()
 	wg.Wait()
 	if err != nil {
 		t.Errorf("server exit after SIGTERM: %v, want a clean exit", err)
@@ -237,20 +236,16 @@ func TestTerminateFinishesRequestsInFlight(t *testing.T) {
 	if len(answered) == 0 {
 		t.Fatal("no request was answered before the shutdown; the test proves nothing")
 	}
-	if fi, err := os.Stat(db + "-wal"); err == nil && fi.Size() > 0 {
+	if fi, err := os.Stat(rig.db + "-wal"); err == nil && fi.Size() > 0 {
 		t.Errorf("write-ahead log left with %d bytes: the database was not closed cleanly", fi.Size())
 	}
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
+	st := openTestStore(t, rig.db)
 	names, err := st.UserNames(ctx)
 	if err != nil {
 		t.Fatal(err)
 	}
 	committed := 0
-	err = st.Ratings(ctx, project, func(r store.Rating) error {
+	err = st.Ratings(ctx, rig.project, func(r store.Rating) error {
 		committed++
 		if !answered[ack{strconv.FormatInt(r.PairID, 10), names[r.UserID]}] {
 			t.Errorf("pair %d by %s was stored but its request never got an answer", r.PairID, names[r.UserID])

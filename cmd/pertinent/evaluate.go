@@ -18,15 +18,14 @@ import (
 // runEvaluate implements "pertinent evaluate": one run scored against a project's final
 // grades, or two runs compared query by query.
 func runEvaluate(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("evaluate", stderr)
-	dbPath := dbFlag(fs, "pertinent.db")
+	fs := newDBFlags("evaluate", stderr)
 	project := fs.String("project", "", "project name")
 	k := fs.Int("k", 10, "cut-off rank (0: the whole ranking)")
 	gain := fs.String("gain", "exponential", "NDCG gain: exponential (2^g-1) or linear (g)")
 	threshold := fs.Int("threshold", 2, "grades at or above this are relevant for P@k and MAP")
 	asJSON := fs.Bool("json", false, "print one JSON object instead of tables")
 	design := fs.Int64("design", 0, "print the estimates of this judging design (see pertinent plan) instead of scoring run files")
-	policy := policyFlags(fs)
+	policy := policyFlags(fs.FlagSet)
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: pertinent evaluate --db FILE --project NAME [--k 10] [--gain exponential|linear] [--threshold 2] [policy flags] [--json] RUN [RUN2]\n       pertinent evaluate --db FILE --project NAME --design ID [--json]")
 		fs.PrintDefaults()
@@ -35,7 +34,7 @@ func runEvaluate(ctx context.Context, args []string, stdout, stderr io.Writer) e
 		return err
 	}
 	if *project != "" && *design > 0 {
-		return evaluateDesign(ctx, *dbPath, *project, *design, *asJSON, stdout)
+		return evaluateDesign(ctx, *fs.db, *project, *design, *asJSON, stdout)
 	}
 	if *project == "" || fs.NArg() < 1 || fs.NArg() > 2 {
 		fs.Usage()
@@ -63,7 +62,7 @@ func runEvaluate(ctx context.Context, args []string, stdout, stderr io.Writer) e
 		defer f.Close()
 		runs = append(runs, store.NamedRun{Name: filepath.Base(path), Body: f})
 	}
-	st, p, err := openProject(ctx, *dbPath, *project)
+	st, p, err := fs.openProject(ctx, *project)
 	if err != nil {
 		return fmt.Errorf("evaluate: %w", err)
 	}

@@ -17,15 +17,14 @@ import (
 // runExport implements "pertinent export": a project's final grades under a label policy,
 // written as files plus manifest.json into a directory.
 func runExport(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("export", stderr)
-	dbPath := dbFlag(fs, "pertinent.db")
+	fs := newDBFlags("export", stderr)
 	project := fs.String("project", "", "project name")
 	format := fs.String("format", "svmlight", "svmlight, qrels, csv or jsonl")
 	out := fs.String("out", "", "directory to write into (created if missing)")
 	split := fs.String("split", "", "query-level split train,validation,test, e.g. 0.8,0.1,0.1")
 	folds := fs.Int("folds", 0, "split queries into K folds instead")
 	seed := fs.Uint64("seed", 1, "seed of the split's shuffle")
-	policy := policyFlags(fs)
+	policy := policyFlags(fs.FlagSet)
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: pertinent export --db FILE --project NAME --format svmlight|qrels|csv|jsonl --out DIR [policy flags] [--split 0.8,0.1,0.1 | --folds K] [--seed S]")
 		fs.PrintDefaults()
@@ -57,7 +56,7 @@ func runExport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		req.Split.Method, req.Split.Folds = "k-fold", *folds
 	}
 
-	st, p, err := openProject(ctx, *dbPath, *project)
+	st, p, err := fs.openProject(ctx, *project)
 	if err != nil {
 		return fmt.Errorf("export: %w", err)
 	}

@@ -10,8 +10,6 @@ import (
 	"strings"
 	"testing"
 
-	"golang.org/x/crypto/bcrypt"
-
 	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/store"
 )
@@ -20,55 +18,49 @@ import (
 // and y (graded 0 0), query b2 with document z (graded 3 4).
 func exportDB(t *testing.T) string {
 	t.Helper()
-	store.SetPasswordCost(bcrypt.MinCost)
-	ctx := context.Background()
-	path := filepath.Join(t.TempDir(), "e.db")
-	st, err := store.Open(ctx, path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
-	var users []int64
-	for _, n := range []string{"ann", "bob"} {
-		u, err := st.CreateUser(ctx, n, "", store.RoleAssessor, "a long enough password")
+	_, path := newTestDB(t, "e.db", func(ctx context.Context, st *store.Store) {
+		var users []int64
+		for _, n := range []string{"ann", "bob"} {
+			u, err := st.CreateUser(ctx, n, "", store.RoleAssessor, "a long enough password")
+			if err != nil {
+				t.Fatal(err)
+			}
+			users = append(users, u.ID)
+		}
+		p, err := st.CreateProject(ctx, store.NewProject{Name: "Buoys"}, 0)
 		if err != nil {
 			t.Fatal(err)
 		}
-		users = append(users, u.ID)
-	}
-	p, err := st.CreateProject(ctx, store.NewProject{Name: "Buoys"}, 0)
-	if err != nil {
-		t.Fatal(err)
-	}
-	err = st.Load(ctx, p.ID, func(l *store.Loader) error {
-		for _, r := range []struct {
-			q, d   string
-			grades [2]int
-		}{{"b1", "x", [2]int{2, 2}}, {"b1", "y", [2]int{0, 0}}, {"b2", "z", [2]int{3, 4}}} {
-			qid, err := l.Query(store.Query{ExternalID: r.q, Text: r.q})
-			if err != nil {
-				return err
-			}
-			did, err := l.Document(store.Document{ExternalID: r.d})
-			if err != nil {
-				return err
-			}
-			pid, err := l.Pair(store.PairSpec{QueryID: qid, DocumentID: did})
-			if err != nil {
-				return err
-			}
-			for i, g := range r.grades {
-				g := g
-				if err := l.Judgment(store.RecordedJudgment{PairID: pid, UserID: users[i], Grade: &g}); err != nil {
+		err = st.Load(ctx, p.ID, func(l *store.Loader) error {
+			for _, r := range []struct {
+				q, d   string
+				grades [2]int
+			}{{"b1", "x", [2]int{2, 2}}, {"b1", "y", [2]int{0, 0}}, {"b2", "z", [2]int{3, 4}}} {
+				qid, err := l.Query(store.Query{ExternalID: r.q, Text: r.q})
+				if err != nil {
 					return err
 				}
+				did, err := l.Document(store.Document{ExternalID: r.d})
+				if err != nil {
+					return err
+				}
+				pid, err := l.Pair(store.PairSpec{QueryID: qid, DocumentID: did})
+				if err != nil {
+					return err
+				}
+				for i, g := range r.grades {
+					g := g
+					if err := l.Judgment(store.RecordedJudgment{PairID: pid, UserID: users[i], Grade: &g}); err != nil {
+						return err
+					}
+				}
 			}
+			return nil
+		})
+		if err != nil {
+			t.Fatal(err)
 		}
-		return nil
 	})
-	if err != nil {
-		t.Fatal(err)
-	}
 	return path
 }
 

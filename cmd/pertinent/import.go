@@ -28,8 +28,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		return errors.New(importHelp)
 	}
 	kind := store.ImportKind(args[0])
-	fs := newFlags("import "+args[0], stderr)
-	db := dbFlag(fs, "pertinent.db")
+	fs := newDBFlags("import "+args[0], stderr)
 	project := fs.String("project", env("PERTINENT_PROJECT", ""), "project name (env PERTINENT_PROJECT)")
 	format := fs.String("format", "", "csv, jsonl or svmlight; default: from each file's extension")
 	dry := fs.Bool("dry-run", false, "check the files and report what would change, without changing anything")
@@ -51,7 +50,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if *project == "" || fs.NArg() == 0 {
 		return errors.New(importHelp)
 	}
-	st, p, err := openProject(ctx, *db, *project)
+	st, p, err := fs.openProject(ctx, *project)
 	if err != nil {
 		return err
 	}

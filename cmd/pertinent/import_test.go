@@ -9,24 +9,16 @@ import (
 	"strings"
 	"testing"
 
-	"golang.org/x/crypto/bcrypt"
-
 	"github.com/pertinent/pertinent/store"
 )
 
 func TestImportCommandReportsAndRejects(t *testing.T) {
-	store.SetPasswordCost(bcrypt.MinCost)
 	ctx := context.Background()
-	dir := t.TempDir()
-	db := filepath.Join(dir, "x.db")
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if _, err := st.CreateProject(ctx, store.NewProject{Name: "Boats"}, 0); err != nil {
-		t.Fatal(err)
-	}
-	st.Close()
+	dir, db := newTestDB(t, "x.db", func(ctx context.Context, st *store.Store) {
+		if _, err := st.CreateProject(ctx, store.NewProject{Name: "Boats"}, 0); err != nil {
+			t.Fatal(err)
+		}
+	})
 	rows := filepath.Join(dir, "rows.csv")
 	os.WriteFile(rows, []byte("query_id,query_text,doc_id,title\nq1,dinghy,d1,Oars\nq1,dinghy,d2,Sail\n"), 0o600)
 

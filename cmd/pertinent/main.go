@@ -125,3 +125,43 @@ func newFlags(name string, stderr io.Writer) *flag.FlagSet {
 	fs.SetOutput(stderr)
 	return fs
 }
+
+// dbFlags is the flag set of a command that works on one database file: --db (default
+// pertinent.db) plus the command's own flags.
+type dbFlags struct {
+	*flag.FlagSet
+	db *string
+}
+
+func newDBFlags(name string, stderr io.Writer) dbFlags {
+	fs := newFlags(name, stderr)
+	return dbFlags{FlagSet: fs, db: dbFlag(fs, "pertinent.db")}
+}
+
+// open opens the database --db names; the caller closes the store. Commands check their
+// other flags first, so that a mistyped command creates no database file.
+func (f dbFlags) open(ctx context.Context) (*store.Store, error) {
+	return store.Open(ctx, *f.db)
+}
+
+// openProject opens the database --db names and finds the project called name.
+func (f dbFlags) openProject(ctx context.Context, name string) (*store.Store, store.Project, error) {
+	return openProject(ctx, *f.db, name)
+}
+
+// parseOpen parses args and opens the database, for commands with nothing to check in between.
+func (f dbFlags) parseOpen(ctx context.Context, args []string) (*store.Store, error) {
+	if err := f.Parse(args); err != nil {
+		return nil, err
+	}
+	return f.open(ctx)
+}
+
+// verbFlags starts a command whose first argument is a verb ("user add", "project list"):
+// it returns the verb and a flag set named after both, or help as the error when no verb is given.
+func verbFlags(name, help string, args []string, stderr io.Writer) (string, dbFlags, error) {
+	if len(args) == 0 {
+		return "", dbFlags{}, errors.New(help)
+	}
+	return args[0], newDBFlags(name+" "+args[0], stderr), nil
+}

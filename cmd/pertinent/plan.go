@@ -20,8 +20,7 @@ import (
 // runPlan implements "pertinent plan": keep run files and make a judging design from them, release
 // an adaptive design's next pairs, list designs, or plan how many queries a comparison needs.
 func runPlan(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("plan", stderr)
-	dbPath := dbFlag(fs, "pertinent.db")
+	fs := newDBFlags("plan", stderr)
 	project := fs.String("project", "", "project name")
 	kind := fs.String("design", "stratified", "judging design: depth, stratified, decide or find")
 	depth := fs.Int("depth", 10, "ranks judged in full (depth pooling, or the top stratum)")
@@ -62,7 +61,7 @@ Estimates of a design: pertinent evaluate --design DESIGN.`)
 		fs.Usage()
 		return errors.New("plan: --project is required")
 	}
-	st, p, err := openProject(ctx, *dbPath, *project)
+	st, p, err := fs.openProject(ctx, *project)
 	if err != nil {
 		return fmt.Errorf("plan: %w", err)
 	}

@@ -6,49 +6,38 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
-	"os"
-	"path/filepath"
 	"strings"
 	"testing"
-
-	"golang.org/x/crypto/bcrypt"
 
 	"github.com/pertinent/pertinent/store"
 )
 
 // planDB makes project "Floats" with queries f1..f4 of ten documents each and no pairs, and two
-// run files over them in dir.
+// run files over them.
 func planDB(t *testing.T) (db string, runs []string) {
 	t.Helper()
-	store.SetPasswordCost(bcrypt.MinCost)
-	ctx := context.Background()
-	dir := t.TempDir()
-	db = filepath.Join(dir, "p.db")
-	st, err := store.Open(ctx, db)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
-	p, err := st.CreateProject(ctx, store.NewProject{Name: "Floats"}, 0)
-	if err != nil {
-		t.Fatal(err)
-	}
-	err = st.Load(ctx, p.ID, func(l *store.Loader) error {
-		for q := 1; q <= 4; q++ {
-			if _, err := l.Query(store.Query{ExternalID: fmt.Sprintf("f%d", q), Text: "mooring float"}); err != nil {
-				return err
-			}
-			for d := 1; d <= 10; d++ {
-				if _, err := l.Document(store.Document{ExternalID: fmt.Sprintf("f%d-%d", q, d)}); err != nil {
+	_, db = newTestDB(t, "p.db", func(ctx context.Context, st *store.Store) {
+		p, err := st.CreateProject(ctx, store.NewProject{Name: "Floats"}, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		err = st.Load(ctx, p.ID, func(l *store.Loader) error {
+			for q := 1; q <= 4; q++ {
+				if _, err := l.Query(store.Query{ExternalID: fmt.Sprintf("f%d", q), Text: "mooring float"}); err != nil {
 					return err
 				}
+				for d := 1; d <= 10; d++ {
+					if _, err := l.Document(store.Document{ExternalID: fmt.Sprintf("f%d-%d", q, d)}); err != nil {
+						return err
+					}
+				}
 			}
+			return nil
+		})
+		if err != nil {
+			t.Fatal(err)
 		}
-		return nil
 	})
-	if err != nil {
-		t.Fatal(err)
-	}
 	for r, name := range []string{"near.run", "far.run"} {
 		var b strings.Builder
 		for q := 1; q <= 4; q++ {
@@ -60,11 +49,7 @@ func planDB(t *testing.T) (db string, runs []string) {
 				fmt.Fprintf(&b, "f%d Q0 f%d-%d %d %d %s\n", q, q, d, i, 20-i, strings.TrimSuffix(name, ".run"))
 			}
 		}
-		path := filepath.Join(dir, name)
-		if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
-			t.Fatal(err)
-		}
-		runs = append(runs, path)
+		runs = append(runs, writeFile(t, name, b.String()))
 	}
 	return db, runs
 }
@@ -179,10 +164,7 @@ func TestPlanThenEvaluateDesignOnTheCommandLine(t *testing.T) {
 
 	// A run naming a query the project lacks is refused with what to change; no design is stored
 	// (the run itself stays kept, to be planned from once the query is imported).
-	stray := filepath.Join(t.TempDir(), "stray.run")
-	if err := os.WriteFile(stray, []byte("f9 Q0 f1-1 1 3.5 stray\n"), 0o644); err != nil {
-		t.Fatal(err)
-	}
+	stray := writeFile(t, "stray.run", "f9 Q0 f1-1 1 3.5 stray\n")
 	err = runPlan(ctx, []string{"--db", db, "--project", "Floats", "--design", "depth", stray}, &out, &errOut)
 	if err == nil || !strings.Contains(err.Error(), `"f9"`) {
 		t.Errorf("unknown query: %v, want a problem naming f9", err)

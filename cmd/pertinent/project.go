@@ -14,12 +14,10 @@ import (
 // the browser's Project settings and Team pages do the same through the same store.
 func runProject(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	const help = "usage: pertinent project create|list|add [flags]"
-	if len(args) == 0 {
-		return errors.New(help)
+	verb, fs, err := verbFlags("project", help, args, stderr)
+	if err != nil {
+		return err
 	}
-	verb := args[0]
-	fs := newFlags("project "+verb, stderr)
-	db := dbFlag(fs, "pertinent.db")
 	var name, description, user, role *string
 	var needed *int
 	switch verb {
@@ -35,10 +33,7 @@ func runProject(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	default:
 		return errors.New(help)
 	}
-	if err := fs.Parse(args[1:]); err != nil {
-		return err
-	}
-	st, err := store.Open(ctx, *db)
+	st, err := fs.parseOpen(ctx, args[1:])
 	if err != nil {
 		return err
 	}

@@ -16,12 +16,10 @@ import (
 // runUser manages accounts from the command line: the way to create the first admin.
 func runUser(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	const help = "usage: pertinent user add|list|disable|enable|set-password [flags] [username]"
-	if len(args) == 0 {
-		return errors.New(help)
+	verb, fs, err := verbFlags("user", help, args, stderr)
+	if err != nil {
+		return err
 	}
-	verb := args[0]
-	fs := newFlags("user "+verb, stderr)
-	db := dbFlag(fs, "pertinent.db")
 	var role, name, pwFile *string
 	if verb == "add" {
 		role = fs.String("role", "assessor", "admin, lead or assessor")
@@ -30,10 +28,7 @@ func runUser(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if verb == "add" || verb == "set-password" {
 		pwFile = fs.String("password-file", "", "read the password from this file ('-' for standard input) instead of generating one")
 	}
-	if err := fs.Parse(args[1:]); err != nil {
-		return err
-	}
-	st, err := store.Open(ctx, *db)
+	st, err := fs.parseOpen(ctx, args[1:])
 	if err != nil {
 		return err
 	}
