@@ -141,20 +141,7 @@ func (s *Store) UserByUsername(ctx context.Context, username string) (User, erro
 
 // Users lists every account that can sign in, by username.
 func (s *Store) Users(ctx context.Context) ([]User, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT `+userColumns+` FROM users WHERE role != 'source' ORDER BY username`)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []User
-	for rows.Next() {
-		u, err := scanUser(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, u)
-	}
-	return out, rows.Err()
+	return queryAll(ctx, s.r, `SELECT `+userColumns+` FROM users WHERE role != 'source' ORDER BY username`, scanUser)
 }
 
 // dummyHash keeps a failed look-up as slow as a wrong password, so timing does not reveal
