@@ -71,14 +71,9 @@ func (im *importer) storeFeatures(pairID int64, data []byte) error {
 		return err
 	}
 	var old []byte
-	if err := fs.QueryRowContext(im.ctx, pairID).Scan(&old); err == nil {
-		if bytes.Equal(old, data) {
-			c.Unchanged++
-			return nil
-		}
-		c.Updated++
-	} else {
-		c.New++
+	had := fs.QueryRowContext(im.ctx, pairID).Scan(&old) == nil
+	if !c.tally(had, bytes.Equal(old, data)) {
+		return nil
 	}
 	us, err := im.stmt(upsertFeatures)
 	if err != nil {

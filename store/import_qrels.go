@@ -80,17 +80,8 @@ func (im *importer) qrels(f ImportFile) error {
 		if err := im.sourceJudgment(jc, pairID, source, q.Grade); err != nil {
 			return err
 		}
-		if gc == nil {
+		if gc == nil || !gc.tally(gold.Valid, int(gold.Int64) == q.Grade) {
 			return nil
-		}
-		switch {
-		case !gold.Valid:
-			gc.New++
-		case int(gold.Int64) == q.Grade:
-			gc.Unchanged++
-			return nil
-		default:
-			gc.Updated++
 		}
 		st, err := im.stmt(setGold)
 		if err != nil {
@@ -109,16 +100,14 @@ func (im *importer) sourceJudgment(c *ImportCount, pairID, source int64, grade i
 	var prev int64
 	var old sql.NullInt64
 	err = fs.QueryRowContext(im.ctx, pairID, source).Scan(&prev, &old)
-	switch {
-	case errors.Is(err, sql.ErrNoRows):
-		c.New++
-	case err != nil:
+	if err != nil && !errors.Is(err, sql.ErrNoRows) {
 		return err
-	case old.Valid && int(old.Int64) == grade:
-		c.Unchanged++
+	}
+	had := err == nil
+	if !c.tally(had, old.Valid && int(old.Int64) == grade) {
 		return nil
-	default:
-		c.Updated++
+	}
+	if had {
 		rs, err := im.stmt(retireJudgment)
 		if err != nil {
 			return err
