@@ -49,24 +49,15 @@ func (s *Store) CreateAPIToken(ctx context.Context, userID int64, name string) (
 
 // APITokens lists a user's tokens, newest first, revoked ones included.
 func (s *Store) APITokens(ctx context.Context, userID int64) ([]APIToken, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT id, name, created_at, COALESCE(last_used_at, ''), COALESCE(revoked_at, '')
-		FROM api_tokens WHERE user_id = ? ORDER BY id DESC`, userID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []APIToken
-	for rows.Next() {
+	return queryAll(ctx, s.r, `SELECT id, name, created_at, COALESCE(last_used_at, ''), COALESCE(revoked_at, '')
+		FROM api_tokens WHERE user_id = ? ORDER BY id DESC`, func(r rowScanner) (APIToken, error) {
 		var t APIToken
 		var created, used, revoked string
-		if err := rows.Scan(&t.ID, &t.Name, &created, &used, &revoked); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&t.ID, &t.Name, &created, &used, &revoked)
 		t.CreatedAt, t.LastUsed, t.RevokedAt = parseTime(created), parseTime(used), parseTime(revoked)
 		t.Revoked = revoked != ""
-		out = append(out, t)
-	}
-	return out, rows.Err()
+		return t, err
+	}, userID)
 }
 
 // RevokeAPIToken ends one of the user's own tokens at once; the row stays for the record.

@@ -141,20 +141,7 @@ func (s *Store) UserByUsername(ctx context.Context, username string) (User, erro
 
 // Users lists every account that can sign in, by username.
 func (s *Store) Users(ctx context.Context) ([]User, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT `+userColumns+` FROM users WHERE role != 'source' ORDER BY username`)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []User
-	for rows.Next() {
-		u, err := scanUser(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, u)
-	}
-	return out, rows.Err()
+	return queryAll(ctx, s.r, `SELECT `+userColumns+` FROM users WHERE role != 'source' ORDER BY username`, scanUser)
 }
 
 // dummyHash keeps a failed look-up as slow as a wrong password, so timing does not reveal
@@ -188,6 +175,11 @@ func (s *Store) Authenticate(ctx context.Context, username, password string) (Us
 // SetPassword replaces an account's password and ends its sessions. It is the command
 // line's way, so the audit row has no actor.
 func (s *Store) SetPassword(ctx context.Context, userID int64, password string) error {
+	return s.storePassword(ctx, userID, 0, "password.set", password)
+}
+
+// storePassword hashes password, stores it (setPasswordHash) and records action by actor.
+func (s *Store) storePassword(ctx context.Context, userID, actor int64, action, password string) error {
 	hash, err := hashPassword(password)
 	if err != nil {
 		return err
@@ -196,7 +188,7 @@ func (s *Store) SetPassword(ctx context.Context, userID int64, password string) 
 		if err := setPasswordHash(ctx, tx, userID, hash); err != nil {
 			return err
 		}
-		return s.audit(ctx, tx, 0, 0, "password.set", userRef(userID), "")
+		return s.audit(ctx, tx, actor, 0, action, userRef(userID), "")
 	})
 }
 
@@ -264,14 +256,5 @@ func (s *Store) ChangePassword(ctx context.Context, userID int64, current, next 
 	if old == "" || bcrypt.CompareHashAndPassword([]byte(old), []byte(current)) != nil {
 		return errorf(CodeDenied, "the current password is not right")
 	}
-	hash, err := hashPassword(next)
-	if err != nil {
-		return err
-	}
-	return s.write(ctx, func(tx *sql.Tx) error {
-		if err := setPasswordHash(ctx, tx, userID, hash); err != nil {
-			return err
-		}
-		return s.audit(ctx, tx, userID, 0, "password.change", userRef(userID), "")
-	})
+	return s.storePassword(ctx, userID, userID, "password.change", next)
 }

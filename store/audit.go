@@ -46,29 +46,21 @@ func (s *Store) EachAuditEvent(ctx context.Context, f AuditFilter, fn func(Audit
 		limit = f.Limit
 	}
 	// Zero-valued filters switch themselves off inside one constant statement.
-	rows, err := s.r.QueryContext(ctx, `SELECT e.id, e.at, COALESCE(e.actor_id, 0), COALESCE(a.username, ''), COALESCE(e.project_id, 0), COALESCE(p.name, ''),
+	return eachRow(ctx, s.r, `SELECT e.id, e.at, COALESCE(e.actor_id, 0), COALESCE(a.username, ''), COALESCE(e.project_id, 0), COALESCE(p.name, ''),
 			e.action, e.target, e.detail,
 			CASE WHEN e.target LIKE 'user:%' THEN COALESCE((SELECT username FROM users WHERE id = CAST(substr(e.target, 6) AS INTEGER)), '') ELSE '' END
 		FROM audit_events e LEFT JOIN users a ON a.id = e.actor_id LEFT JOIN projects p ON p.id = e.project_id
 		WHERE (?1 = 0 OR e.actor_id = ?1) AND (?2 = 0 OR e.project_id = ?2) AND (?3 = '' OR e.action = ?3)
 			AND (?4 = '' OR e.at >= ?4) AND (?5 = '' OR e.at < ?5)
-		ORDER BY e.id DESC LIMIT ?6 OFFSET ?7`, f.ActorID, f.ProjectID, f.Action, from, until, limit, f.Offset)
-	if err != nil {
-		return err
-	}
-	defer rows.Close()
-	for rows.Next() {
+		ORDER BY e.id DESC LIMIT ?6 OFFSET ?7`, func(r rowScanner) error {
 		var e AuditEvent
 		var at string
-		if err := rows.Scan(&e.ID, &at, &e.ActorID, &e.Actor, &e.ProjectID, &e.Project, &e.Action, &e.Target, &e.Detail, &e.TargetName); err != nil {
+		if err := r.Scan(&e.ID, &at, &e.ActorID, &e.Actor, &e.ProjectID, &e.Project, &e.Action, &e.Target, &e.Detail, &e.TargetName); err != nil {
 			return err
 		}
 		e.At = parseTime(at)
-		if err := fn(e); err != nil {
-			return err
-		}
-	}
-	return rows.Err()
+		return fn(e)
+	}, f.ActorID, f.ProjectID, f.Action, from, until, limit, f.Offset)
 }
 
 // AuditEvents returns one page of the events matching f, newest first, and whether more
@@ -89,20 +81,7 @@ func (s *Store) AuditEvents(ctx context.Context, f AuditFilter) (events []AuditE
 
 // AuditActions lists the action names recorded so far, for filtering.
 func (s *Store) AuditActions(ctx context.Context) ([]string, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT DISTINCT action FROM audit_events ORDER BY action`)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []string
-	for rows.Next() {
-		var a string
-		if err := rows.Scan(&a); err != nil {
-			return nil, err
-		}
-		out = append(out, a)
-	}
-	return out, rows.Err()
+	return queryAll(ctx, s.r, `SELECT DISTINCT action FROM audit_events ORDER BY action`, scanValue[string])
 }
 
 // audit records an administrative change inside the transaction that makes it, so the record

@@ -63,23 +63,14 @@ func (s *Store) Adjudicate(ctx context.Context, pairID, leadID int64, grade int,
 
 // Adjudications returns a pair's adjudication history, newest first.
 func (s *Store) Adjudications(ctx context.Context, pairID int64) ([]Adjudication, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT a.id, a.pair_id, a.lead_id, COALESCE(u.username, ''), a.grade, a.rationale, a.current, a.created_at
-		FROM adjudications a LEFT JOIN users u ON u.id = a.lead_id WHERE a.pair_id = ? ORDER BY a.id DESC`, pairID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []Adjudication
-	for rows.Next() {
+	return queryAll(ctx, s.r, `SELECT a.id, a.pair_id, a.lead_id, COALESCE(u.username, ''), a.grade, a.rationale, a.current, a.created_at
+		FROM adjudications a LEFT JOIN users u ON u.id = a.lead_id WHERE a.pair_id = ? ORDER BY a.id DESC`, func(r rowScanner) (Adjudication, error) {
 		var a Adjudication
 		var at string
-		if err := rows.Scan(&a.ID, &a.PairID, &a.LeadID, &a.Lead, &a.Grade, &a.Rationale, &a.Current, &at); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&a.ID, &a.PairID, &a.LeadID, &a.Lead, &a.Grade, &a.Rationale, &a.Current, &at)
 		a.CreatedAt = parseTime(at)
-		out = append(out, a)
-	}
-	return out, rows.Err()
+		return a, err
+	}, pairID)
 }
 
 // PairJudgment is a current judgment as a lead sees it when adjudicating: with its assessor.
@@ -110,35 +101,24 @@ func (s *Store) PairReview(ctx context.Context, pairID int64) (PairReview, error
 		FROM pairs p WHERE id = ?`, pairID).Scan(&gold, &levels); err != nil {
 		return PairReview{}, err
 	}
-	if gold.Valid {
-		g := int(gold.Int64)
-		r.Gold = &g
-	}
-	rows, err := s.r.QueryContext(ctx, `SELECT j.id, j.user_id, u.username, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms, j.created_at
-		FROM judgments j JOIN users u ON u.id = j.user_id WHERE j.pair_id = ? AND j.current = 1 ORDER BY j.created_at, j.id`, pairID)
-	if err != nil {
-		return PairReview{}, err
-	}
-	defer rows.Close()
+	r.Gold = gradeOf(gold)
 	d := agreement.NewData(max(levels, 2))
-	for rows.Next() {
+	err = eachRow(ctx, s.r, `SELECT j.id, j.user_id, u.username, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms, j.created_at
+		FROM judgments j JOIN users u ON u.id = j.user_id WHERE j.pair_id = ? AND j.current = 1 ORDER BY j.created_at, j.id`, func(row rowScanner) error {
 		var j PairJudgment
 		var grade sql.NullInt64
 		var at string
-		if err := rows.Scan(&j.ID, &j.UserID, &j.Username, &grade, &j.CannotJudge, &j.Note, &j.TimeSpentMs, &at); err != nil {
-			return PairReview{}, err
+		if err := row.Scan(&j.ID, &j.UserID, &j.Username, &grade, &j.CannotJudge, &j.Note, &j.TimeSpentMs, &at); err != nil {
+			return err
 		}
-		j.PairID, j.Current, j.CreatedAt = pairID, true, parseTime(at)
-		if grade.Valid {
-			g := int(grade.Int64)
-			j.Grade = &g
-			if d.Add("pair", j.Username, g) != nil {
-				continue
-			}
+		j.PairID, j.Current, j.CreatedAt, j.Grade = pairID, true, parseTime(at), gradeOf(grade)
+		if j.Grade != nil && d.Add("pair", j.Username, *j.Grade) != nil {
+			return nil
 		}
 		r.Judgments = append(r.Judgments, j)
-	}
-	if err := rows.Err(); err != nil {
+		return nil
+	}, pairID)
+	if err != nil {
 		return PairReview{}, err
 	}
 	if d.Judgments() > 0 {
@@ -193,27 +173,18 @@ type FeedbackItem struct {
 // Feedback lists the pairs of a project where the user's current grade differs from the
 // current adjudication, newest adjudication first.
 func (s *Store) Feedback(ctx context.Context, projectID, userID int64) ([]FeedbackItem, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT p.id, q.external_id, q.text, d.external_id, d.title, d.url, j.grade, a.grade, a.rationale, a.created_at
+	return queryAll(ctx, s.r, `SELECT p.id, q.external_id, q.text, d.external_id, d.title, d.url, j.grade, a.grade, a.rationale, a.created_at
 		FROM adjudications a
 		JOIN pairs p ON p.id = a.pair_id
 		JOIN judgments j ON j.pair_id = a.pair_id AND j.user_id = ?2 AND j.current = 1 AND j.grade IS NOT NULL
 		JOIN queries q ON q.id = p.query_id JOIN documents d ON d.id = p.document_id
 		WHERE p.project_id = ?1 AND a.current = 1 AND j.grade != a.grade
-		ORDER BY a.id DESC`, projectID, userID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []FeedbackItem
-	for rows.Next() {
+		ORDER BY a.id DESC`, func(r rowScanner) (FeedbackItem, error) {
 		var f FeedbackItem
 		var at string
-		if err := rows.Scan(&f.PairID, &f.Query.ExternalID, &f.Query.Text, &f.Document.ExternalID, &f.Document.Title, &f.Document.URL,
-			&f.Grade, &f.FinalGrade, &f.Rationale, &at); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&f.PairID, &f.Query.ExternalID, &f.Query.Text, &f.Document.ExternalID, &f.Document.Title, &f.Document.URL,
+			&f.Grade, &f.FinalGrade, &f.Rationale, &at)
 		f.At = parseTime(at)
-		out = append(out, f)
-	}
-	return out, rows.Err()
+		return f, err
+	}, projectID, userID)
 }

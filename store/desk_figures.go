@@ -207,18 +207,23 @@ func (d *Desk) assessorFigures() {
 		n := a.nTimes
 		f.MedianMs = quantileMs(times[:n], 0.5)
 		times = times[n:]
-		if s, ok := stats[f.Username]; ok {
-			f.Stats = s
-		} else {
-			why := "no grades, only \"cannot judge\""
-			f.Stats = agreement.RaterStats{Rater: f.Username, Grades: make([]int, d.Scale),
-				MeanKappaQuadratic: agreement.Value{Why: why}, ConsensusAgreement: agreement.Value{Why: why},
-				ConsensusMAE: agreement.Value{Why: why}, GoldAccuracy: agreement.Value{Why: why}, GoldMAE: agreement.Value{Why: why}}
-		}
+		f.Stats = raterStatsOf(stats, f.Username, d.Scale)
 		f.DriftRecent, f.DriftEarlier, f.Drift, f.DriftEarlierN = a.drift.Shares()
 		d.Assessors = append(d.Assessors, *f)
 	}
 	slices.SortFunc(d.Assessors, func(a, b AssessorFigures) int { return cmp.Compare(a.Username, b.Username) })
+}
+
+// raterStatsOf is an assessor's agreement figures from stats, or, for one who gave no grades
+// (agreement has no row for them), figures that each say why they are missing.
+func raterStatsOf(stats map[string]agreement.RaterStats, username string, scale int) agreement.RaterStats {
+	if s, ok := stats[username]; ok {
+		return s
+	}
+	why := "no grades, only \"cannot judge\""
+	return agreement.RaterStats{Rater: username, Grades: make([]int, scale),
+		MeanKappaQuadratic: agreement.Value{Why: why}, ConsensusAgreement: agreement.Value{Why: why},
+		ConsensusMAE: agreement.Value{Why: why}, GoldAccuracy: agreement.Value{Why: why}, GoldMAE: agreement.Value{Why: why}}
 }
 
 // Assessor returns one assessor's figures; ok is false when they have no current judgment.

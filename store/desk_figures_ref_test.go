@@ -95,14 +95,7 @@ func refAssessorFigures(d *Desk) {
 		f.CannotShare = float64(f.CannotJudge) / float64(f.Judgments)
 		slices.Sort(a.times)
 		f.MedianMs = refQuantileMs(a.times, 0.5)
-		if s, ok := stats[f.Username]; ok {
-			f.Stats = s
-		} else {
-			why := "no grades, only \"cannot judge\""
-			f.Stats = agreement.RaterStats{Rater: f.Username, Grades: make([]int, d.Scale),
-				MeanKappaQuadratic: agreement.Value{Why: why}, ConsensusAgreement: agreement.Value{Why: why},
-				ConsensusMAE: agreement.Value{Why: why}, GoldAccuracy: agreement.Value{Why: why}, GoldMAE: agreement.Value{Why: why}}
-		}
+		f.Stats = raterStatsOf(stats, f.Username, d.Scale)
 		// The compared grades go in in row order; agreement's tests check Drift against the
 		// plain sort by time.
 		var dr agreement.Drift

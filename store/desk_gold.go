@@ -15,22 +15,13 @@ type GoldScore struct {
 // GoldAccuracy scores every assessor who graded gold pairs of the project, by username.
 // "Cannot judge" answers are not graded and do not count.
 func (s *Store) GoldAccuracy(ctx context.Context, projectID int64) ([]GoldScore, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT u.id, u.username, COUNT(*), SUM(j.grade = p.gold_grade), AVG(ABS(j.grade - p.gold_grade))
+	return queryAll(ctx, s.r, `SELECT u.id, u.username, COUNT(*), SUM(j.grade = p.gold_grade), AVG(ABS(j.grade - p.gold_grade))
 		FROM pairs p INDEXED BY pairs_gold JOIN judgments j ON j.pair_id = p.id JOIN users u ON u.id = j.user_id
 		WHERE p.project_id = ? AND p.gold_grade IS NOT NULL AND j.current = 1 AND j.grade IS NOT NULL
-		GROUP BY u.id ORDER BY u.username`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []GoldScore
-	for rows.Next() {
+		GROUP BY u.id ORDER BY u.username`, func(r rowScanner) (GoldScore, error) {
 		var g GoldScore
-		if err := rows.Scan(&g.UserID, &g.Username, &g.Judged, &g.Exact, &g.MeanAbsError); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&g.UserID, &g.Username, &g.Judged, &g.Exact, &g.MeanAbsError)
 		g.Accuracy = float64(g.Exact) / float64(g.Judged)
-		out = append(out, g)
-	}
-	return out, rows.Err()
+		return g, err
+	}, projectID)
 }

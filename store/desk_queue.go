@@ -29,36 +29,28 @@ func (s *Store) queryInfo(ctx context.Context, d *Desk) (queryInfo, error) {
 
 func (s *Store) loadQueryInfo(ctx context.Context, d *Desk) queryInfo {
 	qi := queryInfo{pairQuery: map[int64]int64{}, queries: map[int64]Query{}}
-	rows, err := s.r.QueryContext(ctx, `SELECT (id << 28) | query_id FROM pairs WHERE project_id = ?`, d.ProjectID)
-	if err != nil {
-		qi.err = err
-		return qi
-	}
-	for rows.Next() {
+	qi.err = eachRow(ctx, s.r, `SELECT (id << 28) | query_id FROM pairs WHERE project_id = ?`, func(r rowScanner) error {
 		var x int64
-		if err := rows.Scan(&x); err != nil {
-			rows.Close()
-			qi.err = err
-			return qi
+		if err := r.Scan(&x); err != nil {
+			return err
 		}
 		qi.pairQuery[x>>28] = x & (1<<28 - 1)
-	}
-	rows.Close()
-	rows, err = s.r.QueryContext(ctx, `SELECT id, external_id, text, need FROM queries WHERE project_id = ?`, d.ProjectID)
-	if err != nil {
-		qi.err = err
+		return nil
+	}, d.ProjectID)
+	if qi.err != nil {
 		return qi
 	}
-	for rows.Next() {
+	qi.err = eachRow(ctx, s.r, `SELECT id, external_id, text, need FROM queries WHERE project_id = ?`, func(r rowScanner) error {
 		var q Query
-		if err := rows.Scan(&q.ID, &q.ExternalID, &q.Text, &q.Need); err != nil {
-			rows.Close()
-			qi.err = err
-			return qi
+		if err := r.Scan(&q.ID, &q.ExternalID, &q.Text, &q.Need); err != nil {
+			return err
 		}
 		qi.queries[q.ID] = q
+		return nil
+	}, d.ProjectID)
+	if qi.err != nil {
+		return qi
 	}
-	rows.Close()
 	qi.agreement = d.queryAgreement(qi)
 	return qi
 }
@@ -216,24 +208,20 @@ type adjudicatedPair struct {
 }
 
 func (s *Store) currentAdjudications(ctx context.Context, projectID int64) (map[int64]adjudicatedPair, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT a.pair_id, a.grade, a.created_at FROM adjudications a JOIN pairs p ON p.id = a.pair_id
-		WHERE p.project_id = ? AND a.current = 1`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
 	out := map[int64]adjudicatedPair{}
-	for rows.Next() {
+	err := eachRow(ctx, s.r, `SELECT a.pair_id, a.grade, a.created_at FROM adjudications a JOIN pairs p ON p.id = a.pair_id
+		WHERE p.project_id = ? AND a.current = 1`, func(r rowScanner) error {
 		var id int64
 		var a adjudicatedPair
 		var at sql.RawBytes
-		if err := rows.Scan(&id, &a.grade, &at); err != nil {
-			return nil, err
+		if err := r.Scan(&id, &a.grade, &at); err != nil {
+			return err
 		}
 		a.at = unixMillis(at)
 		out[id] = a
-	}
-	return out, rows.Err()
+		return nil
+	}, projectID)
+	return out, err
 }
 
 // Queue returns the disagreement queue, most severe first: pairs whose current grades

@@ -69,25 +69,16 @@ const exportPairsSQL = `SELECT p.id, q.external_id, d.external_id, p.gold_grade 
 // handing them to fn one at a time. The *ExportPair and its slices are reused: fn must copy
 // what it keeps.
 func (s *Store) ExportPairs(ctx context.Context, projectID int64, scan ExportScan, fn func(*ExportPair) error) error {
-	rows, err := s.r.QueryContext(ctx, exportPairsSQL, projectID, scan.Features)
-	if err != nil {
-		return err
-	}
-	defer rows.Close()
 	var p ExportPair
 	var ds int
-	for rows.Next() {
+	return eachRow(ctx, s.r, exportPairsSQL, func(r rowScanner) error {
 		var adj sql.NullInt64
 		var packed sql.NullString
-		if err := rows.Scan(&p.PairID, &p.QueryID, &p.DocID, &p.Labels.Gold, &adj, &packed, &p.blob); err != nil {
+		if err := r.Scan(&p.PairID, &p.QueryID, &p.DocID, &p.Labels.Gold, &adj, &packed, &p.blob); err != nil {
 			return err
 		}
 		l := &p.Labels
-		l.Adjudicated, l.DawidSkene = nil, nil
-		if adj.Valid {
-			g := int(adj.Int64)
-			l.Adjudicated = &g
-		}
+		l.Adjudicated, l.DawidSkene = gradeOf(adj), nil
 		if g, ok := scan.DawidSkene[p.PairID]; ok {
 			ds = g
 			l.DawidSkene = &ds
@@ -95,11 +86,8 @@ func (s *Store) ExportPairs(ctx context.Context, projectID int64, scan ExportSca
 		if err := unpackJudgments(&p, packed.String); err != nil {
 			return err
 		}
-		if err := fn(&p); err != nil {
-			return err
-		}
-	}
-	return rows.Err()
+		return fn(&p)
+	}, projectID, scan.Features)
 }
 
 func unpackJudgments(p *ExportPair, packed string) error {
@@ -136,22 +124,9 @@ func unpackJudgments(p *ExportPair, packed string) error {
 // set a split divides. It does not depend on a label policy, so a query stays in the same
 // part of a split whatever filters an export uses.
 func (s *Store) ExportQueryIDs(ctx context.Context, projectID int64) ([]string, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT q.external_id FROM queries q
+	return queryAll(ctx, s.r, `SELECT q.external_id FROM queries q
 		WHERE q.project_id = ? AND EXISTS (SELECT 1 FROM pairs p WHERE p.query_id = q.id)
-		ORDER BY q.external_id`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []string
-	for rows.Next() {
-		var q string
-		if err := rows.Scan(&q); err != nil {
-			return nil, err
-		}
-		out = append(out, q)
-	}
-	return out, rows.Err()
+		ORDER BY q.external_id`, scanValue[string], projectID)
 }
 
 // DawidSkeneGrades fits a Dawid-Skene model (agreement.DawidSkene) to the project's current

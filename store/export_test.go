@@ -7,6 +7,7 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"io"
+	"maps"
 	"os"
 	"path/filepath"
 	"slices"
@@ -135,7 +136,7 @@ func TestExportLabelPolicyFromDatabase(t *testing.T) {
 	if len(rows) != 14 {
 		t.Errorf("%d rows exported, want 18 pairs - 4 left out = 14", len(rows))
 	}
-	if want := map[string]int{"disagreement": 1, "too few judgments": 1, "flagged": 1, "gold pair": 1}; !mapsEqual(m.Excluded, want) {
+	if want := map[string]int{"disagreement": 1, "too few judgments": 1, "flagged": 1, "gold pair": 1}; !maps.Equal(m.Excluded, want) {
 		t.Errorf("manifest excluded %v, want %v", m.Excluded, want)
 	}
 	// The manifest's counts are those of the file.
@@ -145,7 +146,7 @@ func TestExportLabelPolicyFromDatabase(t *testing.T) {
 		grades[r[0]]++
 		queries[strings.Fields(key)[0]] = true
 	}
-	if m.Rows != len(rows) || m.Queries != len(queries) || !mapsEqual(m.Grades, grades) {
+	if m.Rows != len(rows) || m.Queries != len(queries) || !maps.Equal(m.Grades, grades) {
 		t.Errorf("manifest rows %d queries %d grades %v; file has %d rows, %d queries, grades %v", m.Rows, m.Queries, m.Grades, len(rows), len(queries), grades)
 	}
 	if len(m.Files) != 1 || m.Files[0].Name != "pairs.csv" || m.Files[0].Rows != len(rows) {
@@ -178,18 +179,6 @@ func TestExportLabelPolicyFromDatabase(t *testing.T) {
 	if r := rows["q1 q1-d3"]; r[0] != "2" {
 		t.Errorf("with one judgment enough, q1-d3 = %v, want 2", r)
 	}
-}
-
-func mapsEqual(a, b map[string]int) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for k, v := range a {
-		if b[k] != v {
-			return false
-		}
-	}
-	return true
 }
 
 // splitFiles reads each .svm file of an export into its qids, by file.
@@ -368,26 +357,14 @@ func TestExportSameSeedSameSplit(t *testing.T) {
 		return out
 	}
 	a, b := splitOf(11), splitOf(11)
-	if len(a) != 6 || !mapsEqualS(a, b) {
+	if len(a) != 6 || !maps.Equal(a, b) {
 		t.Errorf("seed 11 twice: %v and %v", a, b)
 	}
 	moved := false
 	for seed := uint64(12); seed < 20 && !moved; seed++ {
-		moved = !mapsEqualS(a, splitOf(seed))
+		moved = !maps.Equal(a, splitOf(seed))
 	}
 	if !moved {
 		t.Error("eight other seeds all gave the split of seed 11: the seed is not used")
 	}
-}
-
-func mapsEqualS(a, b map[string]string) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for k, v := range a {
-		if b[k] != v {
-			return false
-		}
-	}
-	return true
 }

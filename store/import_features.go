@@ -24,6 +24,10 @@ func (im *importer) features(f ImportFile, format ingest.Format) error {
 	im.counter("features")
 	var remap []uint32 // CSV column i+1 -> project feature index
 	var names []string
+	fields := tableIDs
+	if format == ingest.SVMlight {
+		fields = svmlightIDs
+	}
 	return pipe(im.done, func(emit func(ingest.FeatureRow) error) error {
 		return ingest.ReadFeatures(f.R, format, im.options(f.Name), emit)
 	}, func(row ingest.FeatureRow) error {
@@ -34,7 +38,7 @@ func (im *importer) features(f ImportFile, format ingest.Format) error {
 			}
 			names = row.Names
 		}
-		qid, did, err := im.lookupFeature(f.Name, row.Line, format, row.QueryID, row.DocID)
+		qid, did, err := im.lookup(f.Name, row.Line, fields, row.QueryID, row.DocID)
 		if err != nil || qid == 0 || did == 0 {
 			return err
 		}
@@ -67,14 +71,9 @@ func (im *importer) storeFeatures(pairID int64, data []byte) error {
 		return err
 	}
 	var old []byte
-	if err := fs.QueryRowContext(im.ctx, pairID).Scan(&old); err == nil {
-		if bytes.Equal(old, data) {
-			c.Unchanged++
-			return nil
-		}
-		c.Updated++
-	} else {
-		c.New++
+	had := fs.QueryRowContext(im.ctx, pairID).Scan(&old) == nil
+	if !c.tally(had, bytes.Equal(old, data)) {
+		return nil
 	}
 	us, err := im.stmt(upsertFeatures)
 	if err != nil {
@@ -88,24 +87,19 @@ func (im *importer) storeFeatures(pairID int64, data []byte) error {
 // adding the names the project does not know yet.
 func (im *importer) featureIndexes(names []string) ([]uint32, error) {
 	c := im.counter("feature names")
-	rows, err := im.tx.QueryContext(im.ctx, featureNames, im.project)
-	if err != nil {
-		return nil, err
-	}
 	known := map[string]uint32{}
 	var top uint32
-	for rows.Next() {
+	err := eachRow(im.ctx, im.tx, featureNames, func(r rowScanner) error {
 		var idx uint32
 		var name string
-		if err := rows.Scan(&idx, &name); err != nil {
-			rows.Close()
-			return nil, err
+		if err := r.Scan(&idx, &name); err != nil {
+			return err
 		}
 		known[name] = idx
 		top = max(top, idx)
-	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
+		return nil
+	}, im.project)
+	if err != nil {
 		return nil, err
 	}
 	out := make([]uint32, len(names))
@@ -124,25 +118,4 @@ func (im *importer) featureIndexes(names []string) ([]uint32, error) {
 		c.New++
 	}
 	return out, nil
-}
-
-func (im *importer) lookupFeature(file string, line int, format ingest.Format, query, doc string) (int64, int64, error) {
-	if format == ingest.SVMlight {
-		qid, err := im.find(im.queryIDs, findQuery, query)
-		if err != nil {
-			return 0, 0, err
-		}
-		if qid == 0 {
-			im.ps.add(file, line, column(2, "qid"), "no query "+quoteID(query)+" in this project: import queries first")
-		}
-		did, err := im.find(im.docIDs, findDocument, doc)
-		if err != nil {
-			return 0, 0, err
-		}
-		if did == 0 {
-			im.ps.add(file, line, "comment (doc id)", "no document "+quoteID(doc)+" in this project: import documents first")
-		}
-		return qid, did, nil
-	}
-	return im.lookup(file, line, query, doc)
 }

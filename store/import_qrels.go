@@ -58,7 +58,7 @@ func (im *importer) qrels(f ImportFile) error {
 	return pipe(im.done, func(emit func(ingest.Qrel) error) error {
 		return ingest.ReadQrels(f.R, im.options(f.Name), emit)
 	}, func(q ingest.Qrel) error {
-		qid, did, err := im.lookupRun(f.Name, q.Line, q.QueryID, q.DocID)
+		qid, did, err := im.lookup(f.Name, q.Line, runIDs, q.QueryID, q.DocID)
 		if err != nil || qid == 0 || did == 0 || im.ps.failed() {
 			return err
 		}
@@ -80,17 +80,8 @@ func (im *importer) qrels(f ImportFile) error {
 		if err := im.sourceJudgment(jc, pairID, source, q.Grade); err != nil {
 			return err
 		}
-		if gc == nil {
+		if gc == nil || !gc.tally(gold.Valid, int(gold.Int64) == q.Grade) {
 			return nil
-		}
-		switch {
-		case !gold.Valid:
-			gc.New++
-		case int(gold.Int64) == q.Grade:
-			gc.Unchanged++
-			return nil
-		default:
-			gc.Updated++
 		}
 		st, err := im.stmt(setGold)
 		if err != nil {
@@ -109,16 +100,14 @@ func (im *importer) sourceJudgment(c *ImportCount, pairID, source int64, grade i
 	var prev int64
 	var old sql.NullInt64
 	err = fs.QueryRowContext(im.ctx, pairID, source).Scan(&prev, &old)
-	switch {
-	case errors.Is(err, sql.ErrNoRows):
-		c.New++
-	case err != nil:
+	if err != nil && !errors.Is(err, sql.ErrNoRows) {
 		return err
-	case old.Valid && int(old.Int64) == grade:
-		c.Unchanged++
+	}
+	had := err == nil
+	if !c.tally(had, old.Valid && int(old.Int64) == grade) {
 		return nil
-	default:
-		c.Updated++
+	}
+	if had {
 		rs, err := im.stmt(retireJudgment)
 		if err != nil {
 			return err
@@ -133,23 +122,4 @@ func (im *importer) sourceJudgment(c *ImportCount, pairID, source int64, grade i
 	}
 	_, err = is.ExecContext(im.ctx, pairID, source, grade, nullID(prev), im.at)
 	return err
-}
-
-// lookupRun is lookup for whitespace-separated files, whose fields are columns.
-func (im *importer) lookupRun(file string, line int, query, doc string) (int64, int64, error) {
-	qid, err := im.find(im.queryIDs, findQuery, query)
-	if err != nil {
-		return 0, 0, err
-	}
-	if qid == 0 {
-		im.ps.add(file, line, column(1, "query id"), "no query "+quoteID(query)+" in this project: import queries first")
-	}
-	did, err := im.find(im.docIDs, findDocument, doc)
-	if err != nil {
-		return 0, 0, err
-	}
-	if did == 0 {
-		im.ps.add(file, line, column(3, "doc id"), "no document "+quoteID(doc)+" in this project: import documents first")
-	}
-	return qid, did, nil
 }

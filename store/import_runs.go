@@ -118,16 +118,11 @@ func (im *importer) poolPair(qid, did int64, pp ingest.PoolPair) error {
 		}
 		var old int
 		err = fs.QueryRowContext(im.ctx, pairID, rr.Run).Scan(&old)
-		switch {
-		case errors.Is(err, sql.ErrNoRows):
-			c.New++
-		case err != nil:
+		if err != nil && !errors.Is(err, sql.ErrNoRows) {
 			return err
-		case old == rr.Rank:
-			c.Unchanged++
+		}
+		if !c.tally(err == nil, old == rr.Rank) {
 			continue
-		default:
-			c.Updated++
 		}
 		us, err := im.stmt(upsertSource)
 		if err != nil {

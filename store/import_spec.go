@@ -58,6 +58,21 @@ type ImportCount struct {
 	New, Updated, Unchanged int
 }
 
+// tally counts one row by what the project held before: nothing (new), the same (unchanged)
+// or something else (updated), and says whether the row must be written.
+func (c *ImportCount) tally(had, same bool) bool {
+	switch {
+	case !had:
+		c.New++
+	case same:
+		c.Unchanged++
+		return false
+	default:
+		c.Updated++
+	}
+	return true
+}
+
 // ImportReport describes what an import did or, in a dry run, would do.
 type ImportReport struct {
 	Kind   ImportKind

@@ -14,16 +14,7 @@ import (
 // importProject makes an empty project with the default 0-4 scale and returns it with its lead.
 func importProject(t *testing.T, s *Store) (Project, User) {
 	t.Helper()
-	ctx := context.Background()
-	lead, err := s.CreateUser(ctx, "lead", "", RoleLead, "long enough password")
-	if err != nil {
-		t.Fatal(err)
-	}
-	p, err := s.CreateProject(ctx, NewProject{Name: "imports"}, lead.ID)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return p, lead
+	return leadProject(t, s, NewProject{Name: "imports"})
 }
 
 func files(nameContent ...string) []ImportFile {

@@ -146,7 +146,7 @@ func (im *importer) pairs(f ImportFile, format ingest.Format) error {
 	return pipe(im.done, func(emit func(ingest.Pair) error) error {
 		return ingest.ReadPairs(f.R, format, im.options(f.Name), emit)
 	}, func(p ingest.Pair) error {
-		qid, did, err := im.lookup(f.Name, p.Line, p.QueryID, p.DocID)
+		qid, did, err := im.lookup(f.Name, p.Line, tableIDs, p.QueryID, p.DocID)
 		if err != nil || qid == 0 || did == 0 || im.ps.failed() {
 			return err
 		}
@@ -154,22 +154,31 @@ func (im *importer) pairs(f ImportFile, format ingest.Format) error {
 	})
 }
 
+// idFields name where a file keeps the query and document ids, for its problems.
+type idFields struct{ query, doc string }
+
+var (
+	tableIDs    = idFields{"query_id", "doc_id"}                       // CSV and TSV headers
+	runIDs      = idFields{column(1, "query id"), column(3, "doc id")} // qrels columns
+	svmlightIDs = idFields{column(2, "qid"), "comment (doc id)"}       // SVMlight's qid: and # comment
+)
+
 // lookup finds the ids of a query and a document by external id, reporting a missing one
-// as a problem at file:line (ids 0).
-func (im *importer) lookup(file string, line int, query, doc string) (int64, int64, error) {
+// as a problem at file:line in the field named by at (ids 0).
+func (im *importer) lookup(file string, line int, at idFields, query, doc string) (int64, int64, error) {
 	qid, err := im.find(im.queryIDs, findQuery, query)
 	if err != nil {
 		return 0, 0, err
 	}
 	if qid == 0 {
-		im.ps.add(file, line, "query_id", "no query "+quoteID(query)+" in this project: import queries first")
+		im.ps.add(file, line, at.query, "no query "+quoteID(query)+" in this project: import queries first")
 	}
 	did, err := im.find(im.docIDs, findDocument, doc)
 	if err != nil {
 		return 0, 0, err
 	}
 	if did == 0 {
-		im.ps.add(file, line, "doc_id", "no document "+quoteID(doc)+" in this project: import documents first")
+		im.ps.add(file, line, at.doc, "no document "+quoteID(doc)+" in this project: import documents first")
 	}
 	return qid, did, nil
 }

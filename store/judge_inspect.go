@@ -12,21 +12,8 @@ import (
 // superseded and withdrawn ones included, so a caller can see what an undo or a change kept.
 func (s *Store) PairJudgments(ctx context.Context, pairID int64) ([]Judgment, error) {
 	// One assessor's rows come from JudgmentHistory, the one reader of judgment rows.
-	rows, err := s.r.QueryContext(ctx, `SELECT DISTINCT user_id FROM judgments WHERE pair_id = ?`, pairID)
+	users, err := queryAll(ctx, s.r, `SELECT DISTINCT user_id FROM judgments WHERE pair_id = ?`, scanValue[int64], pairID)
 	if err != nil {
-		return nil, err
-	}
-	var users []int64
-	for rows.Next() {
-		var u int64
-		if err := rows.Scan(&u); err != nil {
-			rows.Close()
-			return nil, err
-		}
-		users = append(users, u)
-	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
 		return nil, err
 	}
 	var out []Judgment

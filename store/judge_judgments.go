@@ -171,12 +171,7 @@ func (s *Store) Undo(ctx context.Context, projectID, userID int64) (Judgment, er
 		if adjudicated {
 			return errorf(CodeConflict, "a lead has settled this pair's grade: your judgment can no longer be undone")
 		}
-		j.UserID = userID
-		if grade.Valid {
-			g := int(grade.Int64)
-			j.Grade = &g
-		}
-		j.CreatedAt = parseTime(at)
+		j.UserID, j.Grade, j.CreatedAt = userID, gradeOf(grade), parseTime(at)
 		t := s.clock()
 		if _, err := s.txExec(ctx, tx, `UPDATE judgments SET current = 0, withdrawn_at = ? WHERE id = ?`, timeText(t), j.ID); err != nil {
 			return err
@@ -244,28 +239,15 @@ func (s *Store) insertJudgmentOver(ctx context.Context, tx *sql.Tx, sub Submissi
 // JudgmentHistory returns every judgment one user made of one pair, oldest first. It never
 // returns another user's judgments.
 func (s *Store) JudgmentHistory(ctx context.Context, pairID, userID int64) ([]Judgment, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT id, pair_id, user_id, grade, COALESCE(cannot_judge, ''), note, time_spent_ms,
+	return queryAll(ctx, s.r, `SELECT id, pair_id, user_id, grade, COALESCE(cannot_judge, ''), note, time_spent_ms,
 			COALESCE(supersedes, 0), current, withdrawn_at IS NOT NULL, created_at
-		FROM judgments WHERE pair_id = ? AND user_id = ? ORDER BY id`, pairID, userID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []Judgment
-	for rows.Next() {
+		FROM judgments WHERE pair_id = ? AND user_id = ? ORDER BY id`, func(r rowScanner) (Judgment, error) {
 		var j Judgment
 		var grade sql.NullInt64
 		var at string
-		if err := rows.Scan(&j.ID, &j.PairID, &j.UserID, &grade, &j.CannotJudge, &j.Note, &j.TimeSpentMs,
-			&j.Supersedes, &j.Current, &j.Withdrawn, &at); err != nil {
-			return nil, err
-		}
-		if grade.Valid {
-			g := int(grade.Int64)
-			j.Grade = &g
-		}
-		j.CreatedAt = parseTime(at)
-		out = append(out, j)
-	}
-	return out, rows.Err()
+		err := r.Scan(&j.ID, &j.PairID, &j.UserID, &grade, &j.CannotJudge, &j.Note, &j.TimeSpentMs,
+			&j.Supersedes, &j.Current, &j.Withdrawn, &at)
+		j.Grade, j.CreatedAt = gradeOf(grade), parseTime(at)
+		return j, err
+	}, pairID, userID)
 }

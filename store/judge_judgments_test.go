@@ -25,6 +25,24 @@ func checkQueryProgress(t *testing.T, s *Store) {
 	}
 }
 
+// checkJudgingProgress compares the cached judging progress (JudgingProgress) with a fresh
+// count (ProjectProgress) after step.
+func checkJudgingProgress(t *testing.T, s *Store, projectID int64, step string) {
+	t.Helper()
+	ctx := context.Background()
+	j, n, err := s.JudgingProgress(ctx, projectID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	full, err := s.ProjectProgress(ctx, projectID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if j != full.Judgments || n != full.Needed {
+		t.Errorf("%s: cached progress %d of %d, fresh count %d of %d", step, j, n, full.Judgments, full.Needed)
+	}
+}
+
 func TestQueryProgressFollowsEveryChange(t *testing.T) {
 	s := openTest(t)
 	ctx := context.Background()
@@ -53,17 +71,7 @@ func TestQueryProgressFollowsEveryChange(t *testing.T) {
 		}
 		checkQueryProgress(t, s)
 	}
-	judged, needed, err := s.JudgingProgress(ctx, p.ID)
-	if err != nil {
-		t.Fatal(err)
-	}
-	full, err := s.ProjectProgress(ctx, p.ID)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if judged != full.Judgments || needed != full.Needed {
-		t.Errorf("JudgingProgress = %d of %d, ProjectProgress = %d of %d", judged, needed, full.Judgments, full.Needed)
-	}
+	checkJudgingProgress(t, s, p.ID, "after the pairs changed")
 }
 
 // judgeAll lets one assessor take and grade pairs until none is left, returning the pairs in
@@ -135,22 +143,14 @@ func TestLeastCoveredQueryAndPriorityComeFirst(t *testing.T) {
 	if _, err := s.Submit(ctx, Submission{PairID: pairs[0], UserID: users[0], Grade: grade(2)}); err != nil {
 		t.Fatal(err)
 	}
-	v, err := s.NextPair(ctx, p.ID, users[1])
-	if err != nil {
-		t.Fatal(err)
-	}
-	if v.Query.ExternalID != "B" {
+	if v := nextPair(t, s, p.ID, users[1]); v.Query.ExternalID != "B" {
 		t.Errorf("new batch started on query %s, want the least-covered B", v.Query.ExternalID)
 	}
 	// A priority on a pair of C moves C (and that pair) ahead of everything.
 	if _, err := s.w.ExecContext(ctx, `UPDATE pairs SET priority = 5 WHERE id = ?`, pairs[5]); err != nil {
 		t.Fatal(err)
 	}
-	v, err = s.NextPair(ctx, p.ID, users[2])
-	if err != nil {
-		t.Fatal(err)
-	}
-	if v.PairID != pairs[5] {
+	if v := nextPair(t, s, p.ID, users[2]); v.PairID != pairs[5] {
 		t.Errorf("assessor got pair %d, want the prioritised pair %d", v.PairID, pairs[5])
 	}
 }
@@ -159,17 +159,11 @@ func TestUndoWithdrawsAndReturnsThePair(t *testing.T) {
 	s := openTest(t)
 	ctx := context.Background()
 	p, lead, pairs, users := fixture(t, s, 1, 3, 2)
-	first, err := s.NextPair(ctx, p.ID, users[0])
-	if err != nil {
-		t.Fatal(err)
-	}
+	first := nextPair(t, s, p.ID, users[0])
 	if _, err := s.Submit(ctx, Submission{PairID: first.PairID, UserID: users[0], Grade: grade(3)}); err != nil {
 		t.Fatal(err)
 	}
-	second, err := s.NextPair(ctx, p.ID, users[0]) // on screen when the assessor presses undo
-	if err != nil {
-		t.Fatal(err)
-	}
+	second := nextPair(t, s, p.ID, users[0]) // on screen when the assessor presses undo
 	j, err := s.Undo(ctx, p.ID, users[0])
 	if err != nil {
 		t.Fatal(err)
@@ -355,22 +349,13 @@ func checkPlans(t *testing.T, s *Store) {
 // picks out of 39 landing on fewer than 5 distinct queries has a probability below 1e-6.
 func TestNewBatchesSpreadOverEquallyRankedQueries(t *testing.T) {
 	s := openTest(t)
-	ctx := context.Background()
 	p, _, _, users := fixture(t, s, 40, 3, 11)
-	first, err := s.NextPair(ctx, p.ID, users[0])
-	if err != nil {
-		t.Fatal(err)
-	}
-	if first.Query.ExternalID != "A" {
+	if first := nextPair(t, s, p.ID, users[0]); first.Query.ExternalID != "A" {
 		t.Errorf("the first batch started on %s, want A", first.Query.ExternalID)
 	}
 	seen := map[int64]bool{}
 	for _, u := range users[1:] {
-		v, err := s.NextPair(ctx, p.ID, u)
-		if err != nil {
-			t.Fatal(err)
-		}
-		seen[v.Query.ID] = true
+		seen[nextPair(t, s, p.ID, u).Query.ID] = true
 	}
 	if len(seen) < 5 {
 		t.Errorf("10 assessors started on %d distinct queries, want them spread", len(seen))

@@ -21,37 +21,24 @@ func (s *Store) JudgmentsByAssessor(ctx context.Context, projectID, userID int64
 	if limit <= 0 || limit > 500 {
 		limit = 50
 	}
-	rows, err := s.r.QueryContext(ctx, `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
+	return queryAll(ctx, s.r, `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
 			COALESCE(j.supersedes, 0), j.created_at, q.text, d.title,
 			pr.allow_changes AND NOT EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1)
 		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id
 			JOIN documents d ON d.id = p.document_id JOIN projects pr ON pr.id = p.project_id
 		WHERE j.user_id = ?2 AND +p.project_id = ?1 AND j.current = 1
-		ORDER BY j.id DESC LIMIT ?3`, projectID, userID, limit)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []MyJudgment
-	for rows.Next() {
+		ORDER BY j.id DESC LIMIT ?3`, func(r rowScanner) (MyJudgment, error) {
 		var m MyJudgment
 		var grade sql.NullInt64
 		var at string
-		if err := rows.Scan(&m.ID, &m.PairID, &grade, &m.CannotJudge, &m.Note, &m.TimeSpentMs, &m.Supersedes, &at,
-			&m.QueryText, &m.DocumentTitle, &m.Changeable); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&m.ID, &m.PairID, &grade, &m.CannotJudge, &m.Note, &m.TimeSpentMs, &m.Supersedes, &at,
+			&m.QueryText, &m.DocumentTitle, &m.Changeable)
 		m.UserID = userID
 		m.Current = true
 		m.Revised = m.Supersedes != 0
-		if grade.Valid {
-			g := int(grade.Int64)
-			m.Grade = &g
-		}
-		m.CreatedAt = parseTime(at)
-		out = append(out, m)
-	}
-	return out, rows.Err()
+		m.Grade, m.CreatedAt = gradeOf(grade), parseTime(at)
+		return m, err
+	}, projectID, userID, limit)
 }
 
 // JudgmentCountsByAssessor returns how many pairs an assessor has a current judgment of in a project, and
@@ -82,22 +69,13 @@ func (s *Store) FlaggedPairs(ctx context.Context, projectID int64, limit int) ([
 	if limit <= 0 || limit > 1000 {
 		limit = 100
 	}
-	rows, err := s.r.QueryContext(ctx, `SELECT p.id, q.text, d.title, j.cannot_judge, COUNT(*)
+	return queryAll(ctx, s.r, `SELECT p.id, q.text, d.title, j.cannot_judge, COUNT(*)
 		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id JOIN documents d ON d.id = p.document_id
 		WHERE j.current = 1 AND j.cannot_judge IS NOT NULL AND p.project_id = ?1
 		GROUP BY p.id, j.cannot_judge
-		ORDER BY j.cannot_judge = 'disturbing' DESC, COUNT(*) DESC, p.id LIMIT ?2`, projectID, limit)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []FlaggedPair
-	for rows.Next() {
+		ORDER BY j.cannot_judge = 'disturbing' DESC, COUNT(*) DESC, p.id LIMIT ?2`, func(r rowScanner) (FlaggedPair, error) {
 		var f FlaggedPair
-		if err := rows.Scan(&f.PairID, &f.QueryText, &f.DocumentTitle, &f.Reason, &f.Count); err != nil {
-			return nil, err
-		}
-		out = append(out, f)
-	}
-	return out, rows.Err()
+		err := r.Scan(&f.PairID, &f.QueryText, &f.DocumentTitle, &f.Reason, &f.Count)
+		return f, err
+	}, projectID, limit)
 }

@@ -80,10 +80,7 @@ func TestSubmitAndNext(t *testing.T) {
 	s := openTest(t)
 	ctx := context.Background()
 	p, _, pairs, users := fixture(t, s, 2, 3, 3)
-	first, err := s.NextPair(ctx, p.ID, users[0])
-	if err != nil {
-		t.Fatal(err)
-	}
+	first := nextPair(t, s, p.ID, users[0])
 	turn, err := s.SubmitAndNext(ctx, p.ID, Submission{PairID: first.PairID, UserID: users[0], Grade: grade(3)})
 	if err != nil {
 		t.Fatal(err)
@@ -135,13 +132,7 @@ func TestSubmitAndNext(t *testing.T) {
 			t.Errorf("progress %d, want 4", j)
 		}
 	}
-	var full Progress
-	if full, err = s.ProjectProgress(ctx, p.ID); err != nil {
-		t.Fatal(err)
-	}
-	if j, n, _ := s.JudgingProgress(ctx, p.ID); j != full.Judgments || n != full.Needed {
-		t.Errorf("cached progress %d of %d, fresh count %d of %d", j, n, full.Judgments, full.Needed)
-	}
+	checkJudgingProgress(t, s, p.ID, "after a refused turn")
 
 	// A pair of another project: not found, nothing written, no lease taken.
 	other, err := s.CreateProject(ctx, NewProject{Name: "other", JudgmentsPerPair: 1}, 0)
@@ -169,17 +160,7 @@ func TestJudgingProgressCacheFollowsOtherWrites(t *testing.T) {
 	p, _, pairs, users := fixture(t, s, 2, 3, 2)
 	check := func(step string) {
 		t.Helper()
-		j, n, err := s.JudgingProgress(ctx, p.ID)
-		if err != nil {
-			t.Fatal(err)
-		}
-		full, err := s.ProjectProgress(ctx, p.ID)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if j != full.Judgments || n != full.Needed {
-			t.Errorf("%s: cached %d of %d, fresh %d of %d", step, j, n, full.Judgments, full.Needed)
-		}
+		checkJudgingProgress(t, s, p.ID, step)
 	}
 	check("empty")
 	v, _ := s.NextPair(ctx, p.ID, users[0])

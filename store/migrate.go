@@ -55,19 +55,13 @@ func (s *Store) Migrate(ctx context.Context) error {
 		return fmt.Errorf("store: migrate: %w", err)
 	}
 	applied := map[int]bool{}
-	rows, err := s.w.QueryContext(ctx, `SELECT version FROM schema_migrations`)
+	versions, err := queryAll(ctx, s.w, `SELECT version FROM schema_migrations`, scanValue[int])
 	if err != nil {
 		return fmt.Errorf("store: migrate: %w", err)
 	}
-	for rows.Next() {
-		var v int
-		if err := rows.Scan(&v); err != nil {
-			rows.Close()
-			return err
-		}
+	for _, v := range versions {
 		applied[v] = true
 	}
-	rows.Close()
 	all, err := Migrations()
 	if err != nil {
 		return err
@@ -103,18 +97,5 @@ func (s *Store) SchemaVersion(ctx context.Context) (int, error) {
 
 // Tables lists the user tables of the database, for checks of the schema.
 func (s *Store) Tables(ctx context.Context) ([]string, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT name FROM sqlite_schema WHERE type = 'table' AND name NOT LIKE 'sqlite_%' ORDER BY name`)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []string
-	for rows.Next() {
-		var n string
-		if err := rows.Scan(&n); err != nil {
-			return nil, err
-		}
-		out = append(out, n)
-	}
-	return out, rows.Err()
+	return queryAll(ctx, s.r, `SELECT name FROM sqlite_schema WHERE type = 'table' AND name NOT LIKE 'sqlite_%' ORDER BY name`, scanValue[string])
 }

@@ -33,14 +33,7 @@ func newPlanBench(b *testing.B) *planBench {
 		b.Fatal(err)
 	}
 	b.Cleanup(func() { s.Close() })
-	lead, err := s.CreateUser(ctx, "lead", "", RoleLead, "long enough password")
-	if err != nil {
-		b.Fatal(err)
-	}
-	p, err := s.CreateProject(ctx, NewProject{Name: "bench"}, lead.ID)
-	if err != nil {
-		b.Fatal(err)
-	}
+	p, lead := leadProject(b, s, NewProject{Name: "bench"})
 	rng := rand.New(rand.NewPCG(3, 4))
 	const queries, docs = 1000, 50
 	err = s.Load(ctx, p.ID, func(l *Loader) error {

@@ -271,20 +271,16 @@ func (s *Store) insertChoices(ctx context.Context, tx *sql.Tx, projectID, design
 
 // queryIDs returns the external ids of the project's queries.
 func (s *Store) queryIDs(ctx context.Context, projectID int64) (map[string]bool, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT external_id FROM queries WHERE project_id = ?`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
 	out := map[string]bool{}
-	for rows.Next() {
+	err := eachRow(ctx, s.r, `SELECT external_id FROM queries WHERE project_id = ?`, func(r rowScanner) error {
 		var id string
-		if err := rows.Scan(&id); err != nil {
-			return nil, err
+		if err := r.Scan(&id); err != nil {
+			return err
 		}
 		out[id] = true
-	}
-	return out, rows.Err()
+		return nil
+	}, projectID)
+	return out, err
 }
 
 // designLabels is what is known of every pair of the project for estimation: its final grade
@@ -341,22 +337,10 @@ func (s *Store) designLabels(ctx context.Context, projectID int64, policy export
 
 // Designs lists a project's judging designs, newest first.
 func (s *Store) Designs(ctx context.Context, projectID int64) ([]Design, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT d.id, d.settings, d.runs, d.created_at, COALESCE(u.username, ''),
+	out, err := queryAll(ctx, s.r, `SELECT d.id, d.settings, d.runs, d.created_at, COALESCE(u.username, ''),
 		(SELECT COUNT(*) FROM pair_choices c WHERE c.design_id = d.id)
-		FROM designs d LEFT JOIN users u ON u.id = d.user_id WHERE d.project_id = ? ORDER BY d.id DESC`, projectID)
+		FROM designs d LEFT JOIN users u ON u.id = d.user_id WHERE d.project_id = ? ORDER BY d.id DESC`, scanDesign, projectID)
 	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []Design
-	for rows.Next() {
-		d, err := scanDesign(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, d)
-	}
-	if err := rows.Err(); err != nil {
 		return nil, err
 	}
 	for i := range out {
@@ -680,21 +664,8 @@ func ScoreTableOf(rep estimate.Report, metric string) estimate.ScoreTable {
 // running low, and returns how many pairs were added. The judging screen calls it when an
 // assessor finds no work, so that adaptive designs never leave people idle.
 func (s *Store) AdvanceDesigns(ctx context.Context, projectID int64) (int, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT id FROM designs WHERE project_id = ? AND kind IN ('decide', 'find') ORDER BY id`, projectID)
+	ids, err := queryAll(ctx, s.r, `SELECT id FROM designs WHERE project_id = ? AND kind IN ('decide', 'find') ORDER BY id`, scanValue[int64], projectID)
 	if err != nil {
-		return 0, err
-	}
-	var ids []int64
-	for rows.Next() {
-		var id int64
-		if err := rows.Scan(&id); err != nil {
-			rows.Close()
-			return 0, err
-		}
-		ids = append(ids, id)
-	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
 		return 0, err
 	}
 	total := 0

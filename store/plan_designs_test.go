@@ -29,13 +29,7 @@ func newPlanFixture(t *testing.T) *planFixture {
 	s := openTest(t)
 	ctx := context.Background()
 	f := &planFixture{s: s, truth: map[string]map[string]int{}}
-	var err error
-	if f.lead, err = s.CreateUser(ctx, "lead", "", RoleLead, "long enough password"); err != nil {
-		t.Fatal(err)
-	}
-	if f.project, err = s.CreateProject(ctx, NewProject{Name: "sampled", JudgmentsPerPair: 1}, f.lead.ID); err != nil {
-		t.Fatal(err)
-	}
+	f.project, f.lead = leadProject(t, s, NewProject{Name: "sampled", JudgmentsPerPair: 1})
 	a, err := s.CreateUser(ctx, "asa", "", RoleAssessor, "long enough password")
 	if err != nil {
 		t.Fatal(err)

@@ -125,11 +125,7 @@ func (s *Store) Evaluate(ctx context.Context, projectID int64, req EvalRequest, 
 			return nil
 		})
 		if err != nil {
-			var ps *ingest.Problems
-			if errors.As(err, &ps) {
-				return Evaluation{}, errorf(CodeInvalid, ps.Error())
-			}
-			return Evaluation{}, err
+			return Evaluation{}, runProblems(err)
 		}
 		sum, err := rankeval.Evaluate(qrels, run, opts)
 		if err != nil {
@@ -206,22 +202,13 @@ type EvaluationListing struct {
 
 // Evaluations lists a project's most recent evaluations, newest first.
 func (s *Store) Evaluations(ctx context.Context, projectID int64, limit int) ([]EvaluationListing, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT e.id, e.created_at, e.runs, COALESCE(u.username, '')
+	return queryAll(ctx, s.r, `SELECT e.id, e.created_at, e.runs, COALESCE(u.username, '')
 		FROM evaluations e LEFT JOIN users u ON u.id = e.user_id
-		WHERE e.project_id = ? ORDER BY e.id DESC LIMIT ?`, projectID, limit)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []EvaluationListing
-	for rows.Next() {
+		WHERE e.project_id = ? ORDER BY e.id DESC LIMIT ?`, func(r rowScanner) (EvaluationListing, error) {
 		var l EvaluationListing
 		var at string
-		if err := rows.Scan(&l.ID, &at, &l.Runs, &l.By); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&l.ID, &at, &l.Runs, &l.By)
 		l.CreatedAt = parseTime(at)
-		out = append(out, l)
-	}
-	return out, rows.Err()
+		return l, err
+	}, projectID, limit)
 }

@@ -27,6 +27,16 @@ type KeptRun struct {
 	By        string    `json:"by,omitempty"`
 }
 
+// runProblems turns the problems ingest.ReadRun found in a run file into one Invalid a page
+// shows; any other error is passed on as it is.
+func runProblems(err error) error {
+	var ps *ingest.Problems
+	if errors.As(err, &ps) {
+		return errorf(CodeInvalid, ps.Error())
+	}
+	return err
+}
+
 // KeepRun reads a run file, checks it line by line, and keeps it (compressed) under name. A run
 // of the same name and the same entries is kept once: the existing one is returned. A file
 // holds one run: a second run tag is a problem at its line.
@@ -54,11 +64,7 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 		return nil
 	})
 	if err != nil {
-		var ps *ingest.Problems
-		if errors.As(err, &ps) {
-			return KeptRun{}, errorf(CodeInvalid, ps.Error())
-		}
-		return KeptRun{}, err
+		return KeptRun{}, runProblems(err)
 	}
 	if entries == 0 {
 		return KeptRun{}, errorf(CodeInvalid, name+": the run has no entries")
@@ -119,23 +125,14 @@ func gunzip(b []byte) ([]byte, error) {
 
 // KeptRuns lists a project's kept runs by name.
 func (s *Store) KeptRuns(ctx context.Context, projectID int64) ([]KeptRun, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT r.id, r.name, r.entries, r.queries, r.created_at, COALESCE(u.username, '')
-		FROM runs r LEFT JOIN users u ON u.id = r.user_id WHERE r.project_id = ? ORDER BY r.name`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []KeptRun
-	for rows.Next() {
+	return queryAll(ctx, s.r, `SELECT r.id, r.name, r.entries, r.queries, r.created_at, COALESCE(u.username, '')
+		FROM runs r LEFT JOIN users u ON u.id = r.user_id WHERE r.project_id = ? ORDER BY r.name`, func(r rowScanner) (KeptRun, error) {
 		var kr KeptRun
 		var at string
-		if err := rows.Scan(&kr.ID, &kr.Name, &kr.Entries, &kr.Queries, &at, &kr.By); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&kr.ID, &kr.Name, &kr.Entries, &kr.Queries, &at, &kr.By)
 		kr.CreatedAt = parseTime(at)
-		out = append(out, kr)
-	}
-	return out, rows.Err()
+		return kr, err
+	}, projectID)
 }
 
 // runCache keeps parsed runs by id: a kept run never changes, and parsing a large one takes

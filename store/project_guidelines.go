@@ -39,21 +39,8 @@ func scanRevision(row interface{ Scan(...any) error }) (GuidelineRevision, error
 
 // GuidelineHistory lists every revision of a project's guidelines, newest first.
 func (s *Store) GuidelineHistory(ctx context.Context, projectID int64) ([]GuidelineRevision, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT `+revisionColumns+` FROM guideline_revisions g LEFT JOIN users u ON u.id = g.created_by
-		WHERE g.project_id = ? ORDER BY g.id DESC`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []GuidelineRevision
-	for rows.Next() {
-		g, err := scanRevision(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, g)
-	}
-	return out, rows.Err()
+	return queryAll(ctx, s.r, `SELECT `+revisionColumns+` FROM guideline_revisions g LEFT JOIN users u ON u.id = g.created_by
+		WHERE g.project_id = ? ORDER BY g.id DESC`, scanRevision, projectID)
 }
 
 // GuidelineRevision returns one revision of a project's guidelines.

@@ -17,25 +17,16 @@ type Member struct {
 
 // Members lists a project's members: leads first, then assessors, by username.
 func (s *Store) Members(ctx context.Context, projectID int64) ([]Member, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT u.id, u.username, u.display_name, u.role, u.disabled_at IS NOT NULL, m.role, m.added_at,
+	return queryAll(ctx, s.r, `SELECT u.id, u.username, u.display_name, u.role, u.disabled_at IS NOT NULL, m.role, m.added_at,
 			(SELECT COUNT(*) FROM judgments j JOIN pairs x ON x.id = j.pair_id WHERE x.project_id = m.project_id AND j.user_id = u.id AND j.current = 1)
 		FROM project_members m JOIN users u ON u.id = m.user_id
-		WHERE m.project_id = ? ORDER BY m.role = 'assessor', u.username`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []Member
-	for rows.Next() {
+		WHERE m.project_id = ? ORDER BY m.role = 'assessor', u.username`, func(r rowScanner) (Member, error) {
 		var m Member
 		var role, pRole, at string
-		if err := rows.Scan(&m.ID, &m.Username, &m.DisplayName, &role, &m.Disabled, &pRole, &at, &m.Judgments); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&m.ID, &m.Username, &m.DisplayName, &role, &m.Disabled, &pRole, &at, &m.Judgments)
 		m.Role, m.ProjectRole, m.AddedAt = Role(role), Role(pRole), parseTime(at)
-		out = append(out, m)
-	}
-	return out, rows.Err()
+		return m, err
+	}, projectID)
 }
 
 // DeleteMember takes a person out of a project. Their judgments stay; the pairs they had

@@ -161,34 +161,25 @@ type ProjectListing struct {
 
 // ProjectsByUser lists the projects a user works on; admins see every project.
 func (s *Store) ProjectsByUser(ctx context.Context, u User) ([]ProjectListing, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT p.id, p.name, p.description, p.judgments_per_pair, p.gold_rate, p.lease_seconds,
+	return queryAll(ctx, s.r, `SELECT p.id, p.name, p.description, p.judgments_per_pair, p.gold_rate, p.lease_seconds,
 			p.allow_changes, p.archived_at IS NOT NULL, COALESCE(m.role, ''),
 			(SELECT COUNT(*) FROM pairs x WHERE x.project_id = p.id),
 			(SELECT COALESCE(SUM(x.judged), 0) FROM pairs x WHERE x.project_id = p.id),
 			(SELECT COUNT(*) FROM judgments j JOIN pairs x ON x.id = j.pair_id WHERE x.project_id = p.id AND j.user_id = ?1 AND j.current = 1)
 		FROM projects p LEFT JOIN project_members m ON m.project_id = p.id AND m.user_id = ?1
 		WHERE m.user_id IS NOT NULL OR ?2
-		ORDER BY p.archived_at IS NOT NULL, p.name`, u.ID, u.Role == RoleAdmin)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []ProjectListing
-	for rows.Next() {
+		ORDER BY p.archived_at IS NOT NULL, p.name`, func(r rowScanner) (ProjectListing, error) {
 		var l ProjectListing
 		var role string
-		if err := rows.Scan(&l.ID, &l.Name, &l.Description, &l.JudgmentsPerPair, &l.GoldRate, &l.LeaseSeconds,
-			&l.AllowChanges, &l.Archived, &role, &l.Pairs, &l.Judgments, &l.MineToDate); err != nil {
-			return nil, err
-		}
+		err := r.Scan(&l.ID, &l.Name, &l.Description, &l.JudgmentsPerPair, &l.GoldRate, &l.LeaseSeconds,
+			&l.AllowChanges, &l.Archived, &role, &l.Pairs, &l.Judgments, &l.MineToDate)
 		l.Role = Role(role)
 		if l.Role == "" {
 			l.Role = RoleAdmin
 		}
 		l.Needed = l.Pairs * l.JudgmentsPerPair
-		out = append(out, l)
-	}
-	return out, rows.Err()
+		return l, err
+	}, u.ID, u.Role == RoleAdmin)
 }
 
 // Scale returns a project's grade levels in grade order.
@@ -196,34 +187,13 @@ func (s *Store) Scale(ctx context.Context, projectID int64) ([]ScaleLevel, error
 	return scaleOf(ctx, readerFunc(s.readRows), projectID)
 }
 
-// readerFunc lets the reader pool's prepared statements (readRows) serve scaleOf: the scale
-// is read on every judging request, and parsing its statement each time showed in profiles.
-type readerFunc func(ctx context.Context, q string, args ...any) (*sql.Rows, error)
-
-func (f readerFunc) QueryContext(ctx context.Context, q string, args ...any) (*sql.Rows, error) {
-	return f(ctx, q, args...)
-}
-
-// querier is what reads rows: the reader pool, a transaction, or readerFunc.
-type querier interface {
-	QueryContext(context.Context, string, ...any) (*sql.Rows, error)
-}
-
 func scaleOf(ctx context.Context, q querier, projectID int64) ([]ScaleLevel, error) {
-	rows, err := q.QueryContext(ctx, `SELECT grade, label, description FROM scale_levels WHERE project_id = ? ORDER BY grade`, projectID)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []ScaleLevel
-	for rows.Next() {
-		var l ScaleLevel
-		if err := rows.Scan(&l.Grade, &l.Label, &l.Description); err != nil {
-			return nil, err
-		}
-		out = append(out, l)
-	}
-	return out, rows.Err()
+	return queryAll(ctx, q, `SELECT grade, label, description FROM scale_levels WHERE project_id = ? ORDER BY grade`,
+		func(r rowScanner) (ScaleLevel, error) {
+			var l ScaleLevel
+			err := r.Scan(&l.Grade, &l.Label, &l.Description)
+			return l, err
+		}, projectID)
 }
 
 // Guidelines is one revision of a project's guidelines, in Markdown.

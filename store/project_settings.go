@@ -210,18 +210,5 @@ func (s *Store) PairCount(ctx context.Context, projectID int64) (int, error) {
 
 // Projects lists every project by name, for an admin's filters and lists.
 func (s *Store) Projects(ctx context.Context) ([]Project, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT `+projectColumns+` FROM projects ORDER BY name`)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	var out []Project
-	for rows.Next() {
-		p, err := scanProject(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, p)
-	}
-	return out, rows.Err()
+	return queryAll(ctx, s.r, `SELECT `+projectColumns+` FROM projects ORDER BY name`, scanProject)
 }

@@ -21,6 +21,10 @@ var sqlMethods = map[string]int{
 var storeHelpers = map[string][]int{"txRow": {2}, "txExec": {2}, "readRow": {1}, "readRows": {1},
 	"stmt": {0}, "upsertID": {4, 5}, "find": {1}}
 
+// storeFuncs are the store's plain functions that run SQL given to them (rows.go), with the
+// position of their SQL argument.
+var storeFuncs = map[string]int{"eachRow": 2, "queryAll": 2}
+
 // passThrough names the functions that only hand on SQL their callers gave them (the statement
 // caches, and the bulk importer's executor, which is given one of its tables of constant
 // multi-row statements); the callers are what is checked. "*" covers a whole file.
@@ -29,6 +33,7 @@ var passThrough = map[string]map[string]bool{
 	"import_importer.go":  {"stmt": true, "upsertID": true},
 	"import_bulk.go":      {"execCount": true},
 	"import_tables.go":    {"find": true},
+	"rows.go":             {"eachRow": true, "queryAll": true},
 }
 
 // sqlReceiver recognises the handles SQL is run on by the names this code base gives them:
@@ -128,17 +133,30 @@ func TestSQLIsNeverBuiltFromValues(t *testing.T) {
 				if !ok {
 					return true
 				}
-				sel, ok := call.Fun.(*ast.SelectorExpr)
-				if !ok {
-					return true
+				var name string
+				var positions []int
+				fun := call.Fun
+				if ix, ok := fun.(*ast.IndexExpr); ok {
+					fun = ix.X // queryAll[T](...)
 				}
-				positions, ok := storeHelpers[sel.Sel.Name]
-				if !ok {
-					i, ok := sqlMethods[sel.Sel.Name]
-					if !ok || !sqlReceiver(sel.X) {
+				switch fun := fun.(type) {
+				case *ast.Ident:
+					i, ok := storeFuncs[fun.Name]
+					if !ok {
 						return true
 					}
-					positions = []int{i}
+					name, positions = fun.Name, []int{i}
+				case *ast.SelectorExpr:
+					name = fun.Sel.Name
+					if positions, ok = storeHelpers[name]; !ok {
+						i, ok := sqlMethods[name]
+						if !ok || !sqlReceiver(fun.X) {
+							return true
+						}
+						positions = []int{i}
+					}
+				default:
+					return true
 				}
 				for _, i := range positions {
 					if len(call.Args) <= i {
@@ -147,7 +165,7 @@ func TestSQLIsNeverBuiltFromValues(t *testing.T) {
 					arg := call.Args[i]
 					checked++
 					if !constant(arg) && !trustedSQL[exprText(arg)] {
-						t.Errorf("%s: SQL passed to %s is built at run time; use a constant and parameters", fset.Position(arg.Pos()), sel.Sel.Name)
+						t.Errorf("%s: SQL passed to %s is built at run time; use a constant and parameters", fset.Position(arg.Pos()), name)
 					}
 				}
 				return true

@@ -77,19 +77,37 @@ func TestJudgmentHistoryConstraintOneCurrentPerAssessor(t *testing.T) {
 	}
 }
 
+// leadProject creates the lead account "lead" and a project it leads, made from np.
+func leadProject(tb testing.TB, s *Store, np NewProject) (Project, User) {
+	tb.Helper()
+	ctx := context.Background()
+	lead, err := s.CreateUser(ctx, "lead", "", RoleLead, "long enough password")
+	if err != nil {
+		tb.Fatal(err)
+	}
+	p, err := s.CreateProject(ctx, np, lead.ID)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	return p, lead
+}
+
+// nextPair leases the next pair to an assessor, failing the test when none comes.
+func nextPair(t *testing.T, s *Store, projectID, userID int64) PairView {
+	t.Helper()
+	v, err := s.NextPair(context.Background(), projectID, userID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return v
+}
+
 // fixture makes a project with nq queries × nd documents and na assessors, needing 2
 // judgments per pair.
 func fixture(t *testing.T, s *Store, nq, nd, na int) (Project, User, []int64, []int64) {
 	t.Helper()
 	ctx := context.Background()
-	lead, err := s.CreateUser(ctx, "lead", "", RoleLead, "long enough password")
-	if err != nil {
-		t.Fatal(err)
-	}
-	p, err := s.CreateProject(ctx, NewProject{Name: "p", JudgmentsPerPair: 2, AllowChanges: true}, lead.ID)
-	if err != nil {
-		t.Fatal(err)
-	}
+	p, lead := leadProject(t, s, NewProject{Name: "p", JudgmentsPerPair: 2, AllowChanges: true})
 	var users []int64
 	for i := 0; i < na; i++ {
 		u, err := s.CreateUser(ctx, "a"+string(rune('a'+i)), "", RoleAssessor, "long enough password")
@@ -102,7 +120,7 @@ func fixture(t *testing.T, s *Store, nq, nd, na int) (Project, User, []int64, []
 		users = append(users, u.ID)
 	}
 	var pairs []int64
-	err = s.Load(ctx, p.ID, func(l *Loader) error {
+	err := s.Load(ctx, p.ID, func(l *Loader) error {
 		for q := 0; q < nq; q++ {
 			qid, err := l.Query(Query{ExternalID: string(rune('A' + q)), Text: "query"})
 			if err != nil {
@@ -196,9 +214,7 @@ func TestExpiredLeaseReturnsPairToPool(t *testing.T) {
 	ctx := context.Background()
 	p, _, pairs, users := fixture(t, s, 1, 1, 3)
 	for _, u := range users[:2] {
-		if _, err := s.NextPair(ctx, p.ID, u); err != nil {
-			t.Fatal(err)
-		}
+		nextPair(t, s, p.ID, u)
 	}
 	if _, err := s.NextPair(ctx, p.ID, users[2]); !errors.Is(err, ErrNoWork) {
 		t.Fatalf("a pair needing 2 judgments and leased to 2 assessors went to a third: %v", err)
