@@ -8,22 +8,11 @@ import (
 	"strings"
 	"time"
 
-	"github.com/go-chi/chi/v5"
-
 	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/estimate"
 	"github.com/pertinent/pertinent/rankeval"
 	"github.com/pertinent/pertinent/store"
 )
-
-// planRoutes are the lead's "Plan judging" and "How sure are we?" pages.
-func (s *Server) planRoutes(r chi.Router) {
-	r.Get("/plan", s.planPage)
-	r.Post("/plan", s.planSubmit)
-	r.With(s.longTransfer).Post("/plan/runs", s.planKeepRuns)
-	r.Get("/plan/{design}", s.designPage)
-	r.Post("/plan/{design}/advance", s.designAdvance)
-}
 
 // planForm is the design form as typed, so a refused form comes back as it was.
 type planForm struct {

@@ -111,8 +111,12 @@ func (s *Server) routes() chi.Router {
 				r.Get("/evaluations/{evaluation}", s.evaluationPage)
 				r.Get("/evaluations/{evaluation}/per-query.csv", s.evaluationCSV)
 				r.Post("/evaluations/{evaluation}/send", s.sendUnjudged)
-				// Plan judging and "How sure are we?": planRoutes (plan.go) lists them.
-				r.Group(s.planRoutes)
+				// Plan judging and "How sure are we?" (plan.go).
+				r.Get("/plan", s.planPage)
+				r.Post("/plan", s.planSubmit)
+				r.With(s.longTransfer).Post("/plan/runs", s.planKeepRuns)
+				r.Get("/plan/{design}", s.designPage)
+				r.Post("/plan/{design}/advance", s.designAdvance)
 			})
 		})
 
