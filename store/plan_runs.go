@@ -94,25 +94,35 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 	return kr, err
 }
 
-// sameRunBody compares two kept bodies by content, not by their compressed bytes.
+// sameRunBody compares two kept bodies by content, not by their compressed bytes. It reads
+// both a block at a time: a kept run's text is many times its compressed size.
 func sameRunBody(a, b []byte) (bool, error) {
-	ua, err := gunzip(a)
+	za, err := gzip.NewReader(bytes.NewReader(a))
 	if err != nil {
 		return false, err
 	}
-	ub, err := gunzip(b)
+	zb, err := gzip.NewReader(bytes.NewReader(b))
 	if err != nil {
 		return false, err
 	}
-	return bytes.Equal(ua, ub), nil
-}
-
-func gunzip(b []byte) ([]byte, error) {
-	zr, err := gzip.NewReader(bytes.NewReader(b))
-	if err != nil {
-		return nil, err
+	ba, bb := make([]byte, 64<<10), make([]byte, 64<<10)
+	for {
+		na, erra := io.ReadFull(za, ba)
+		nb, errb := io.ReadFull(zb, bb)
+		if erra != nil && erra != io.EOF && erra != io.ErrUnexpectedEOF {
+			return false, erra
+		}
+		if errb != nil && errb != io.EOF && errb != io.ErrUnexpectedEOF {
+			return false, errb
+		}
+		if !bytes.Equal(ba[:na], bb[:nb]) {
+			return false, nil
+		}
+		if erra != nil || errb != nil {
+			// A short block ends its body; the other must end there too.
+			return erra != nil && errb != nil, nil
+		}
 	}
-	return io.ReadAll(zr)
 }
 
 // KeptRuns lists a project's kept runs by name.
