@@ -57,7 +57,7 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 		}
 		return KeptRun{}, err
 	}
-	entries, queries := len(run.docs), len(run.queries)
+	entries, queries := run.entries, len(run.queries)
 	if entries == 0 {
 		return KeptRun{}, errorf(CodeInvalid, name+": the run has no entries")
 	}
@@ -176,12 +176,12 @@ func (c *runCache) put(id int64, name string, b *runBuilder) estimate.NamedRun {
 	if r, ok := c.runs[id]; ok {
 		return r
 	}
-	if c.runs == nil || c.size+len(b.docs) > runCacheEntries {
+	if c.runs == nil || c.size+b.entries > runCacheEntries {
 		c.runs, c.size, c.ids = map[int64]estimate.NamedRun{}, 0, map[string]string{}
 	}
 	r := estimate.NamedRun{Name: name, Run: b.build(c.intern)}
 	c.runs[id] = r
-	c.size += len(b.docs)
+	c.size += b.entries
 	return r
 }
 
@@ -197,13 +197,21 @@ func (c *runCache) intern(s string) string {
 
 // runBuilder gathers a run's entries in file order, to lay them out once all are read: one
 // array for the whole run, cut per query, instead of a slice per query grown by appending
-// (up to twice the entries' size when a query's last append doubles it).
+// (up to twice the entries' size when a query's last append doubles it). The entries are
+// gathered in blocks of a fixed size, so that gathering them leaves no grown-out copies.
 type runBuilder struct {
-	docs    []rankeval.ScoredDoc
-	query   []int32 // each entry's index in queries
+	blocks  [][]builderEntry
+	entries int
 	queries []string
 	index   map[string]int32
 }
+
+type builderEntry struct {
+	doc   rankeval.ScoredDoc
+	query int32 // index in queries
+}
+
+const builderBlock = 4096
 
 func (b *runBuilder) add(e ingest.RunEntry) {
 	q, ok := b.index[e.QueryID]
@@ -215,25 +223,32 @@ func (b *runBuilder) add(e ingest.RunEntry) {
 		b.index[e.QueryID] = q
 		b.queries = append(b.queries, e.QueryID)
 	}
-	b.docs = append(b.docs, rankeval.ScoredDoc{DocID: e.DocID, Score: e.Score})
-	b.query = append(b.query, q)
+	if n := len(b.blocks); n == 0 || len(b.blocks[n-1]) == builderBlock {
+		b.blocks = append(b.blocks, make([]builderEntry, 0, builderBlock))
+	}
+	last := &b.blocks[len(b.blocks)-1]
+	*last = append(*last, builderEntry{rankeval.ScoredDoc{DocID: e.DocID, Score: e.Score}, q})
+	b.entries++
 }
 
 // build returns the run, each query's documents in file order, every id passed through intern.
 func (b *runBuilder) build(intern func(string) string) rankeval.Run {
 	start := make([]int, len(b.queries)+1)
-	for _, q := range b.query {
-		start[q+1]++
+	for _, block := range b.blocks {
+		for _, e := range block {
+			start[e.query+1]++
+		}
 	}
 	for q := range b.queries {
 		start[q+1] += start[q]
 	}
-	all := make([]rankeval.ScoredDoc, len(b.docs))
+	all := make([]rankeval.ScoredDoc, b.entries)
 	next := slices.Clone(start[:len(b.queries)])
-	for i, d := range b.docs {
-		q := b.query[i]
-		all[next[q]] = rankeval.ScoredDoc{DocID: intern(d.DocID), Score: d.Score}
-		next[q]++
+	for _, block := range b.blocks {
+		for _, e := range block {
+			all[next[e.query]] = rankeval.ScoredDoc{DocID: intern(e.doc.DocID), Score: e.doc.Score}
+			next[e.query]++
+		}
 	}
 	run := make(rankeval.Run, len(b.queries))
 	for q, qid := range b.queries {
