@@ -37,11 +37,17 @@ func (s *Store) KeepRun(ctx context.Context, projectID, by int64, name string, b
 		return KeptRun{}, errorf(CodeInvalid, "a kept run needs a name")
 	}
 	var packed bytes.Buffer
-	zw := gzip.NewWriter(&packed)
+	// The fastest level: at the default, compressing was 40% of keeping 20 runs of 100,000
+	// lines (1.9 s of 4.3), for bodies 14% smaller. Bodies compare by content, so runs kept
+	// at another level still match.
+	zw, err := gzip.NewWriterLevel(&packed, gzip.BestSpeed)
+	if err != nil {
+		return KeptRun{}, err
+	}
 	tag, tagLine := "", 0
 	// The entries read here are the run a plan made next will ask for: keep them parsed.
 	var run runBuilder
-	err := ingest.ReadRun(io.TeeReader(body, zw), ingest.Options{File: name}, func(e ingest.RunEntry) error {
+	err = ingest.ReadRun(io.TeeReader(body, zw), ingest.Options{File: name}, func(e ingest.RunEntry) error {
 		if tag == "" {
 			tag, tagLine = e.Tag, e.Line
 		} else if e.Tag != tag {
