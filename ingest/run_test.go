@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"slices"
 	"strings"
 	"testing"
 )
@@ -63,4 +64,22 @@ func TestReadQrels(t *testing.T) {
 	// A binary scale (K = 2) rejects grade 2.
 	err = ReadQrels(strings.NewReader("q1 0 d1 2\n"), Options{File: "qrels", Scale: 2}, nil)
 	wantProblems(t, err, `qrels:1: column 4 (grade): grade 2 is outside the scale 0..1`)
+}
+
+// fieldsInto must split every line as strings.Fields does, which run files were read with.
+func TestFieldsIntoSplitsAsStringsFields(t *testing.T) {
+	for _, s := range []string{
+		"", " ", "q1 Q0 d1 1 2.5 run", "  q1\tQ0\vd1\f1 2.5\r run  ",
+		"q1 Q0 d1 1 2.5", "q1 Q0 d1 1 2.5 run extra more",
+		"q1\u00a0Q0 d1 1 2.5 run", "q1\u3000Q0\u2028d1 1 2.5 run\u0085", "qé Q0 dü 1 2.5 rün",
+		"a b c d e f g h i j",
+	} {
+		var dst [6]string
+		n := fieldsInto(dst[:], s)
+		want := strings.Fields(s)
+		got := dst[:min(n, len(dst))]
+		if n != len(want) || !slices.Equal(got, want[:len(got)]) {
+			t.Errorf("fieldsInto(%q) = %d %q; strings.Fields gives %d %q", s, n, got, len(want), want)
+		}
+	}
 }
