@@ -60,8 +60,12 @@ type BradleyTerry struct {
 // draw), which keeps the model's two outcomes; "neither relevant" says nothing about order
 // and is left out.
 //
-// The interval is θ ± z·SE with SE from the inverse of the penalised negative
-// log-likelihood's Hessian at the optimum (the observed information with the prior added).
+// Scores are thus measured from the mean of the query's documents. The interval is θ ± z·SE
+// with SE from the inverse H⁻¹ of the penalised negative log-likelihood's Hessian at the
+// optimum (the observed information with the prior added), taken for the centred scores:
+// P H⁻¹ P with P = I − 11ᵀ/n. The likelihood is flat along 1, so there H has the prior's
+// curvature alone, and H⁻¹ would add the prior's variance of the mean, PriorSD²/n, to every
+// score though no judgment bears on it; P H⁻¹ P = H⁻¹ − PriorSD²/n · 11ᵀ removes exactly that.
 // docs lists documents to score even if unjudged (they get the prior's interval); documents
 // of the judgments are scored too.
 func FitBradleyTerry(query string, docs []string, judgments []Judgment, o FitOptions) (BradleyTerry, error) {
@@ -115,7 +119,7 @@ func FitBradleyTerry(query string, docs []string, judgments []Judgment, o FitOpt
 	z := math.Sqrt2 * math.Erfinv(o.Level)
 	fit.Scores = make([]Score, len(names))
 	for i, d := range names {
-		se := math.Sqrt(cov.At(i, i))
+		se := math.Sqrt(max(0, cov.At(i, i)-o.PriorSD*o.PriorSD/float64(len(names))))
 		fit.Scores[i] = Score{Document: d, Score: theta[i], SE: se, Low: theta[i] - z*se, High: theta[i] + z*se}
 	}
 	for _, p := range t.pairs {
