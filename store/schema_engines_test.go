@@ -438,3 +438,107 @@ func postgresSchema(t *testing.T, db *sql.DB) []string {
 		})
 	return out
 }
+
+// The translated triggers do what SQLite's do: the same writes, on both engines, leave the
+// same query progress, project versions and desk log, and usernames match whatever their case.
+func TestPostgresTriggersKeepWhatSQLitesKeep(t *testing.T) {
+	ctx := context.Background()
+	s := openTest(t)
+	db, err := sql.Open("pgx", pgtest.New(t))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	if err := MigratePostgres(ctx, db); err != nil {
+		t.Fatal(err)
+	}
+	// Plain SQL both engines read alike, no parameters.
+	writes := []string{
+		`INSERT INTO users(id, username, role, created_at) VALUES (1, 'ann', 'assessor', 't'), (2, 'bob', 'assessor', 't')`,
+		`INSERT INTO projects(id, name, created_at) VALUES (1, 'p', 't'), (2, 'other', 't')`,
+		`INSERT INTO project_versions(project_id, version) VALUES (2, 0)`,
+		`INSERT INTO queries(id, project_id, external_id, text) VALUES (1, 1, 'q1', 'x'), (2, 1, 'q2', 'y')`,
+		`INSERT INTO documents(id, project_id, external_id) VALUES (1, 1, 'd1'), (2, 1, 'd2'), (3, 1, 'd3')`,
+		`INSERT INTO pairs(id, project_id, query_id, document_id, priority, created_at) VALUES (1, 1, 1, 1, 0, 't')`,
+		`INSERT INTO pairs(id, project_id, query_id, document_id, priority, created_at) VALUES (2, 1, 1, 2, 5, 't')`,
+		`INSERT INTO pairs(id, project_id, query_id, document_id, gold_grade, created_at) VALUES (3, 1, 2, 3, 2, 't')`,
+		`INSERT INTO judgments(id, pair_id, user_id, grade, created_at) VALUES (1, 1, 1, 2, 't')`,
+		`UPDATE pairs SET judged = 1 WHERE id = 1`,
+		`INSERT INTO judgments(id, pair_id, user_id, grade, created_at) VALUES (2, 2, 2, 1, 't')`,
+		`UPDATE pairs SET judged = 1 WHERE id = 2`,
+		// A revision: the old judgment retires, the new one supersedes it.
+		`UPDATE judgments SET current = 0 WHERE id = 1`,
+		`INSERT INTO judgments(id, pair_id, user_id, grade, supersedes, created_at) VALUES (3, 1, 1, 3, 1, 't')`,
+		// Undone: the revision retires, the old judgment revives (kind 1); then back again.
+		`UPDATE judgments SET current = 0 WHERE id = 3`,
+		`UPDATE judgments SET current = 1 WHERE id = 1`,
+		`UPDATE judgments SET current = 0 WHERE id = 1`,
+		`UPDATE judgments SET current = 1 WHERE id = 3`,
+		`UPDATE pairs SET priority = 7 WHERE id = 1`,
+		`UPDATE pairs SET gold_grade = NULL WHERE id = 3`,
+		`UPDATE pairs SET judged = 2 WHERE id = 3`,
+		`UPDATE users SET username = 'Ann' WHERE id = 1`,
+		// An import holding its row: the per-pair triggers stand aside.
+		`INSERT INTO bulk_imports(project_id) VALUES (1)`,
+		`INSERT INTO pairs(id, project_id, query_id, document_id, priority, created_at) VALUES (4, 1, 2, 1, 9, 't')`,
+		`DELETE FROM bulk_imports`,
+		`UPDATE judgments SET grade = 4 WHERE id = 2`,
+		`DELETE FROM pairs WHERE id = 2`,
+		`DELETE FROM judgments WHERE id = 3`,
+	}
+	for _, w := range writes {
+		if _, err := s.w.ExecContext(ctx, w); err != nil {
+			t.Fatalf("SQLite: %v\n%s", err, w)
+		}
+		if _, err := db.ExecContext(ctx, w); err != nil {
+			t.Fatalf("PostgreSQL: %v\n%s", err, w)
+		}
+	}
+	reads := []string{
+		`SELECT query_id, project_id, pairs, judged, top_priority, coverage FROM query_progress ORDER BY query_id`,
+		`SELECT project_id, version FROM project_versions ORDER BY project_id`,
+		`SELECT seq, project_id, judgment_id, kind FROM desk_log ORDER BY seq`,
+		`SELECT id FROM users WHERE username = 'ANN'`,
+	}
+	for _, q := range reads {
+		lite, pg := rowsText(t, s.w, q), rowsText(t, db, q)
+		if d := lineDiff(lite, pg); d != "" || len(lite) == 0 {
+			t.Errorf("%s\nSQLite:     %v\nPostgreSQL: %v", q, lite, pg)
+		}
+	}
+	// The case-blind uniqueness of usernames holds on both.
+	const twin = `INSERT INTO users(username, role, created_at) VALUES ('BOB', 'assessor', 't')`
+	if _, err := s.w.ExecContext(ctx, twin); err == nil {
+		t.Error("SQLite accepted a username differing only in case")
+	}
+	if _, err := db.ExecContext(ctx, twin); err == nil {
+		t.Error("PostgreSQL accepted a username differing only in case")
+	}
+}
+
+// rowsText reads every row of q as one line of its values.
+func rowsText(t *testing.T, db *sql.DB, q string) []string {
+	t.Helper()
+	rows, err := db.QueryContext(context.Background(), q)
+	if err != nil {
+		t.Fatalf("%v\n%s", err, q)
+	}
+	defer rows.Close()
+	cols, _ := rows.Columns()
+	var out []string
+	for rows.Next() {
+		vals := make([]any, len(cols))
+		ptrs := make([]any, len(cols))
+		for i := range vals {
+			ptrs[i] = &vals[i]
+		}
+		if err := rows.Scan(ptrs...); err != nil {
+			t.Fatal(err)
+		}
+		out = append(out, fmt.Sprint(vals...))
+	}
+	if err := rows.Err(); err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
