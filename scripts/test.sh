@@ -1,11 +1,12 @@
 #!/usr/bin/env bash
 # Installs what the tests need on a fresh Debian machine (reference libraries for the
-# statistics checks, the sqlite3 shell, headless Chromium for browser tests), fetches the Go
+# statistics checks, the sqlite3 shell, headless Chromium for browser tests, PostgreSQL, whose
+# initdb and pg_ctl internal/pgtest runs from /usr/lib/postgresql/<version>/bin), fetches the Go
 # modules, then runs every test, then every test again under the race detector. Safe to run again: installed packages are skipped.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
-packages=(python3-sklearn python3-statsmodels python3-scipy sqlite3 chromium)
+packages=(python3-sklearn python3-statsmodels python3-scipy sqlite3 chromium postgresql)
 missing=()
 for p in "${packages[@]}"; do
   dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")

@@ -19,9 +19,15 @@ type Migration struct {
 	SQL     string
 }
 
-// Migrations lists the embedded migrations in version order.
-func Migrations() ([]Migration, error) {
-	names, err := fs.Glob(migrations.Files, "*.sql")
+// Migrations lists the embedded SQLite migrations in version order.
+func Migrations() ([]Migration, error) { return migrationsIn(migrations.Files) }
+
+// PostgresMigrations lists the embedded PostgreSQL migrations in version order: the same
+// numbers and names as Migrations, each translated.
+func PostgresMigrations() ([]Migration, error) { return migrationsIn(migrations.Postgres) }
+
+func migrationsIn(files fs.FS) ([]Migration, error) {
+	names, err := fs.Glob(files, "*.sql")
 	if err != nil {
 		return nil, err
 	}
@@ -33,7 +39,7 @@ func Migrations() ([]Migration, error) {
 		if !ok || err != nil {
 			return nil, fmt.Errorf("store: migration %q is not named NNNN_words.sql", name)
 		}
-		body, err := fs.ReadFile(migrations.Files, name)
+		body, err := fs.ReadFile(files, name)
 		if err != nil {
 			return nil, err
 		}

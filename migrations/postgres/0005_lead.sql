@@ -1,0 +1,92 @@
+-- The lead's desk: a per-project version that changes with every write that can move a lead's
+-- figures, so a computed report can be cached and still never be stale; and indexes for
+-- adjudication history.
+
+CREATE TABLE project_versions (
+    project_id bigint PRIMARY KEY REFERENCES projects(id) ON DELETE CASCADE,
+    version    bigint NOT NULL DEFAULT 0
+);
+
+-- Triggers rather than calls in Go: judgments and adjudications are written from several
+-- places (judging, undo, import, adjudication), and none of them can forget to bump.
+CREATE FUNCTION judgments_version_insert() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    INSERT INTO project_versions(project_id, version)
+        SELECT project_id, 1 FROM pairs WHERE id = NEW.pair_id
+        ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER judgments_version_insert AFTER INSERT ON judgments
+FOR EACH ROW EXECUTE FUNCTION judgments_version_insert();
+CREATE FUNCTION judgments_version_update() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    INSERT INTO project_versions(project_id, version)
+        SELECT project_id, 1 FROM pairs WHERE id = NEW.pair_id
+        ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER judgments_version_update AFTER UPDATE ON judgments
+FOR EACH ROW EXECUTE FUNCTION judgments_version_update();
+CREATE FUNCTION judgments_version_delete() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    INSERT INTO project_versions(project_id, version)
+        SELECT project_id, 1 FROM pairs WHERE id = OLD.pair_id
+        ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER judgments_version_delete AFTER DELETE ON judgments
+FOR EACH ROW EXECUTE FUNCTION judgments_version_delete();
+CREATE FUNCTION adjudications_version_insert() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    INSERT INTO project_versions(project_id, version)
+        SELECT project_id, 1 FROM pairs WHERE id = NEW.pair_id
+        ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER adjudications_version_insert AFTER INSERT ON adjudications
+FOR EACH ROW EXECUTE FUNCTION adjudications_version_insert();
+CREATE FUNCTION adjudications_version_update() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    INSERT INTO project_versions(project_id, version)
+        SELECT project_id, 1 FROM pairs WHERE id = NEW.pair_id
+        ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER adjudications_version_update AFTER UPDATE ON adjudications
+FOR EACH ROW EXECUTE FUNCTION adjudications_version_update();
+-- Gold grades, new and removed pairs change gold figures and the queue.
+CREATE FUNCTION pairs_version_insert() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    INSERT INTO project_versions(project_id, version) VALUES (NEW.project_id, 1)
+        ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER pairs_version_insert AFTER INSERT ON pairs
+FOR EACH ROW EXECUTE FUNCTION pairs_version_insert();
+CREATE FUNCTION pairs_version_update() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    INSERT INTO project_versions(project_id, version) VALUES (NEW.project_id, 1)
+        ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER pairs_version_update AFTER UPDATE OF gold_grade, query_id, document_id ON pairs
+FOR EACH ROW EXECUTE FUNCTION pairs_version_update();
+CREATE FUNCTION pairs_version_delete() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    INSERT INTO project_versions(project_id, version) VALUES (OLD.project_id, 1)
+        ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER pairs_version_delete AFTER DELETE ON pairs
+FOR EACH ROW EXECUTE FUNCTION pairs_version_delete();
+-- Usernames name raters in every figure.
+CREATE FUNCTION users_version_update() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    UPDATE project_versions SET version = version + 1;
+    RETURN NULL;
+END $$;
+CREATE TRIGGER users_version_update AFTER UPDATE OF username ON users
+FOR EACH ROW EXECUTE FUNCTION users_version_update();
+
+CREATE INDEX adjudications_pair ON adjudications(pair_id, id);
+CREATE INDEX judgments_pair ON judgments(pair_id, current);
