@@ -13,12 +13,21 @@ import (
 // those items (n-1 degrees of freedom; items are taken as independent), Above, Below and Equal
 // the shares of items where the rater's grade is higher, lower or the same.
 //
+// The lower median of an even number of others sits at or below their midpoint, so with an
+// odd number of raters per item a fair rater shows a small positive difference (about +0.15
+// grades with five raters in the tests' simulation); compare raters with each other, or count
+// raters so that the others are odd in number.
+//
 // Against Dawid-Skene's true grade: Over is the probability that one of the rater's grades is
 // above the item's true grade, sum over t of prior(t) * sum over g > t of confusion(t, g), and
 // Under the same below the diagonal; 1 - Over - Under is the chance of the true grade itself.
-// Over greater than Under means the confusion matrix leans towards over-grading.
+// Even a fair rater has Over above Under when most items are 0s, which cannot be under-graded,
+// so Balance compares them only where both are possible: the prior-weighted mean of
+// P(above) - P(below) over true grades 1..K-2 (over all grades on a two-grade scale).
 //
-// Summary says both in words.
+// Summary says both in words: "lenient" when the interval lies above 0, "strict" when below,
+// "in line with the others" otherwise; "over-grading" when Balance is DSLeanMargin or more,
+// "under-grading" when it is -DSLeanMargin or less.
 type AssessorLeniency struct {
 	Rater    string `json:"rater"`
 	Items    int    `json:"items"`
@@ -29,8 +38,13 @@ type AssessorLeniency struct {
 	Equal    Value  `json:"equal"`
 	Over     Value  `json:"over"`
 	Under    Value  `json:"under"`
+	Balance  Value  `json:"balance"`
 	Summary  string `json:"summary"`
 }
+
+// DSLeanMargin is how far Balance must be from 0 before Summary names a lean: a rater one
+// grade off on one item in twenty.
+const DSLeanMargin = 0.05
 
 // Leniency returns AssessorLeniency for every rater in RaterNames order, with intervals at
 // level (e.g. 0.95) and Dawid-Skene fitted with ds.
@@ -79,18 +93,31 @@ func Leniency(d *Data, level float64, ds DSOptions) []AssessorLeniency {
 			a.MeanDiff, a.CI = meanWithTInterval(sum[r], sq[r], n[r], level)
 			a.Above, a.Below, a.Equal = share(above[r], n[r]), share(below[r], n[r]), share(n[r]-above[r]-below[r], n[r])
 		}
-		var over, under float64
+		var over, under, bal, balW float64
+		k := len(fit.Priors)
 		for t, row := range fit.Confusion[r] {
+			var o, u float64
 			for g, p := range row {
 				switch {
 				case g > t:
-					over += fit.Priors[t] * p
+					o += p
 				case g < t:
-					under += fit.Priors[t] * p
+					u += p
 				}
+			}
+			over += fit.Priors[t] * o
+			under += fit.Priors[t] * u
+			if k == 2 || (t > 0 && t < k-1) {
+				bal += fit.Priors[t] * (o - u)
+				balW += fit.Priors[t]
 			}
 		}
 		a.Over, a.Under = defined(over), defined(under)
+		if balW > 0 {
+			a.Balance = defined(bal / balW)
+		} else {
+			a.Balance = undefined("no true grade with both directions possible has any weight")
+		}
 		a.Summary = leniencySummary(a, level)
 		out[r] = a
 	}
@@ -117,9 +144,11 @@ func leniencySummary(a AssessorLeniency, level float64) string {
 	}
 	lean := "neither over- nor under-grading"
 	switch {
-	case a.Over.V > a.Under.V:
+	case !a.Balance.OK:
+		lean = a.Balance.Why
+	case a.Balance.V >= DSLeanMargin:
 		lean = "over-grading"
-	case a.Under.V > a.Over.V:
+	case a.Balance.V <= -DSLeanMargin:
 		lean = "under-grading"
 	}
 	return s + fmt.Sprintf("; Dawid-Skene: above the true grade with probability %.2f, below with %.2f (%s)", a.Over.V, a.Under.V, lean)
