@@ -177,7 +177,7 @@ func TestWithoutAssessor(t *testing.T) {
 	js := []PairGrade[string]{
 		{"p1", "a", 0}, {"p1", "b", 2}, {"p1", "c", 3}, // median 2
 		{"p2", "a", 4}, {"p2", "b", 1}, // lower median 1
-		{"p3", "a", 3},                // a alone
+		{"p3", "a", 3},                 // a alone
 		{"p4", "b", 0}, {"p4", "c", 4}, // adjudicated 2
 	}
 	fixed := map[string]int{"p4": 2}
