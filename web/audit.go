@@ -163,7 +163,8 @@ func (s *Server) auditPage(w http.ResponseWriter, r *http.Request) {
 	s.render(w, r, status, "audit", "", s.newView(r, "Audit trail", d))
 }
 
-// auditTable is every event matching the filter, newest first, read while it downloads.
+// auditTable is every event matching the filter, newest first, read while it downloads. The
+// page draws its own rows: it shows one page of the events, the download streams them all.
 func auditTable(ctx context.Context, st *store.Store, f store.AuditFilter) table {
 	return table{Name: "audit", File: "audit-trail", Columns: cols("id", "", "at", "", "actor", "", "project", "", "action", "", "target", "", "target_name", "", "detail", ""),
 		Stream: func(add func([]string) error) error {
@@ -172,8 +173,8 @@ func auditTable(ctx context.Context, st *store.Store, f store.AuditFilter) table
 				if e.ActorID == 0 {
 					actor = "(command line)"
 				}
-				return add([]string{strconv.FormatInt(e.ID, 10), e.At.UTC().Format("2006-01-02T15:04:05.000Z07:00"), cell(actor), cell(e.Project),
-					e.Action, cell(e.Target), cell(e.TargetName), cell(e.Detail)})
+				return add([]string{strconv.FormatInt(e.ID, 10), e.At.UTC().Format("2006-01-02T15:04:05.000Z07:00"), defused(actor), defused(e.Project),
+					e.Action, defused(e.Target), defused(e.TargetName), defused(e.Detail)})
 			})
 		}}
 }
@@ -183,9 +184,9 @@ func (s *Server) auditCSV(w http.ResponseWriter, r *http.Request) {
 	s.auditPage(w, tableAlias(r, "audit"))
 }
 
-// cell defuses text that a spreadsheet would run as a formula (common practice for CSV
+// defused defuses text that a spreadsheet would run as a formula (common practice for CSV
 // meant to be opened in one): a leading =, +, -, @ or control character gets a quote.
-func cell(s string) string {
+func defused(s string) string {
 	if s != "" && strings.ContainsRune("=+-@\t\r", rune(s[0])) {
 		return "'" + s
 	}

@@ -199,7 +199,8 @@ func (s *Server) evaluationPage(w http.ResponseWriter, r *http.Request) {
 	s.render(w, r, http.StatusOK, "evaluation", "", s.newView(r, title, d))
 }
 
-// perQueryTable is an evaluation's per-query figures: one row per run and query.
+// perQueryTable is an evaluation's per-query figures: one row per run and query. The page
+// draws them as one table per run, beside each run's summary.
 func perQueryTable(ev store.Evaluation) table {
 	t := table{Name: "per-query", File: fmt.Sprintf("evaluation-%d", ev.ID), Columns: cols("run", "", "query", "", "ndcg", "", "err", "", "precision", "",
 		"ap", "", "judged", "", "retrieved", "", "k", "", "gain", "", "threshold", "")}
@@ -212,8 +213,8 @@ func perQueryTable(ev store.Evaluation) table {
 	for i, sum := range ev.Summaries {
 		o := sum.Options
 		for _, q := range sum.PerQuery {
-			t.Rows = append(t.Rows, []string{ev.Runs[i], q.Query, empty(q.NDCG, q.NDCGDefined), empty(q.ERR, true), empty(q.Precision, true),
-				empty(q.AP, q.APDefined), empty(q.Judged, true), strconv.Itoa(q.Retrieved), strconv.Itoa(o.K), sum.Gain, strconv.Itoa(o.Threshold)})
+			t.Rows = append(t.Rows, plain(ev.Runs[i], q.Query, empty(q.NDCG, q.NDCGDefined), empty(q.ERR, true), empty(q.Precision, true),
+				empty(q.AP, q.APDefined), empty(q.Judged, true), strconv.Itoa(q.Retrieved), strconv.Itoa(o.K), sum.Gain, strconv.Itoa(o.Threshold)))
 		}
 	}
 	return t

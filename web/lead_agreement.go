@@ -1,41 +1,21 @@
 package web
 
 import (
+	"fmt"
 	"net/http"
 	"strconv"
 
 	"github.com/pertinent/pertinent/agreement"
-	"github.com/pertinent/pertinent/store"
 )
 
 // Agreement in detail: the heat map, pairwise kappas, per-grade and per-query figures.
 
-type pairRow struct {
-	agreement.PairKappa
-	Quadratic, Linear, Plain, Agreement figure
-}
-
-type gradeRow struct {
-	agreement.GradeKappa
-	Kappa figure
-	Share string
-}
-
-type queryRow struct {
-	store.QueryAgreement
-	Alpha, Agreement, Spread figure
-}
-
 type agreementData struct {
-	Heat    heatMap
-	Pairs   []pairRow
-	Alphas  []figure
-	Grades  []gradeRow
-	Queries []queryRow
-	Sort    string
-	Sorts   []sortLink
-	Tables  agreementTables
-	Report  agreement.Report
+	Heat   heatMap
+	Sort   string
+	Sorts  []sortLink
+	Tables agreementTables
+	Report agreement.Report
 }
 
 // agreementTables are the agreement page's downloads.
@@ -79,48 +59,53 @@ func (s *Server) agreementPage(w http.ResponseWriter, r *http.Request) {
 		}
 	}
 	for _, p := range rep.Cohen {
-		key := p.A + "|" + p.B
 		grid[at[p.A]][at[p.B]], grid[at[p.B]][at[p.A]] = p.KappaQuadratic, p.KappaQuadratic
 		if !p.KappaQuadratic.OK && p.Why != "" {
 			grid[at[p.A]][at[p.B]].Why, grid[at[p.B]][at[p.A]].Why = p.Why, p.Why
 		}
-		data.Pairs = append(data.Pairs, pairRow{PairKappa: p, Quadratic: figV("cohen-quadratic:"+key, p.KappaQuadratic, 3),
-			Linear: figV("cohen-linear:"+key, p.KappaLinear, 3), Plain: figV("cohen:"+key, p.Kappa, 3), Agreement: figPct("cohen-agreement:"+key, p.Agreement)})
 	}
 	data.Heat = newHeatMap("Quadratic-weighted Cohen's kappa for every pair of assessors",
 		"Each cell gives the kappa of two assessors to two decimals, coloured by its Landis & Koch (1977) band: darker cells agree more, red cells are below chance, cells marked – are undefined. The table below has every figure to three decimals.",
 		names, func(i, j int) agreement.Value { return grid[i][j] })
-	for _, m := range agreement.Metrics {
-		data.Alphas = append(data.Alphas, figV("alpha-"+m.String(), rep.KrippendorffAlpha.Get(m), 3))
-	}
-	for _, g := range rep.Fleiss.PerGrade {
-		data.Grades = append(data.Grades, gradeRow{GradeKappa: g, Kappa: figV("fleiss-grade:"+strconv.Itoa(g.Grade), g.Kappa, 3),
-			Share: strconv.FormatFloat(100*g.Proportion, 'f', 1, 64) + "%"})
-	}
-	for _, q := range queries {
-		data.Queries = append(data.Queries, queryRow{QueryAgreement: q, Alpha: figV("query-alpha:"+q.Query.ExternalID, q.Alpha, 3),
-			Agreement: figPct("query-agreement:"+q.Query.ExternalID, q.PercentAgreement), Spread: figV("query-spread:"+q.Query.ExternalID, q.MeanSpread, 2)})
-	}
 	for _, k := range [][2]string{{"alpha", "alpha"}, {"agreement", "exact agreement"}, {"spread", "mean spread"}, {"pairs", "pairs"}, {"query", "query id"}} {
 		data.Sorts = append(data.Sorts, sortLink{Key: k[0], Label: k[1], Href: "?sort=" + k[0], Current: k[0] == sortKey})
 	}
 	t := &data.Tables
-	t.Pairs = table{Name: "pairs", File: "cohen-pairs", Columns: cols("a", "", "b", "", "n", "", "kappa", "", "kappa_linear", "", "kappa_quadratic", "", "agreement", "")}
+	t.Pairs = table{Name: "pairs", File: "cohen-pairs", Class: "compact", Caption: "Pairwise Cohen's kappa; SE after Fleiss, Cohen & Everitt (1969)",
+		Columns: []column{{Key: "a", Label: "Assessor"}, {Key: "b", Label: "Assessor"}, {Key: "n", Label: "Shared pairs", Class: "num"},
+			{Key: "kappa", Label: "Unweighted", Class: "num"}, {Key: "kappa_linear", Label: "Linear", Class: "num"},
+			{Key: "kappa_quadratic", Label: "Quadratic", Class: "num"}, {Key: "agreement", Label: "Exact agreement", Class: "num"}},
+		Page: []string{"a", "b", "n", "kappa_quadratic", "kappa_linear", "kappa", "agreement"}}
 	for _, p := range rep.Cohen {
-		t.Pairs.Rows = append(t.Pairs.Rows, []string{p.A, p.B, strconv.Itoa(p.N), csvValue(p.Kappa), csvValue(p.KappaLinear), csvValue(p.KappaQuadratic), csvValue(p.Agreement)})
+		key := p.A + "|" + p.B
+		t.Pairs.Rows = append(t.Pairs.Rows, row{Cells: []cell{{V: p.A}, {V: p.B}, {V: strconv.Itoa(p.N)}, figCell(figV("cohen:"+key, p.Kappa, 3)),
+			figCell(figV("cohen-linear:"+key, p.KappaLinear, 3)), figCell(figV("cohen-quadratic:"+key, p.KappaQuadratic, 3)),
+			figCell(figPct("cohen-agreement:"+key, p.Agreement))}})
 	}
-	t.Alphas = table{Name: "alphas", File: "krippendorff-alpha", Columns: cols("metric", "", "alpha", "")}
+	t.Alphas = table{Name: "alphas", File: "krippendorff-alpha", Class: "figures", RowHead: true,
+		Columns: []column{{Key: "metric", Label: "Metric"}, {Key: "alpha", Label: "Alpha", Class: "num"}}}
 	for _, m := range agreement.Metrics {
-		t.Alphas.Rows = append(t.Alphas.Rows, []string{m.String(), csvValue(rep.KrippendorffAlpha.Get(m))})
+		t.Alphas.Rows = append(t.Alphas.Rows, row{Cells: []cell{{V: m.String()}, figCell(figV("alpha-"+m.String(), rep.KrippendorffAlpha.Get(m), 3))}})
 	}
-	t.Grades = table{Name: "grades", File: "fleiss-per-grade", Columns: cols("grade", "", "share", "", "kappa", "", "null_se", "")}
+	t.Grades = table{Name: "grades", File: "fleiss-per-grade", Class: "figures", RowHead: true,
+		Caption: fmt.Sprintf("Each grade against all others; over %d pairs with %d grades each", rep.Fleiss.ItemsUsed, rep.Fleiss.RatersPerItem),
+		Columns: []column{{Key: "grade", Label: "Grade"}, {Key: "share", Label: "Share of grades", Class: "num"}, {Key: "kappa", Label: "Kappa", Class: "num"}, {Key: "null_se"}},
+		Empty:   "Undefined: " + rep.Fleiss.Kappa.Why}
 	for _, g := range rep.Fleiss.PerGrade {
-		t.Grades.Rows = append(t.Grades.Rows, []string{strconv.Itoa(g.Grade), csvFloat(g.Proportion), csvValue(g.Kappa), csvValue(g.SE)})
+		t.Grades.Rows = append(t.Grades.Rows, row{Cells: []cell{{V: strconv.Itoa(g.Grade)},
+			{V: csvFloat(g.Proportion), Text: strconv.FormatFloat(100*g.Proportion, 'f', 1, 64) + "%"},
+			figCell(figV("fleiss-grade:"+strconv.Itoa(g.Grade), g.Kappa, 3)), {V: csvValue(g.SE)}}})
 	}
-	t.Queries = table{Name: "queries", File: "query-agreement", Columns: cols("query", "", "text", "", "pairs", "", "pairable", "", "grades", "", "alpha_ordinal", "", "exact_agreement", "", "mean_spread", "")}
+	t.Queries = table{Name: "queries", File: "query-agreement", Class: "compact", ID: "queries", RowHead: true,
+		Caption: "Per query: ordinal alpha, share of exactly agreeing pairs of grades, mean spread (max − min)",
+		Columns: []column{{Key: "query"}, {Key: "text", Label: "Query"}, {Key: "pairs", Label: "Pairs", Class: "num"}, {Key: "pairable"},
+			{Key: "grades", Label: "Grades", Class: "num"}, {Key: "alpha_ordinal", Label: "Alpha (ordinal)", Class: "num"},
+			{Key: "exact_agreement", Label: "Exact agreement", Class: "num"}, {Key: "mean_spread", Label: "Mean spread", Class: "num"}, {}}}
 	for _, q := range queries {
-		t.Queries.Rows = append(t.Queries.Rows, []string{q.Query.ExternalID, q.Query.Text, strconv.Itoa(q.Pairs), strconv.Itoa(q.Pairable), strconv.Itoa(q.Judgments),
-			csvValue(q.Alpha), csvValue(q.PercentAgreement), csvValue(q.MeanSpread)})
+		id := q.Query.ExternalID
+		t.Queries.Rows = append(t.Queries.Rows, row{Cells: []cell{{V: id}, {V: q.Query.Text, Code: id}, {V: strconv.Itoa(q.Pairs)}, {V: strconv.Itoa(q.Pairable)},
+			{V: strconv.Itoa(q.Judgments)}, figCell(figV("query-alpha:"+id, q.Alpha, 3)), figCell(figPct("query-agreement:"+id, q.PercentAgreement)),
+			figCell(figV("query-spread:"+id, q.MeanSpread, 2)), {Text: "queue", Href: fmt.Sprintf("/projects/%d/queue?query=%d", currentProject(r).ID, q.Query.ID)}}})
 	}
 	if s.offerTables(w, r, &t.Pairs, &t.Alphas, &t.Grades, &t.Queries) {
 		return

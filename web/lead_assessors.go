@@ -63,13 +63,15 @@ func (s *Server) assessorsPage(w http.ResponseWriter, r *http.Request) {
 		row.Chart = newBarChart("grades-"+strconv.FormatInt(a.UserID, 10), "Grades given by "+u, row.GradeText, labels, a.Grades, 90, 28, true)
 		data.Rows = append(data.Rows, row)
 	}
+	// The page draws its own rows: each holds a chart of the grades and the drift beside its
+	// two shares, which no plain cell carries.
 	data.Table = table{Name: "assessors", File: "assessors", Columns: cols("assessor", "", "judgments", "", "median_ms", "", "cannot_judge_share", "",
 		"grade_counts", "", "mean_quadratic_kappa", "", "consensus_agreement", "", "consensus_mae", "", "gold_accuracy", "", "gold_mae", "",
 		"recent_consensus_agreement", "", "earlier_consensus_agreement", "", "drift", "")}
 	for _, x := range data.Rows {
-		data.Table.Rows = append(data.Table.Rows, []string{x.Username, strconv.Itoa(x.Judgments), strconv.Itoa(x.MedianMs), csvFloat(x.CannotShare),
+		data.Table.Rows = append(data.Table.Rows, plain(x.Username, strconv.Itoa(x.Judgments), strconv.Itoa(x.MedianMs), csvFloat(x.CannotShare),
 			gradeList(x.Grades), csvValue(x.Stats.MeanKappaQuadratic), csvValue(x.Stats.ConsensusAgreement), csvValue(x.Stats.ConsensusMAE),
-			csvValue(x.Stats.GoldAccuracy), csvValue(x.Stats.GoldMAE), csvValue(x.DriftRecent), csvValue(x.DriftEarlier), csvValue(x.Drift)})
+			csvValue(x.Stats.GoldAccuracy), csvValue(x.Stats.GoldMAE), csvValue(x.DriftRecent), csvValue(x.DriftEarlier), csvValue(x.Drift)))
 	}
 	if s.offerTables(w, r, &data.Table) {
 		return
@@ -159,11 +161,12 @@ func (s *Server) assessorPage(w http.ResponseWriter, r *http.Request) {
 		data.Colleagues = append(data.Colleagues, colleague{Pair: p, Kappa: figV("kappa:"+p.B, p.KappaQuadratic, 3),
 			Matrix: newMatrix(a.Username+" (rows) against "+p.B+" (columns)", p.B, p.Table)})
 	}
+	// One row per cell of the matrices, which the page draws as grids.
 	data.Table = table{Name: "confusion", File: "confusion-" + a.Username, Columns: cols("against", "", "grade", "", "other_grade", "", "pairs", "")}
 	add := func(against string, t [][]int64) {
 		for g, row := range t {
 			for h, n := range row {
-				data.Table.Rows = append(data.Table.Rows, []string{against, strconv.Itoa(g), strconv.Itoa(h), strconv.FormatInt(n, 10)})
+				data.Table.Rows = append(data.Table.Rows, plain(against, strconv.Itoa(g), strconv.Itoa(h), strconv.FormatInt(n, 10)))
 			}
 		}
 	}

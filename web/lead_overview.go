@@ -39,18 +39,13 @@ type overviewData struct {
 	Tables      overviewTables
 	PairsWithJ  int
 	GeneratedIn string
-	// FlaggedPairs lists pairs answered "cannot judge", disturbing ones first; never who flagged.
-	FlaggedPairs []flaggedRow
 }
 
-// overviewTables are the overview's downloads; the page draws figures and flagged pairs itself.
+// overviewTables are the overview's tables. Flagged lists pairs answered "cannot judge",
+// disturbing ones first, never who flagged. The page draws Figures itself: its rows are
+// sentences around several figures each, with the progress bar beside.
 type overviewTables struct {
 	Figures, Days, Flagged table
-}
-
-type flaggedRow struct {
-	store.FlaggedPair
-	ReasonLabel string
 }
 
 func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
@@ -95,9 +90,6 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
-	for _, f := range flagged {
-		data.FlaggedPairs = append(data.FlaggedPairs, flaggedRow{FlaggedPair: f, ReasonLabel: reasonLabel(f.Reason)})
-	}
 	labels := make([]string, len(d.PerDay))
 	counts := make([]int, len(d.PerDay))
 	for i, c := range d.PerDay {
@@ -108,20 +100,25 @@ func (s *Server) overview(w http.ResponseWriter, r *http.Request) {
 	t := &data.Tables
 	t.Figures = table{Name: "figures", File: "overview", Columns: cols("figure", "", "value", "", "lo", "", "hi", "", "band", "", "note", "")}
 	for _, f := range data.Figures {
-		t.Figures.Rows = append(t.Figures.Rows, []string{f.Name, f.Value, "", "", "", ""})
+		t.Figures.Rows = append(t.Figures.Rows, plain(f.Name, f.Value, "", "", "", ""))
 	}
-	t.Figures.Rows = append(t.Figures.Rows, []string{"time-per-judgment-ms", strconv.Itoa(d.TimeMedianMs), strconv.Itoa(d.TimeQ1Ms), strconv.Itoa(d.TimeQ3Ms), "", "median; interquartile range"},
-		[]string{"flagged", strconv.Itoa(d.Flagged), "", "", "", ""})
+	t.Figures.Rows = append(t.Figures.Rows, plain("time-per-judgment-ms", strconv.Itoa(d.TimeMedianMs), strconv.Itoa(d.TimeQ1Ms), strconv.Itoa(d.TimeQ3Ms), "", "median; interquartile range"),
+		plain("flagged", strconv.Itoa(d.Flagged), "", "", "", ""))
 	for _, h := range data.Headline {
-		t.Figures.Rows = append(t.Figures.Rows, []string{h.Value.Name, h.Value.Value, h.Lo.Value, h.Hi.Value, h.Band, h.Interval})
+		t.Figures.Rows = append(t.Figures.Rows, plain(h.Value.Name, h.Value.Value, h.Lo.Value, h.Hi.Value, h.Band, h.Interval))
 	}
 	t.Days = table{Name: "days", File: "judgments-per-day", Class: "compact", Columns: []column{{Key: "day", Label: "Day (UTC)"}, {Key: "judgments", Label: "Judgments", Class: "num"}}}
 	for _, c := range d.PerDay {
-		t.Days.Rows = append(t.Days.Rows, []string{c.Day, strconv.Itoa(c.Judgments)})
+		t.Days.Rows = append(t.Days.Rows, plain(c.Day, strconv.Itoa(c.Judgments)))
 	}
-	t.Flagged = table{Name: "flagged", File: "flagged-pairs", Columns: cols("pair", "", "query", "", "document", "", "reason", "", "assessors", "")}
-	for _, f := range data.FlaggedPairs {
-		t.Flagged.Rows = append(t.Flagged.Rows, []string{strconv.FormatInt(f.PairID, 10), f.QueryText, f.DocumentTitle, f.Reason, strconv.Itoa(f.Count)})
+	t.Flagged = table{Name: "flagged", File: "flagged-pairs", Class: "flagged", Columns: cols("pair", "", "query", "Query", "document", "Document", "reason", "Reason", "assessors", "Assessors")}
+	for _, f := range flagged {
+		row := plain(strconv.FormatInt(f.PairID, 10), f.QueryText, f.DocumentTitle, f.Reason, strconv.Itoa(f.Count))
+		row.Pair, row.Cells[3].Text = f.PairID, reasonLabel(f.Reason)
+		if f.Reason == "disturbing" {
+			row.Class = "disturbing"
+		}
+		t.Flagged.Rows = append(t.Flagged.Rows, row)
 	}
 	if s.offerTables(w, r, &t.Figures, &t.Days, &t.Flagged) {
 		return

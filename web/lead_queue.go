@@ -57,12 +57,14 @@ func (s *Server) queuePage(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
+	// The page draws its own rows: they are the keyboard's and the filter's (lead.js), show
+	// only the first page of the queue and gather several columns into tags.
 	tab := table{Name: "queue", File: "disagreement-queue", Columns: cols("pair", "", "query", "", "query_text", "", "severity", "", "flagged", "",
 		"gold_miss", "", "spread", "", "variance", "", "grades", "", "cannot_judge", "", "reopened", "")}
 	for _, it := range items {
-		tab.Rows = append(tab.Rows, []string{strconv.FormatInt(it.PairID, 10), it.Query.ExternalID, it.Query.Text, strconv.Itoa(it.Severity),
+		tab.Rows = append(tab.Rows, plain(strconv.FormatInt(it.PairID, 10), it.Query.ExternalID, it.Query.Text, strconv.Itoa(it.Severity),
 			strconv.FormatBool(it.Flagged), strconv.FormatBool(it.GoldMiss), strconv.Itoa(it.Spread), csvFloat(it.Variance),
-			gradeList(it.Grades), strconv.Itoa(it.Cannot), strconv.FormatBool(it.Reopened)})
+			gradeList(it.Grades), strconv.Itoa(it.Cannot), strconv.FormatBool(it.Reopened)))
 	}
 	if s.offerTables(w, r, &tab) {
 		return

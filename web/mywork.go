@@ -78,8 +78,7 @@ func (s *Server) myWorkChange(w http.ResponseWriter, r *http.Request) {
 }
 
 type feedbackData struct {
-	Items []store.FeedbackItem
-	CSV   string
+	Table table
 }
 
 // feedbackPage shows an assessor where their grade differed from the final grade, with the
@@ -91,13 +90,18 @@ func (s *Server) feedbackPage(w http.ResponseWriter, r *http.Request) {
 		s.storeError(w, r, err)
 		return
 	}
-	tab := table{Name: "feedback", File: "feedback", Columns: cols("query", "", "query_text", "", "document", "", "title", "", "your_grade", "", "final_grade", "", "rationale", "", "adjudicated_at", "")}
+	tab := table{Name: "feedback", File: "feedback", Class: "feedback", Empty: "No differences so far.",
+		Columns: []column{{Key: "query"}, {Key: "query_text", Label: "Query"}, {Key: "document"}, {Key: "title", Label: "Document"},
+			{Key: "your_grade", Label: "Your grade", Class: "num"}, {Key: "final_grade", Label: "Final grade", Class: "num"},
+			{Key: "rationale", Label: "Why"}, {Key: "adjudicated_at"}}}
 	for _, f := range items {
-		tab.Rows = append(tab.Rows, []string{f.Query.ExternalID, f.Query.Text, f.Document.ExternalID, f.Document.Title,
-			strconv.Itoa(f.Grade), strconv.Itoa(f.FinalGrade), f.Rationale, f.At.Format(time.RFC3339)})
+		row := plain(f.Query.ExternalID, f.Query.Text, f.Document.ExternalID, f.Document.Title,
+			strconv.Itoa(f.Grade), strconv.Itoa(f.FinalGrade), f.Rationale, f.At.Format(time.RFC3339))
+		row.Pair = f.PairID
+		tab.Rows = append(tab.Rows, row)
 	}
 	if s.offerTables(w, r, &tab) {
 		return
 	}
-	s.render(w, r, http.StatusOK, "feedback", "", s.newView(r, "Feedback: "+currentProject(r).Name, feedbackData{Items: items, CSV: tab.Href}))
+	s.render(w, r, http.StatusOK, "feedback", "", s.newView(r, "Feedback: "+currentProject(r).Name, feedbackData{Table: tab}))
 }

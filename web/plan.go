@@ -121,7 +121,7 @@ type planData struct {
 	Preview *store.PlanOutcome
 	Error   string
 	Notices []string
-	KeptCSV string
+	Runs    table
 }
 
 func (s *Server) planPage(w http.ResponseWriter, r *http.Request) {
@@ -146,14 +146,20 @@ func (s *Server) renderPlan(w http.ResponseWriter, r *http.Request, status int, 
 			f.Runs[kr.ID] = true
 		}
 	}
-	runs := table{Name: "runs", File: "kept-runs", Columns: cols("run", "", "entries", "", "queries", "", "kept_at", "", "by", "")}
+	runs := table{Name: "runs", File: "kept-runs", Class: "plan-runs", RowHead: true,
+		Columns: []column{{Key: "run", Label: "Run"}, {Key: "entries", Label: "Entries"}, {Key: "queries", Label: "Queries"}, {Key: "kept_at", Label: "Kept", Class: "muted"}, {Key: "by"}}}
 	for _, k := range kept {
-		runs.Rows = append(runs.Rows, []string{k.Name, strconv.Itoa(k.Entries), strconv.Itoa(k.Queries), k.CreatedAt.UTC().Format(time.RFC3339), k.By})
+		row := plain(k.Name, strconv.Itoa(k.Entries), strconv.Itoa(k.Queries), k.CreatedAt.UTC().Format(time.RFC3339), k.By)
+		row.Cells[3].Text = k.CreatedAt.UTC().Format("2006-01-02 15:04") + " UTC"
+		if k.By != "" {
+			row.Cells[3].Text += " by " + k.By
+		}
+		runs.Rows = append(runs.Rows, row)
 	}
 	if r.Method == http.MethodGet && s.offerTables(w, r, &runs) {
 		return
 	}
-	data := planData{Form: f, Kept: kept, Designs: designs, Preview: preview, Error: msg, Notices: s.flashes(w, r, "plan"), KeptCSV: runs.Href}
+	data := planData{Form: f, Kept: kept, Designs: designs, Preview: preview, Error: msg, Notices: s.flashes(w, r, "plan"), Runs: runs}
 	s.render(w, r, status, "plan", "", s.newView(r, "Plan judging: "+p.Name, data))
 }
 
@@ -296,31 +302,47 @@ type designTables struct {
 	Estimates, Differences, Power table
 }
 
-// intervalCells are an interval's columns in a download.
-func intervalCells(iv estimate.Interval) []string {
-	return []string{csvFloat(iv.Est), csvFloat(iv.SE), csvFloat(iv.Low), csvFloat(iv.High)}
+// intervalCells are an interval's columns: estimate, SE, low and high in the download, the
+// estimate with its interval in one cell on the page.
+func intervalCells(iv estimate.Interval) []cell {
+	return []cell{{V: csvFloat(iv.Est), Text: interval(iv)}, {V: csvFloat(iv.SE)}, {V: csvFloat(iv.Low)}, {V: csvFloat(iv.High)}}
+}
+
+// intervalColumns are an interval's columns, named after its measure, headed on the page by label.
+func intervalColumns(key, label string) []column {
+	return []column{{Key: key, Label: label}, {Key: key + "_se"}, {Key: key + "_low"}, {Key: key + "_high"}}
 }
 
 func (d *designData) tables() []*table {
 	t := &d.Tables
-	t.Estimates = table{Name: "estimates", File: fmt.Sprintf("design-%d-estimates", d.Report.Design.ID), Columns: cols("run", "", "ndcg", "", "ndcg_se", "", "ndcg_low", "", "ndcg_high", "",
-		"ap", "", "ap_se", "", "ap_low", "", "ap_high", "", "judged_at_k", "", "rbp", "", "rbp_residual", "")}
+	o, id := d.Report.Estimates.Options, d.Report.Design.ID
+	t.Estimates = table{Name: "estimates", File: fmt.Sprintf("design-%d-estimates", id), Class: "design-estimates", RowHead: true}
+	t.Estimates.Columns = append(append(append([]column{{Key: "run", Label: "Run"}}, intervalColumns("ndcg", fmt.Sprintf("NDCG@%d [95%% interval]", o.K))...),
+		intervalColumns("ap", "AP [95% interval]")...),
+		column{Key: "judged_at_k", Label: fmt.Sprintf("judged@%d", o.K)}, column{Key: "rbp", Label: fmt.Sprintf("RBP (p = %v)", o.Persistence)},
+		column{Key: "rbp_residual", Label: "RBP residual"})
 	for _, v := range d.Runs {
 		re := v.Run
-		row := append([]string{re.Run}, intervalCells(re.NDCG)...)
-		row = append(row, intervalCells(re.AP)...)
-		t.Estimates.Rows = append(t.Estimates.Rows, append(row, csvFloat(re.JudgedAtK), csvFloat(re.RBP), csvFloat(re.RBPResidual)))
+		cells := append(append([]cell{{V: re.Run}}, intervalCells(re.NDCG)...), intervalCells(re.AP)...)
+		cells = append(cells, cell{V: csvFloat(re.JudgedAtK), Text: f4(re.JudgedAtK)}, cell{V: csvFloat(re.RBP), Text: f4(re.RBP)},
+			cell{V: csvFloat(re.RBPResidual), Text: f4(re.RBPResidual)})
+		t.Estimates.Rows = append(t.Estimates.Rows, row{Cells: cells})
 	}
-	t.Differences = table{Name: "differences", File: fmt.Sprintf("design-%d-differences", d.Report.Design.ID), Columns: cols("a", "", "b", "", "metric", "",
-		"diff", "", "diff_se", "", "diff_low", "", "diff_high", "", "prob_b_beats_a", "", "queries", "")}
+	t.Differences = table{Name: "differences", File: fmt.Sprintf("design-%d-differences", id), Class: "design-differences", RowHead: true,
+		Columns: append(append([]column{{Key: "a", Label: "Runs"}, {Key: "b"}, {Key: "metric", Label: "Measure"}}, intervalColumns("diff", "Difference [95% interval]")...),
+			column{Key: "prob_b_beats_a", Label: "P(second beats first)"}, column{Key: "queries"})}
 	for _, x := range d.Differences {
-		row := append([]string{x.A, x.B, x.Metric}, intervalCells(x.Diff)...)
-		t.Differences.Rows = append(t.Differences.Rows, append(row, csvFloat(x.ProbBBeatsA), strconv.Itoa(x.Queries)))
+		cells := append([]cell{{V: x.A, Text: x.B + " − " + x.A}, {V: x.B}, {V: x.Metric}}, intervalCells(x.Diff)...)
+		cells = append(cells, cell{V: csvFloat(x.ProbBBeatsA), Text: strconv.FormatFloat(x.ProbBBeatsA, 'f', 3, 64)}, cell{V: strconv.Itoa(x.Queries)})
+		t.Differences.Rows = append(t.Differences.Rows, row{Cells: cells})
 	}
-	t.Power = table{Name: "power", File: fmt.Sprintf("design-%d-power", d.Report.Design.ID), Columns: cols("metric", "", "run_pairs", "", "significant", "", "share", "", "alpha", "")}
+	t.Power = table{Name: "power", File: fmt.Sprintf("design-%d-power", id), Class: "design-power", RowHead: true,
+		Columns: []column{{Key: "metric", Label: "Measure"}, {Key: "run_pairs", Label: "Run pairs"}, {Key: "significant", Label: "Significant"},
+			{Key: "share", Label: "Discriminative power"}, {Key: "alpha"}}}
 	if d.QueryPlan != nil {
 		for _, p := range d.QueryPlan.Power {
-			t.Power.Rows = append(t.Power.Rows, []string{p.Metric, strconv.Itoa(p.Pairs), strconv.Itoa(p.Significant), csvFloat(p.Share), csvFloat(p.Alpha)})
+			t.Power.Rows = append(t.Power.Rows, row{Cells: []cell{{V: p.Metric}, {V: strconv.Itoa(p.Pairs)}, {V: strconv.Itoa(p.Significant)},
+				{V: csvFloat(p.Share), Text: percent(p.Share)}, {V: csvFloat(p.Alpha)}}})
 		}
 	}
 	return []*table{&t.Estimates, &t.Differences, &t.Power}
@@ -331,6 +353,9 @@ type designRunView struct {
 	NDCG, AP             string
 	Judged, RBP, Residue string
 }
+
+// percent is a share as a percentage to one decimal.
+func percent(v float64) string { return strconv.FormatFloat(100*v, 'f', 1, 64) + "%" }
 
 // interval formats an estimate with its interval.
 func interval(iv estimate.Interval) string {
@@ -461,8 +486,6 @@ func storeInvalid(msg string) error { return &pertinent.Error{Code: pertinent.In
 
 func init() {
 	funcs["f3"] = func(v float64) string { return strconv.FormatFloat(v, 'f', 3, 64) }
-	funcs["pct"] = func(v float64) string { return strconv.FormatFloat(100*v, 'f', 1, 64) + "%" }
-	funcs["interval"] = interval
 	funcs["kindName"] = kindName
 	funcs["checked"] = func(m map[int64]bool, id int64) bool { return m[id] }
 }
