@@ -22,6 +22,7 @@ fi
 go mod download
 go vet ./...
 go test ./... "$@"
-# Every package again under the race detector: about 5.5 minutes on the 2-core machine
-# against 2.5 without it (DEVELOPERS.md, Testing), well inside CI's 90 minutes.
-go test -race ./... "$@"
+# Every package again under the race detector but estimate: about 5.5 minutes on the 2-core
+# machine against 4 without it (DEVELOPERS.md, Testing). estimate starts no goroutine, so the
+# detector has nothing to watch there, and under it its simulations ran past ten minutes.
+go test -race $(go list ./... | grep -v '/estimate$') "$@"
