@@ -26,17 +26,9 @@ func dump(t *testing.T, s *Store) map[string][][]string {
 		if err != nil {
 			t.Fatal(tbl, err)
 		}
-		cols, _ := rows.Columns()
 		for rows.Next() {
-			vals := make([]any, len(cols))
-			ptrs := make([]any, len(cols))
-			for i := range vals {
-				ptrs[i] = &vals[i]
-			}
-			if err := rows.Scan(ptrs...); err != nil {
-				t.Fatal(err)
-			}
-			row := make([]string, len(cols))
+			vals := scanAny(t, rows)
+			row := make([]string, len(vals))
 			for i, v := range vals {
 				row[i] = fmt.Sprintf("%T:%v", v, v)
 			}

@@ -37,14 +37,7 @@ func TestPostgresMigrationsMatchSQLiteSchema(t *testing.T) {
 	}
 
 	s := openTest(t)
-	db, err := sql.Open("pgx", pgtest.New(t))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
-	if err := MigratePostgres(ctx, db); err != nil {
-		t.Fatal(err)
-	}
+	db := migratedPostgres(t)
 	// Again: a no-op, as for SQLite.
 	if err := MigratePostgres(ctx, db); err != nil {
 		t.Fatal(err)
@@ -444,14 +437,7 @@ func postgresSchema(t *testing.T, db *sql.DB) []string {
 func TestPostgresTriggersKeepWhatSQLitesKeep(t *testing.T) {
 	ctx := context.Background()
 	s := openTest(t)
-	db, err := sql.Open("pgx", pgtest.New(t))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
-	if err := MigratePostgres(ctx, db); err != nil {
-		t.Fatal(err)
-	}
+	db := migratedPostgres(t)
 	// Plain SQL both engines read alike, no parameters.
 	writes := []string{
 		`INSERT INTO users(id, username, role, created_at) VALUES (1, 'ann', 'assessor', 't'), (2, 'bob', 'assessor', 't')`,
@@ -524,21 +510,44 @@ func rowsText(t *testing.T, db *sql.DB, q string) []string {
 		t.Fatalf("%v\n%s", err, q)
 	}
 	defer rows.Close()
-	cols, _ := rows.Columns()
 	var out []string
 	for rows.Next() {
-		vals := make([]any, len(cols))
-		ptrs := make([]any, len(cols))
-		for i := range vals {
-			ptrs[i] = &vals[i]
-		}
-		if err := rows.Scan(ptrs...); err != nil {
-			t.Fatal(err)
-		}
-		out = append(out, fmt.Sprint(vals...))
+		out = append(out, fmt.Sprint(scanAny(t, rows)...))
 	}
 	if err := rows.Err(); err != nil {
 		t.Fatal(err)
 	}
 	return out
+}
+
+// scanAny reads the current row's values, whatever its columns.
+func scanAny(t *testing.T, rows *sql.Rows) []any {
+	t.Helper()
+	cols, err := rows.Columns()
+	if err != nil {
+		t.Fatal(err)
+	}
+	vals := make([]any, len(cols))
+	ptrs := make([]any, len(cols))
+	for i := range vals {
+		ptrs[i] = &vals[i]
+	}
+	if err := rows.Scan(ptrs...); err != nil {
+		t.Fatal(err)
+	}
+	return vals
+}
+
+// migratedPostgres is a fresh PostgreSQL database with every migration applied.
+func migratedPostgres(t *testing.T) *sql.DB {
+	t.Helper()
+	db, err := sql.Open("pgx", pgtest.New(t))
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { db.Close() })
+	if err := MigratePostgres(context.Background(), db); err != nil {
+		t.Fatal(err)
+	}
+	return db
 }
