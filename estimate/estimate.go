@@ -551,10 +551,9 @@ func Estimate(runs []NamedRun, labels Labels, o Options) (Report, error) {
 		wb     []float64
 		// Each figure's rate in every label's weight (run i's at
 		// [i*len(labels of the query):]) at the sample's weights (g) and
-		// the bias correction's (h); the ideal
-		// DCG's per grade; the replicate's figures; and the linearised
-		// variances: per query and run, summed over queries per run, and
-		// per pair of runs.
+		// the bias correction's (h); the ideal DCG's rates per grade; a
+		// replicate's figures; and the linearised variances: per query and
+		// run, summed over queries per run, and per pair of runs.
 		gN, gA, hN, hA []float64
 		mb             []float64 // a replicate's multipliers, 1 for the certain labels
 		ideal          = make([]float64, o.MaxGrade+1)
