@@ -253,3 +253,40 @@ func WithoutAssessor[K comparable](js []PairGrade[K], fixed map[K]int, consensus
 	}
 	return actual, without
 }
+
+// AloneAndOthers pairs each assessor's own grades with the others' consensus on the same
+// pairs: alone[a] holds a's grade of every pair a graded that someone else graded too, and
+// others[a] the consensus of the other grades of those pairs (consensus nil means
+// MedianGrade). Scoring runs under both, as Voorhees (IPM 36, 2000) scored runs under each
+// assessor's judgments, shows what one assessor's habits alone do to the order; replacing one
+// of three grades (WithoutAssessor) hides most of it behind the median.
+func AloneAndOthers[K comparable](js []PairGrade[K], consensus func([]int) int) (alone, others map[string]map[K]int) {
+	if consensus == nil {
+		consensus = MedianGrade
+	}
+	byPair := make(map[K][]PairGrade[K])
+	for _, j := range js {
+		byPair[j.Pair] = append(byPair[j.Pair], j)
+	}
+	alone, others = map[string]map[K]int{}, map[string]map[K]int{}
+	rest := make([]int, 0, 8)
+	for p, gs := range byPair {
+		for _, mine := range gs {
+			rest = rest[:0]
+			for _, o := range gs {
+				if o.Assessor != mine.Assessor {
+					rest = append(rest, o.Grade)
+				}
+			}
+			if len(rest) == 0 {
+				continue
+			}
+			if alone[mine.Assessor] == nil {
+				alone[mine.Assessor], others[mine.Assessor] = map[K]int{}, map[K]int{}
+			}
+			alone[mine.Assessor][p] = mine.Grade
+			others[mine.Assessor][p] = consensus(rest)
+		}
+	}
+	return alone, others
+}

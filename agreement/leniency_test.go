@@ -209,3 +209,17 @@ func TestWithoutAssessor(t *testing.T) {
 		t.Errorf("majority without b: %v", maj["b"])
 	}
 }
+
+// AloneAndOthers worked by hand: pair p graded 1, 3, 4 by a, b, c; pair q graded 2 by a
+// alone. a's own grade of p is 1 against the others' lower median of {3, 4}, 3; q, graded
+// by nobody else, is in neither.
+func TestAloneAndOthers(t *testing.T) {
+	js := []PairGrade[string]{{"p", "a", 1}, {"p", "b", 3}, {"p", "c", 4}, {"q", "a", 2}}
+	alone, others := AloneAndOthers(js, nil)
+	if len(alone["a"]) != 1 || alone["a"]["p"] != 1 || others["a"]["p"] != 3 {
+		t.Errorf("a: alone %v, others %v", alone["a"], others["a"])
+	}
+	if alone["c"]["p"] != 4 || others["c"]["p"] != 1 || alone["b"]["p"] != 3 || others["b"]["p"] != 1 {
+		t.Errorf("b, c: alone %v, others %v", alone, others)
+	}
+}
