@@ -170,9 +170,12 @@ func MeanScores(runs map[string]Run, o Options, m Metric) Leaderboard {
 
 // AssessorEffect is what one assessor does to the leaderboard: the order under the actual
 // final grades compared with the order under final grades made without that assessor.
+// Note says why an order could not be made (the runs have no query with a defined score
+// under that assessor's grades); Order is then empty, its tau undefined.
 type AssessorEffect struct {
 	Assessor string          `json:"assessor"`
 	Order    OrderComparison `json:"order"`
+	Note     string          `json:"note,omitempty"`
 }
 
 // WhatIf scores the runs under the actual final grades and under each assessor's variant
@@ -224,15 +227,24 @@ func sortEffects(out []AssessorEffect) {
 // WhatIfAlone compares, for each assessor, the order of the runs under the others' consensus
 // on the pairs the assessor graded (others[a]) with the order under the assessor's own grades
 // of the same pairs (alone[a]), as agreement.AloneAndOthers makes them. Both orders rest on
-// the same pairs, so only the grades differ. Sorted as WhatIf sorts.
+// the same pairs, so only the grades differ. An assessor under whose grades (or the others')
+// no run has a defined score gets a Note instead of an order. Sorted as WhatIf sorts.
 func WhatIfAlone(alone, others map[string]Qrels, board Leaderboard) ([]AssessorEffect, error) {
 	out := make([]AssessorEffect, 0, len(alone))
 	for a, own := range alone {
 		base, err := board(others[a])
+		if e, ok := pertinent.AsError(err); ok && e.Code == pertinent.Invalid {
+			out = append(out, AssessorEffect{Assessor: a, Note: e.Message})
+			continue
+		}
 		if err != nil {
 			return nil, err
 		}
 		s, err := board(own)
+		if e, ok := pertinent.AsError(err); ok && e.Code == pertinent.Invalid {
+			out = append(out, AssessorEffect{Assessor: a, Note: e.Message})
+			continue
+		}
 		if err != nil {
 			return nil, err
 		}

@@ -41,6 +41,7 @@ func (s *Server) routes() chi.Router {
 			r.With(s.longTransfer).Post("/evaluate", s.apiEvaluate)
 			r.Get("/designs/{design}", s.apiDesign)
 			r.Get("/designs/{design}/queries", s.apiDesignQueries)
+			r.Get("/assessor-effects", s.apiEffects)
 		})
 		r.NotFound(func(w http.ResponseWriter, r *http.Request) {
 			apiError(w, http.StatusNotFound, "no such endpoint")
@@ -83,6 +84,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/overview", s.overview)
 				r.Get("/assessors", s.assessorsPage)
 				r.Get("/assessors/{user}", s.assessorPage)
+				r.Get("/assessor-effects", s.effectsPage)
 				r.Get("/agreement", s.agreementPage)
 				r.Get("/queue", s.queuePage)
 				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)

@@ -27,9 +27,11 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 	scale := fs.Int("scale", 5, "number of grades K; grades are 0..K-1")
 	boot := fs.Int("bootstrap", 1000, "bootstrap replicates for alpha and mean kappa intervals (0 to skip); with --db the lead's pages' rule unless given")
 	seed := fs.Uint64("seed", 1, "bootstrap seed")
+	effects := fs.Bool("effects", false, "with --db: what each assessor does (leniency, and the kept runs' order under their grades) instead of agreement")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: pertinent agreement --from FILE.csv [--json] [--scale K] [--bootstrap N] [--seed S]")
 		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME [...]")
+		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME --effects [--json]")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -60,6 +62,13 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 			return fmt.Errorf("agreement: %w", err)
 		}
 		defer st.Close()
+		if *effects {
+			e, err := st.AssessorEffects(ctx, p.ID)
+			if err != nil {
+				return err
+			}
+			return printEffects(stdout, e, *asJSON)
+		}
 		d, gold, err := st.AgreementData(ctx, p.ID)
 		if err != nil {
 			return err
@@ -74,6 +83,8 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 		if !given["seed"] {
 			*seed = store.BootstrapSeed
 		}
+	case *effects:
+		return errors.New("agreement: --effects needs --db and --project")
 	case *from != "":
 		d, err := readRatingsCSV(*from, *scale)
 		if err != nil {
