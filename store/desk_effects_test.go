@@ -17,6 +17,12 @@ import (
 // grade, except random (if named), who grades uniformly at random. A source account grades
 // everything 4: it is not an assessor and must not appear.
 func effectsProject(t *testing.T, random string, seed uint64) (*Store, Project) {
+	s, p, _, _ := effectsProjectTruth(t, random, seed)
+	return s, p
+}
+
+// effectsProjectTruth is effectsProject with its true grades as a qrels text, and the lead.
+func effectsProjectTruth(t *testing.T, random string, seed uint64) (*Store, Project, map[[2]string]int, User) {
 	t.Helper()
 	ctx := context.Background()
 	s := openTest(t)
@@ -36,6 +42,7 @@ func effectsProject(t *testing.T, random string, seed uint64) (*Store, Project) 
 	}
 	rng := rand.New(rand.NewPCG(seed, seed+1))
 	runs := make([]strings.Builder, 8)
+	truths := map[[2]string]int{}
 	err := s.Load(ctx, p.ID, func(l *Loader) error {
 		for q := range 30 {
 			qid, err := l.Query(Query{ExternalID: fmt.Sprintf("q%02d", q), Text: "query"})
@@ -53,6 +60,7 @@ func effectsProject(t *testing.T, random string, seed uint64) (*Store, Project) 
 					return err
 				}
 				truth := min(int(rng.ExpFloat64()*1.2), 4)
+				truths[[2]string{fmt.Sprintf("q%02d", q), ext}] = truth
 				for i := range runs {
 					fmt.Fprintf(&runs[i], "q%02d Q0 %s 0 %.4f r%d\n", q, ext, float64(truth)+(0.6+0.15*float64(i))*rng.NormFloat64(), i)
 				}
@@ -83,7 +91,7 @@ func effectsProject(t *testing.T, random string, seed uint64) (*Store, Project) 
 			t.Fatal(err)
 		}
 	}
-	return s, p
+	return s, p, truths, lead
 }
 
 // One assessor grading at random is named by the store's figures, from stored judgments and

@@ -28,6 +28,7 @@ func (im *importer) sourceUser() (int64, error) {
 		err = im.tx.QueryRowContext(im.ctx, insertSource, im.spec.Source, im.spec.Source, im.at).Scan(&id)
 		if err == nil {
 			im.notes = append(im.notes, "new judgment source "+im.spec.Source)
+			err = im.sourceDetails(id)
 		}
 		return id, err
 	}
@@ -37,7 +38,7 @@ func (im *importer) sourceUser() (int64, error) {
 	if Role(role) != RoleSource {
 		return 0, errorf(CodeConflict, "the name "+im.spec.Source+" belongs to an account; choose another source name")
 	}
-	return id, nil
+	return id, im.sourceDetails(id)
 }
 
 // qrels records prior judgments as the source's current judgments. A changed grade

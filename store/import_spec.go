@@ -35,12 +35,16 @@ type ImportSpec struct {
 	Kind ImportKind
 	// Format is "csv", "jsonl" or "svmlight"; empty chooses by each file's extension
 	// (.csv, .jsonl/.ndjson, .svm/.svmlight/.txt for features). Runs and qrels have one format.
-	Format      string
-	DryRun      bool   // validate and count, then roll back
-	Depth       int    // runs: pool depth k; 0 means 10
-	Source      string // qrels: the name the judgments are recorded under
-	Gold        bool   // qrels: also make each pair a gold pair with the qrels grade
-	MaxProblems int    // problems listed before counting the rest; 0 means 20
+	Format string
+	DryRun bool   // validate and count, then roll back
+	Depth  int    // runs: pool depth k; 0 means 10
+	Source string // qrels: the name the judgments are recorded under
+	Gold   bool   // qrels: also make each pair a gold pair with the qrels grade
+	// SourceKind and SourceAbout, for qrels, say what the source is (SourceKinds) and where
+	// its grades came from; given, they replace what was recorded of the source before.
+	SourceKind  SourceKind
+	SourceAbout map[string]string
+	MaxProblems int // problems listed before counting the rest; 0 means 20
 }
 
 // DefaultPoolDepth is the depth used when a runs import names none.
@@ -129,6 +133,9 @@ func (s *Store) Import(ctx context.Context, projectID, by int64, spec ImportSpec
 		spec.Source = strings.TrimSpace(spec.Source)
 		if err := validUsername(spec.Source); err != nil {
 			return rep, errorf(CodeInvalid, "qrels need a source name (letters, digits, '.', '_', '-'): the judgments are recorded under it")
+		}
+		if err := validSourceDetails(spec.SourceKind, spec.SourceAbout); err != nil {
+			return rep, err
 		}
 	}
 	formats := make([]ingest.Format, len(files))

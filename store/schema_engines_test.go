@@ -97,6 +97,7 @@ var storeGivenKeys = map[string]bool{
 	"pair_features.pair_id":       true, // the pair's id
 	"project_versions.project_id": true, // the project's id
 	"bulk_imports.project_id":     true, // the importing project's id
+	"source_details.user_id":      true, // the source account's id
 }
 
 // The schema is written as one line per fact, the same words for both engines:

@@ -144,12 +144,35 @@ type importView struct {
 }
 
 type importForm struct {
-	Kind   string
-	Format string
-	Depth  int
-	Source string
-	DryRun bool
-	Gold   bool
+	Kind       string
+	Format     string
+	Depth      int
+	Source     string
+	SourceKind string
+	About      string // qrels: the source's provenance, one KEY=VALUE a line
+	DryRun     bool
+	Gold       bool
+}
+
+// sourceAbout reads the provenance lines of the import form.
+func sourceAbout(text string) (map[string]string, error) {
+	out := map[string]string{}
+	for i, line := range strings.Split(text, "\n") {
+		line = strings.TrimSpace(line)
+		if line == "" {
+			continue
+		}
+		k, v, ok := strings.Cut(line, "=")
+		k = strings.TrimSpace(k)
+		if !ok || k == "" {
+			return nil, fmt.Errorf("provenance line %d: write KEY=VALUE", i+1)
+		}
+		if _, dup := out[k]; dup {
+			return nil, fmt.Errorf("provenance line %d: %s given twice", i+1, k)
+		}
+		out[k] = strings.TrimSpace(v)
+	}
+	return out, nil
 }
 
 type importJobView struct {
@@ -208,8 +231,15 @@ func (s *Server) importSubmit(w http.ResponseWriter, r *http.Request) {
 		s.render(w, r, http.StatusBadRequest, "import", "", s.newView(r, "Import: "+p.Name, v))
 		return
 	}
+	about, err := sourceAbout(form.About)
+	if err != nil {
+		removeAll(tmp)
+		v := importView{Kinds: store.ImportKinds, Problem: err.Error(), Defaults: form}
+		s.render(w, r, http.StatusBadRequest, "import", "", s.newView(r, "Import: "+p.Name, v))
+		return
+	}
 	spec := store.ImportSpec{Kind: store.ImportKind(form.Kind), Format: form.Format, DryRun: form.DryRun,
-		Depth: form.Depth, Source: form.Source, Gold: form.Gold}
+		Depth: form.Depth, Source: form.Source, SourceKind: store.SourceKind(form.SourceKind), SourceAbout: about, Gold: form.Gold}
 	job := &importJob{id: newJobID(), projectID: p.ID, kind: spec.Kind, started: time.Now()}
 	for _, f := range tmp {
 		job.files = append(job.files, f.name)
@@ -294,6 +324,10 @@ func receiveUpload(r *http.Request, dir string) (importForm, []upload, error) {
 			}
 		case "source":
 			form.Source = v
+		case "source_kind":
+			form.SourceKind = v
+		case "source_about":
+			form.About = v
 		case "dry_run":
 			form.DryRun = v != ""
 		case "gold":

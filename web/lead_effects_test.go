@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"html"
 	"math/rand/v2"
 	"net/http"
 	"strings"
@@ -98,5 +99,57 @@ func TestEffectsPageEqualsTheAPI(t *testing.T) {
 	_, csv := a.get(lead, fmt.Sprintf("/projects/%d/assessor-effects?format=csv&table=leniency", a.project.ID))
 	if !strings.HasPrefix(csv, "assessor,pairs,mean_diff,") || !strings.Contains(csv, "a003,") {
 		t.Errorf("leniency download:\n%s", csv)
+	}
+}
+
+// The Sources page shows each source's provenance, the caution, and the API's numbers; a
+// qrels file sent through the import page carries the source's kind and provenance.
+func TestSourcesPageEqualsTheAPI(t *testing.T) {
+	a := effectsApp(t)
+	lead := a.signIn("leader")
+	var qrels strings.Builder
+	for q := range 30 {
+		for d := range 10 {
+			fmt.Fprintf(&qrels, "q%d 0 q%d-d%d %d\n", q, q, d, (q+d)%5)
+		}
+	}
+	res := a.postImport(lead, a.project.ID, map[string]string{"kind": "qrels", "source": "grader-llm", "source_kind": "model",
+		"source_about": "model=ridge-9\nprompt_sha256=" + strings.Repeat("0f", 32)}, "llm.qrels", qrels.String())
+	if done := a.importDone(lead, res); !strings.Contains(done, "grader-llm") {
+		t.Fatalf("import report:\n%s", done)
+	}
+	page := a.page(lead, fmt.Sprintf("/projects/%d/sources", a.project.ID))
+	token := newToken(t, a, lead)
+	_, body := a.api("GET", fmt.Sprintf("/api/v1/projects/%d/sources", a.project.ID), token, nil)
+	var c store.SourceComparison
+	if err := json.Unmarshal([]byte(body), &c); err != nil || len(c.Sources) != 1 {
+		t.Fatalf("API: %v %s", err, body)
+	}
+	f := c.Sources[0]
+	if f.Kind != store.SourceModel || f.About["model"] != "ridge-9" || f.Report.N != 300 || f.Order == nil {
+		t.Fatalf("API: %+v", f)
+	}
+	figs := figures(t, page)
+	checkFigure(t, "sources", figs, "source-kappa:grader-llm", f.Report.KappaLinear.Kappa)
+	checkFigure(t, "sources", figs, "source-kappa-low:grader-llm", f.Report.KappaLinear.CI.Lo)
+	checkFigure(t, "sources", figs, "source-above:grader-llm", f.Report.Above)
+	checkFigure(t, "sources", figs, "source-tau:grader-llm", agreement.Value{V: f.Order.Tau, OK: f.Order.TauDefined})
+	for g, r := range f.Report.Grades {
+		checkFigure(t, "sources", figs, fmt.Sprintf("recall:grader-llm:%d", g), r.Recall)
+	}
+	for _, want := range []string{"not a substitute for people", "circular", "ridge-9", "prompt_sha256", html.EscapeString(f.Report.Summary)} {
+		if !strings.Contains(page, want) {
+			t.Errorf("the Sources page lacks %q", want)
+		}
+	}
+	// The source is not an assessor: the effects leave it out.
+	e, err := a.store.AssessorEffects(context.Background(), a.project.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, l := range e.Leniency {
+		if l.Rater == "grader-llm" {
+			t.Error("the source is counted among the assessors")
+		}
 	}
 }

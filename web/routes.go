@@ -42,6 +42,7 @@ func (s *Server) routes() chi.Router {
 			r.Get("/designs/{design}", s.apiDesign)
 			r.Get("/designs/{design}/queries", s.apiDesignQueries)
 			r.Get("/assessor-effects", s.apiEffects)
+			r.Get("/sources", s.apiSources)
 		})
 		r.NotFound(func(w http.ResponseWriter, r *http.Request) {
 			apiError(w, http.StatusNotFound, "no such endpoint")
@@ -85,6 +86,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/assessors", s.assessorsPage)
 				r.Get("/assessors/{user}", s.assessorPage)
 				r.Get("/assessor-effects", s.effectsPage)
+				r.Get("/sources", s.sourcesPage)
 				r.Get("/agreement", s.agreementPage)
 				r.Get("/queue", s.queuePage)
 				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)

@@ -27,11 +27,12 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 	scale := fs.Int("scale", 5, "number of grades K; grades are 0..K-1")
 	boot := fs.Int("bootstrap", 1000, "bootstrap replicates for alpha and mean kappa intervals (0 to skip); with --db the lead's pages' rule unless given")
 	seed := fs.Uint64("seed", 1, "bootstrap seed")
+	sources := fs.Bool("sources", false, "with --db: every external source of grades against the people's final grades instead of agreement")
 	effects := fs.Bool("effects", false, "with --db: what each assessor does (leniency, and the kept runs' order under their grades) instead of agreement")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: pertinent agreement --from FILE.csv [--json] [--scale K] [--bootstrap N] [--seed S]")
 		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME [...]")
-		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME --effects [--json]")
+		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME --effects|--sources [--json]")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -62,6 +63,13 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 			return fmt.Errorf("agreement: %w", err)
 		}
 		defer st.Close()
+		if *sources {
+			c, err := st.CompareSources(ctx, p.ID)
+			if err != nil {
+				return err
+			}
+			return printSources(stdout, c, *asJSON)
+		}
 		if *effects {
 			e, err := st.AssessorEffects(ctx, p.ID)
 			if err != nil {
@@ -83,8 +91,8 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 		if !given["seed"] {
 			*seed = store.BootstrapSeed
 		}
-	case *effects:
-		return errors.New("agreement: --effects needs --db and --project")
+	case *effects || *sources:
+		return errors.New("agreement: --effects and --sources need --db and --project")
 	case *from != "":
 		d, err := readRatingsCSV(*from, *scale)
 		if err != nil {

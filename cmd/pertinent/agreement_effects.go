@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 
+	"github.com/pertinent/pertinent/agreement"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -36,6 +37,40 @@ func printEffects(w io.Writer, e store.AssessorEffects, asJSON bool) error {
 		fmt.Fprintf(w, "%s moves the order clearly away from the others'.\n", e.Standout)
 	} else {
 		fmt.Fprintln(w, "No single assessor's grades move the order clearly away from the others'.")
+	}
+	return nil
+}
+
+// printSources prints every source against the people, as the Sources page shows it: one
+// JSON object (the API's), or lines of text.
+func printSources(w io.Writer, c store.SourceComparison, asJSON bool) error {
+	if asJSON {
+		enc := json.NewEncoder(w)
+		enc.SetIndent("", "  ")
+		return enc.Encode(c)
+	}
+	if len(c.Sources) == 0 {
+		fmt.Fprintln(w, "No source of grades in this project.")
+	}
+	for _, f := range c.Sources {
+		kind := string(f.Kind)
+		if kind == "" {
+			kind = "kind not given"
+		}
+		fmt.Fprintf(w, "%s (%s): %d grades, %d on pairs with people's final grades\n", f.Name, kind, f.Grades, f.Report.N)
+		for _, k := range f.AboutKeys() {
+			fmt.Fprintf(w, "  %s: %s\n", k, f.About[k])
+		}
+		if f.Report.N > 0 {
+			k := f.Report.KappaLinear
+			fmt.Fprintf(w, "  linear kappa %s (95%% interval %s to %s); %s\n", num(k.Kappa), num(k.CI.Lo), num(k.CI.Hi), f.Report.Summary)
+		}
+		if f.Order != nil {
+			fmt.Fprintf(w, "  Kendall's tau of the kept runs' order (%s), people against source: %s; %d run pairs in another order\n",
+				c.Measure, num(agreement.Value{V: f.Order.Tau, OK: f.Order.TauDefined, Why: f.Order.Why}), len(f.Order.Changed))
+		} else {
+			fmt.Fprintf(w, "  %s\n", f.OrderNote)
+		}
 	}
 	return nil
 }

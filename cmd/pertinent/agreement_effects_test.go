@@ -4,9 +4,12 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"fmt"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"github.com/pertinent/pertinent/store"
 )
 
 // `pertinent agreement --effects --json` prints the store's computation itself, the one the
@@ -43,7 +46,52 @@ func TestAgreementEffectsPrintsTheStoresFigures(t *testing.T) {
 			t.Errorf("text lacks %s's leniency:\n%s", l.Rater, out.String())
 		}
 	}
-	if err := runAgreement(ctx, []string{"--effects"}, &out, &errOut); err == nil || !strings.Contains(err.Error(), "--effects needs --db") {
+	if err := runAgreement(ctx, []string{"--effects"}, &out, &errOut); err == nil || !strings.Contains(err.Error(), "--effects and --sources need --db") {
 		t.Errorf("--effects alone: %v", err)
+	}
+}
+
+// `pertinent import qrels --source-kind --source-about` records the provenance, and
+// `pertinent agreement --sources --json` prints the store's comparison itself.
+func TestAgreementSourcesPrintsTheStoresFigures(t *testing.T) {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "demo.db")
+	st := openTestStore(t, path)
+	if _, err := seedDemo(ctx, st); err != nil {
+		t.Fatal(err)
+	}
+	p := testProject(t, st, demoProjectName)
+	var qrels strings.Builder
+	err := st.ExportPairs(ctx, p.ID, store.ExportScan{}, func(x *store.ExportPair) error {
+		fmt.Fprintf(&qrels, "%s 0 %s %d\n", x.QueryID, x.DocID, len(x.DocID)%5)
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	file := writeFile(t, "model.qrels", qrels.String())
+	var out, errOut bytes.Buffer
+	args := []string{"qrels", "--db", path, "--project", demoProjectName, "--source", "model-b", "--source-kind", "model",
+		"--source-about", "model=ridge-9", "--source-about", "date=2026-11-30", file}
+	if err := runImport(ctx, args, &out, &errOut); err != nil {
+		t.Fatal(err, errOut.String())
+	}
+	want, err := st.CompareSources(ctx, p.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(want.Sources) != 1 || want.Sources[0].About["date"] != "2026-11-30" || want.Sources[0].Kind != store.SourceModel || want.Sources[0].Report.N == 0 {
+		t.Fatalf("provenance not recorded: %+v", want.Sources)
+	}
+	out.Reset()
+	if err := runAgreement(ctx, []string{"--db", path, "--project", demoProjectName, "--sources", "--json"}, &out, &errOut); err != nil {
+		t.Fatal(err)
+	}
+	wantJSON, _ := json.MarshalIndent(want, "", "  ")
+	if strings.TrimSpace(out.String()) != string(wantJSON) {
+		t.Errorf("--json differs from the store's figures:\n%s\nwant\n%s", out.String(), wantJSON)
+	}
+	if err := runImport(ctx, []string{"qrels", "--db", path, "--project", demoProjectName, "--source", "m", "--source-about", "novalue", file}, &out, &errOut); err == nil {
+		t.Error("--source-about without = accepted")
 	}
 }

@@ -17,7 +17,7 @@ import (
 )
 
 const importHelp = "usage: pertinent import queries|documents|pairs|rows|runs|qrels|features --db FILE --project NAME " +
-	"[--format csv|jsonl|svmlight] [--dry-run] [--depth K] [--source NAME] [--gold] [--progress] FILE..."
+	"[--format csv|jsonl|svmlight] [--dry-run] [--depth K] [--source NAME [--source-kind model|campaign|heuristic] [--source-about KEY=VALUE]...] [--gold] [--progress] FILE..."
 
 // errRejected makes the command exit non-zero after it has printed the problems itself.
 var errRejected = errors.New("import rejected: nothing was changed")
@@ -34,6 +34,9 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	dry := fs.Bool("dry-run", false, "check the files and report what would change, without changing anything")
 	depth := fs.Int("depth", store.DefaultPoolDepth, "runs: pool the top K of each run and query")
 	source := fs.String("source", "", "qrels: the name the judgments are recorded under (required for qrels)")
+	sourceKind := fs.String("source-kind", "", "qrels: what the source is: model, campaign or heuristic")
+	about := keyValues{}
+	fs.Var(about, "source-about", "qrels: one provenance field of the source as KEY=VALUE (model, version, prompt_sha256, parameters, date, ...); repeat for more")
 	gold := fs.Bool("gold", false, "qrels: also make each pair a gold pair with its qrels grade")
 	progress := fs.Bool("progress", false, "show a progress bar even when standard error is not a terminal")
 	maxProblems := fs.Int("max-problems", 20, "problems listed before counting the rest")
@@ -77,7 +80,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		}
 		defer bar.Finish()
 	}
-	spec := store.ImportSpec{Kind: kind, Format: *format, DryRun: *dry, Depth: *depth, Source: *source, Gold: *gold, MaxProblems: *maxProblems}
+	spec := store.ImportSpec{Kind: kind, Format: *format, DryRun: *dry, Depth: *depth, Source: *source, SourceKind: store.SourceKind(*sourceKind), SourceAbout: about, Gold: *gold, MaxProblems: *maxProblems}
 	rep, err := st.Import(ctx, p.ID, 0, spec, files)
 	var ps *ingest.Problems
 	if errors.As(err, &ps) {
@@ -107,5 +110,22 @@ func printReport(w io.Writer, project string, rep store.ImportReport) error {
 	for _, n := range rep.Notes {
 		fmt.Fprintln(w, n)
 	}
+	return nil
+}
+
+// keyValues collects repeated KEY=VALUE flags.
+type keyValues map[string]string
+
+func (kv keyValues) String() string { return "" }
+
+func (kv keyValues) Set(v string) error {
+	k, val, ok := strings.Cut(v, "=")
+	if !ok || strings.TrimSpace(k) == "" {
+		return fmt.Errorf("want KEY=VALUE, got %q", v)
+	}
+	if _, dup := kv[k]; dup {
+		return fmt.Errorf("%s given twice", k)
+	}
+	kv[k] = val
 	return nil
 }
