@@ -233,14 +233,10 @@ func WhatIfAlone(alone, others map[string]Qrels, board Leaderboard) ([]AssessorE
 	out := make([]AssessorEffect, 0, len(alone))
 	for a, own := range alone {
 		base, err := board(others[a])
-		if e, ok := pertinent.AsError(err); ok && e.Code == pertinent.Invalid {
-			out = append(out, AssessorEffect{Assessor: a, Note: e.Message})
-			continue
+		var s map[string]float64
+		if err == nil {
+			s, err = board(own)
 		}
-		if err != nil {
-			return nil, err
-		}
-		s, err := board(own)
 		if e, ok := pertinent.AsError(err); ok && e.Code == pertinent.Invalid {
 			out = append(out, AssessorEffect{Assessor: a, Note: e.Message})
 			continue

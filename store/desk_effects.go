@@ -29,8 +29,55 @@ type AssessorEffects struct {
 	LeftOut  []rankeval.AssessorEffect `json:"left_out"`
 }
 
-// effectsCutoff is the rank the what-if leaderboard scores to: NDCG@10, the common choice.
+// effectsCutoff is the rank the what-if leaderboards score to: NDCG@10, the common choice.
 const effectsCutoff = 10
+
+// keptRunsBoard is the leaderboard of the project's kept runs by mean NDCG@effectsCutoff
+// with exponential gain, and the runs' names; nil, with the names, when fewer than two runs
+// are kept and there is no order to compare.
+func (s *Store) keptRunsBoard(ctx context.Context, projectID int64, maxGrade int) (rankeval.Leaderboard, []string, error) {
+	kept, err := s.KeptRuns(ctx, projectID)
+	if err != nil {
+		return nil, nil, err
+	}
+	names := make([]string, len(kept))
+	ids := make([]int64, len(kept))
+	for i, k := range kept {
+		ids[i], names[i] = k.ID, k.Name
+	}
+	if len(kept) < 2 {
+		return nil, names, nil
+	}
+	named, err := s.loadRuns(ctx, projectID, ids)
+	if err != nil {
+		return nil, nil, err
+	}
+	runs := make(map[string]rankeval.Run, len(named))
+	for _, r := range named {
+		runs[r.Name] = r.Run
+	}
+	o := rankeval.Options{K: effectsCutoff, Gain: rankeval.GainExponential, Threshold: 1, MaxGrade: maxGrade}
+	return rankeval.MeanScores(runs, o, rankeval.MetricNDCG), names, nil
+}
+
+// adjudicatedGrades are the project's current adjudicated grades by (query, document)
+// external ids: final grades no assessor changes.
+func (s *Store) adjudicatedGrades(ctx context.Context, projectID int64) (map[[2]string]int, error) {
+	fixed := map[[2]string]int{}
+	err := eachRow(ctx, s.r, `SELECT q.external_id, d.external_id, a.grade
+		FROM adjudications a JOIN pairs p ON p.id = a.pair_id JOIN queries q ON q.id = p.query_id
+		JOIN documents d ON d.id = p.document_id
+		WHERE p.project_id = ? AND a.current = 1`, func(r rowScanner) error {
+		var key [2]string
+		var g int
+		if err := r.Scan(&key[0], &key[1], &g); err != nil {
+			return err
+		}
+		fixed[key] = g
+		return nil
+	}, projectID)
+	return fixed, err
+}
 
 // AssessorEffects computes the project's AssessorEffects from its current grades by people
 // (external sources are not assessors and are left out), its current adjudications, which no
@@ -64,49 +111,23 @@ func (s *Store) AssessorEffects(ctx context.Context, projectID int64) (AssessorE
 	if err != nil {
 		return out, err
 	}
-	fixed := map[[2]string]int{}
-	err = eachRow(ctx, s.r, `SELECT q.external_id, d.external_id, a.grade
-		FROM adjudications a JOIN pairs p ON p.id = a.pair_id JOIN queries q ON q.id = p.query_id
-		JOIN documents d ON d.id = p.document_id
-		WHERE p.project_id = ? AND a.current = 1`, func(r rowScanner) error {
-		var key [2]string
-		var g int
-		if err := r.Scan(&key[0], &key[1], &g); err != nil {
-			return err
-		}
-		fixed[key] = g
-		return nil
-	}, projectID)
+	fixed, err := s.adjudicatedGrades(ctx, projectID)
 	if err != nil {
 		return out, err
 	}
 	out.Leniency = agreement.Leniency(d, 0.95, agreement.DSOptions{})
 
-	kept, err := s.KeptRuns(ctx, projectID)
+	out.Measure = "NDCG@10"
+	out.Alone, out.Replaced, out.LeftOut = []rankeval.AssessorEffect{}, []rankeval.AssessorEffect{}, []rankeval.AssessorEffect{}
+	board, runs, err := s.keptRunsBoard(ctx, projectID, len(levels)-1)
 	if err != nil {
 		return out, err
 	}
-	out.Measure = "NDCG@10"
-	out.Runs, out.Alone, out.Replaced, out.LeftOut = []string{}, []rankeval.AssessorEffect{}, []rankeval.AssessorEffect{}, []rankeval.AssessorEffect{}
-	if len(kept) < 2 {
+	out.Runs = runs
+	if board == nil {
 		out.Note = "Keep at least two runs (Evaluate runs → keep) to see what each assessor does to their order."
 		return out, nil
 	}
-	ids := make([]int64, len(kept))
-	for i, k := range kept {
-		ids[i] = k.ID
-	}
-	named, err := s.loadRuns(ctx, projectID, ids)
-	if err != nil {
-		return out, err
-	}
-	runs := make(map[string]rankeval.Run, len(named))
-	for _, r := range named {
-		runs[r.Name] = r.Run
-		out.Runs = append(out.Runs, r.Name)
-	}
-	board := rankeval.MeanScores(runs, rankeval.Options{K: effectsCutoff, Gain: rankeval.GainExponential, Threshold: 1, MaxGrade: len(levels) - 1}, rankeval.MetricNDCG)
-
 	alone, others := agreement.AloneAndOthers(js, agreement.MedianGrade)
 	aq, oq := map[string]rankeval.Qrels{}, map[string]rankeval.Qrels{}
 	for a := range alone {

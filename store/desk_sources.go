@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"maps"
 
 	"github.com/pertinent/pertinent"
 	"github.com/pertinent/pertinent/agreement"
@@ -76,42 +77,16 @@ func (s *Store) CompareSources(ctx context.Context, projectID int64) (SourceComp
 	for k, gs := range people {
 		final[k] = agreement.MedianGrade(gs)
 	}
-	err = eachRow(ctx, s.r, `SELECT q.external_id, d.external_id, a.grade
-		FROM adjudications a JOIN pairs p ON p.id = a.pair_id JOIN queries q ON q.id = p.query_id
-		JOIN documents d ON d.id = p.document_id
-		WHERE p.project_id = ? AND a.current = 1`, func(r rowScanner) error {
-		var k key
-		var g int
-		if err := r.Scan(&k[0], &k[1], &g); err != nil {
-			return err
-		}
-		final[k] = g
-		return nil
-	}, projectID)
+	adjudicated, err := s.adjudicatedGrades(ctx, projectID)
 	if err != nil {
 		return out, err
 	}
-	kept, err := s.KeptRuns(ctx, projectID)
+	maps.Copy(final, adjudicated)
+	board, runs, err := s.keptRunsBoard(ctx, projectID, len(levels)-1)
 	if err != nil {
 		return out, err
 	}
-	var board rankeval.Leaderboard
-	if len(kept) >= 2 {
-		ids := make([]int64, len(kept))
-		for i, k := range kept {
-			ids[i] = k.ID
-		}
-		named, err := s.loadRuns(ctx, projectID, ids)
-		if err != nil {
-			return out, err
-		}
-		runs := make(map[string]rankeval.Run, len(named))
-		for _, r := range named {
-			runs[r.Name] = r.Run
-			out.Runs = append(out.Runs, r.Name)
-		}
-		board = rankeval.MeanScores(runs, rankeval.Options{K: effectsCutoff, Gain: rankeval.GainExponential, Threshold: 1, MaxGrade: len(levels) - 1}, rankeval.MetricNDCG)
-	}
+	out.Runs = runs
 	for _, src := range sources {
 		f := SourceFigures{Source: src}
 		var sg, hg []int
