@@ -150,6 +150,7 @@ type importForm struct {
 	Source     string
 	SourceKind string
 	About      string // qrels: the source's provenance, one KEY=VALUE a line
+	about      map[string]string
 	DryRun     bool
 	Gold       bool
 }
@@ -231,15 +232,8 @@ func (s *Server) importSubmit(w http.ResponseWriter, r *http.Request) {
 		s.render(w, r, http.StatusBadRequest, "import", "", s.newView(r, "Import: "+p.Name, v))
 		return
 	}
-	about, err := sourceAbout(form.About)
-	if err != nil {
-		removeAll(tmp)
-		v := importView{Kinds: store.ImportKinds, Problem: err.Error(), Defaults: form}
-		s.render(w, r, http.StatusBadRequest, "import", "", s.newView(r, "Import: "+p.Name, v))
-		return
-	}
 	spec := store.ImportSpec{Kind: store.ImportKind(form.Kind), Format: form.Format, DryRun: form.DryRun,
-		Depth: form.Depth, Source: form.Source, SourceKind: store.SourceKind(form.SourceKind), SourceAbout: about, Gold: form.Gold}
+		Depth: form.Depth, Source: form.Source, SourceKind: store.SourceKind(form.SourceKind), SourceAbout: form.about, Gold: form.Gold}
 	job := &importJob{id: newJobID(), projectID: p.ID, kind: spec.Kind, started: time.Now()}
 	for _, f := range tmp {
 		job.files = append(job.files, f.name)
@@ -336,6 +330,9 @@ func receiveUpload(r *http.Request, dir string) (importForm, []upload, error) {
 	}
 	if len(tmp) == 0 {
 		return form, tmp, errors.New("choose at least one file to import")
+	}
+	if form.about, err = sourceAbout(form.About); err != nil {
+		return form, tmp, err
 	}
 	return form, tmp, nil
 }

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"html"
+	"io"
 	"math/rand/v2"
 	"net/http"
 	"strings"
@@ -117,6 +118,10 @@ func TestSourcesPageEqualsTheAPI(t *testing.T) {
 		"source_about": "model=ridge-9\nprompt_sha256=" + strings.Repeat("0f", 32)}, "llm.qrels", qrels.String())
 	if done := a.importDone(lead, res); !strings.Contains(done, "grader-llm") {
 		t.Fatalf("import report:\n%s", done)
+	}
+	bad := a.postImport(lead, a.project.ID, map[string]string{"kind": "qrels", "source": "other", "source_kind": "model", "source_about": "model=x\nno value"}, "x.qrels", "q1 0 q1-d1 2\n")
+	if b, _ := io.ReadAll(bad.Body); bad.StatusCode != http.StatusBadRequest || !strings.Contains(string(b), "provenance line 2: write KEY=VALUE") {
+		t.Errorf("a provenance line without =: %d\n%s", bad.StatusCode, b)
 	}
 	page := a.page(lead, fmt.Sprintf("/projects/%d/sources", a.project.ID))
 	token := newToken(t, a, lead)
