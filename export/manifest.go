@@ -46,7 +46,10 @@ type Manifest struct {
 	Grades            map[string]int        `json:"grades"` // rows per final grade; keys are grades in decimal
 	Splits            map[string]SplitCount `json:"splits,omitempty"`
 	Excluded          map[string]int        `json:"excluded,omitempty"` // pairs left out, per reason
-	Files             []ManifestFile        `json:"files"`
+	// FromSources counts the final grades that came from an external source rather than
+	// from people (the policy's FillFrom), per source: never silently.
+	FromSources map[string]int `json:"from_sources,omitempty"`
+	Files       []ManifestFile `json:"files"`
 }
 
 // NewManifest starts a manifest for a policy, stamped with the time given.

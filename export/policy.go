@@ -38,6 +38,10 @@ type LabelPolicy struct {
 	ExcludeCannotJudge bool `json:"exclude_cannot_judge"`
 	ExcludeFlagged     bool `json:"exclude_flagged"`
 	ExcludeGold        bool `json:"exclude_gold"`
+	// FillFrom names an external source whose grade becomes the final grade of a pair no
+	// person graded (and no lead adjudicated); empty, such pairs are left out. Never the
+	// default: a source's grades are not people's, and the manifest counts every pair filled.
+	FillFrom string `json:"fill_from,omitempty"`
 }
 
 // PairLabels is what the policy needs to know about one pair.
@@ -48,6 +52,7 @@ type PairLabels struct {
 	Flagged     bool
 	Gold        bool
 	DawidSkene  *int // most likely grade from a Dawid-Skene fit, if computed
+	Source      *int // the grade of the policy's FillFrom source, if it graded the pair
 }
 
 // Decision is the outcome of a policy for one pair.
@@ -56,6 +61,7 @@ type Decision struct {
 	Decided  string // e.g. "adjudicated", "median of 3"
 	Include  bool
 	Excluded string // why the pair is left out, when !Include
+	Source   string // the source the grade comes from, when no person graded the pair
 }
 
 // Validate reports an unknown consensus method or negative limits.
@@ -90,6 +96,9 @@ func (p LabelPolicy) Apply(in PairLabels) Decision {
 		return out("cannot judge")
 	}
 	n := len(in.Grades)
+	if n == 0 && p.FillFrom != "" && in.Source != nil && in.Adjudicated == nil {
+		return Decision{Grade: *in.Source, Decided: "source " + p.FillFrom, Include: true, Source: p.FillFrom}
+	}
 	if n == 0 || n < p.minJudgments() {
 		return out(fmt.Sprintf("too few judgments (%d of %d)", n, p.minJudgments()))
 	}
@@ -159,6 +168,9 @@ func (p LabelPolicy) Describe() string {
 	}
 	if p.ExcludeGold {
 		out = append(out, "gold pairs")
+	}
+	if p.FillFrom != "" {
+		b.WriteString("; where no person graded a pair, the grade of source " + p.FillFrom)
 	}
 	switch len(out) {
 	case 0:

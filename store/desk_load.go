@@ -47,6 +47,7 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 	if err != nil {
 		return nil, err
 	}
+
 	for id := range users {
 		if id >= 1<<24 {
 			return nil, errors.New("store: user ids beyond 2^24 do not fit the desk's packing")
@@ -74,6 +75,11 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 	if maxPair >= 1<<35 || d.seenID >= 1<<39 {
 		return nil, errors.New("store: pair ids beyond 2^35 or judgment ids beyond 2^39 do not fit the desk's packing")
 	}
+	// Read in the same snapshot as the rows: a source's rows must never slip in.
+	sources, err := sourceAccounts(ctx, tx)
+	if err != nil {
+		return nil, err
+	}
 	if d.Gold, d.goldPair, err = goldGrades(ctx, tx, projectID); err != nil {
 		return nil, err
 	}
@@ -95,6 +101,7 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 		if err != nil {
 			return nil, err
 		}
+		added = withoutSources(added, sources)
 		d.rows = mergeDeskRows(old.rows, added, retired)
 		d.Incremental = true
 	} else {
@@ -105,6 +112,7 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 		if d.rows, err = scanDeskRows(rows, err, hint); err != nil {
 			return nil, err
 		}
+		d.rows = withoutSources(d.rows, sources)
 		if !slices.IsSortedFunc(d.rows, compareDeskRows) {
 			slices.SortFunc(d.rows, compareDeskRows)
 		}
@@ -228,6 +236,33 @@ func scanDeskRows(rows *sql.Rows, err error, capacity int) ([]deskRow, error) {
 		out = append(out, deskRow{key: uint64(a), idms: uint64(b), at: unixMillis(at)})
 	}
 	return out, rows.Err()
+}
+
+// sourceAccounts marks the ids of external sources' accounts (role 'source'), indexed by
+// user id; nil when there are none, the common case.
+func sourceAccounts(ctx context.Context, q querier) ([]bool, error) {
+	ids, err := queryAll(ctx, q, `SELECT id FROM users WHERE role = 'source'`, scanValue[int64])
+	if err != nil || len(ids) == 0 {
+		return nil, err
+	}
+	marks := make([]bool, slices.Max(ids)+1)
+	for _, id := range ids {
+		marks[id] = true
+	}
+	return marks, nil
+}
+
+// withoutSources drops the rows of external sources: the desk's figures are about people,
+// and sources are measured against them on the Sources page. A retired source row then
+// finds nothing to drop in mergeDeskRows, which is harmless.
+func withoutSources(rows []deskRow, sources []bool) []deskRow {
+	if sources == nil {
+		return rows
+	}
+	return slices.DeleteFunc(rows, func(r deskRow) bool {
+		u := r.user()
+		return u < int64(len(sources)) && sources[u]
+	})
 }
 
 // mergeDeskRows returns old without the retired judgments and with added merged in, in

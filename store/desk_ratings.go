@@ -12,12 +12,14 @@ type Rating struct {
 	Grade  int
 }
 
-// Ratings streams a project's current grades in pair order, without holding them in memory.
+// Ratings streams a project's current grades by people in pair order, without holding them
+// in memory. External sources' grades are not ratings: they are measured against people's
+// (CompareSources), never counted among them.
 func (s *Store) Ratings(ctx context.Context, projectID int64, fn func(Rating) error) error {
 	var r Rating
 	return eachRow(ctx, s.r, `SELECT j.pair_id, j.user_id, j.grade
-		FROM judgments j JOIN pairs p ON p.id = j.pair_id
-		WHERE p.project_id = ? AND j.current = 1 AND j.grade IS NOT NULL
+		FROM judgments j JOIN pairs p ON p.id = j.pair_id JOIN users u ON u.id = j.user_id
+		WHERE p.project_id = ? AND j.current = 1 AND j.grade IS NOT NULL AND u.role != 'source'
 		ORDER BY j.pair_id, j.user_id`, func(row rowScanner) error {
 		if err := row.Scan(&r.PairID, &r.UserID, &r.Grade); err != nil {
 			return err

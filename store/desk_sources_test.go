@@ -7,6 +7,8 @@ import (
 	"slices"
 	"strings"
 	"testing"
+
+	"github.com/pertinent/pertinent/export"
 )
 
 // qrelsText writes grades as a qrels file, changed by f.
@@ -106,5 +108,94 @@ func TestSourceDetailsAreChecked(t *testing.T) {
 	srcs, err := s.Sources(ctx, p.ID)
 	if err != nil || len(srcs) != 1 || srcs[0].Name != "model-x" {
 		t.Errorf("after refused imports: %+v %v", srcs, err)
+	}
+}
+
+// External sources are measured against people, never counted among them: the desk, the
+// agreement input and the final grades leave them out, also when their grades arrive after the
+// desk was built (the incremental desk). A label policy's FillFrom takes a source's grade only
+// where no person graded, and the manifest counts each such grade.
+func TestSourcesAreNotPeople(t *testing.T) {
+	ctx := context.Background()
+	s, p, truth, lead := effectsProjectTruth(t, "", 13)
+	if _, err := s.Desk(ctx, p.ID); err != nil { // built before the new source's grades
+		t.Fatal(err)
+	}
+	err := s.Load(ctx, p.ID, func(l *Loader) error {
+		qid, err := l.Query(Query{ExternalID: "q-new", Text: "query"})
+		if err != nil {
+			return err
+		}
+		did, err := l.Document(Document{ExternalID: "d-new"})
+		if err != nil {
+			return err
+		}
+		_, err = l.Pair(PairSpec{QueryID: qid, DocumentID: did})
+		return err
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	qrels := qrelsText(truth, func(g int) int { return 4 - g }) + "q-new 0 d-new 3\n"
+	if _, err := s.Import(ctx, p.ID, lead.ID, ImportSpec{Kind: ImportQrels, Source: "flip", SourceKind: SourceHeuristic},
+		[]ImportFile{{Name: "flip.qrels", R: strings.NewReader(qrels)}}); err != nil {
+		t.Fatal(err)
+	}
+	d, err := s.Desk(ctx, p.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, a := range d.Assessors {
+		if a.Username == "flip" || a.Username == "model-x" {
+			t.Errorf("the desk counts source %s as an assessor", a.Username)
+		}
+	}
+	if !d.Incremental {
+		t.Error("the second desk was rebuilt, so the incremental path went unchecked")
+	}
+	data, _, err := s.AgreementData(ctx, p.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if names := data.RaterNames(); slices.Contains(names, "flip") || slices.Contains(names, "model-x") || len(names) != 5 {
+		t.Errorf("agreement raters %v", names)
+	}
+	policy := export.LabelPolicy{AdjudicationFirst: true, Consensus: export.ConsensusMedian}
+	final, _, err := s.FinalGrades(ctx, p.ID, policy)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k, g := range truth {
+		if final[k[0]][k[1]] != g {
+			t.Fatalf("final grade of %v is %d, want the people's %d", k, final[k[0]][k[1]], g)
+		}
+	}
+	if _, ok := final["q-new"]; ok {
+		t.Error("a pair no person graded has a final grade without FillFrom")
+	}
+	policy.FillFrom = "flip"
+	final, _, err = s.FinalGrades(ctx, p.ID, policy)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if final["q-new"]["d-new"] != 3 || final["q00"]["q00-d00"] != truth[[2]string{"q00", "q00-d00"}] {
+		t.Errorf("filled from flip: q-new %v, q00-d00 %d", final["q-new"], final["q00"]["q00-d00"])
+	}
+	plan, err := s.PlanExport(ctx, p.ID, ExportRequest{Policy: policy, Format: FormatQrels})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sink := &export.DirSink{Dir: t.TempDir()}
+	m, err := plan.Write(ctx, sink, s.clock(), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sink.Close()
+	if m.FromSources["flip"] != 1 || len(m.FromSources) != 1 || !strings.Contains(m.PolicyDescription, "the grade of source flip") {
+		t.Errorf("manifest: from sources %v, policy %q", m.FromSources, m.PolicyDescription)
+	}
+	policy.FillFrom = "nobody"
+	if _, err := s.PlanExport(ctx, p.ID, ExportRequest{Policy: policy, Format: FormatQrels}); ErrorCode(err) != CodeInvalid {
+		t.Errorf("FillFrom naming no source: %v", err)
 	}
 }

@@ -49,17 +49,21 @@ func (p *ExportPair) Features(buf []export.Feature) ([]export.Feature, error) {
 type ExportScan struct {
 	Features   bool          // read pair_features (left unread otherwise)
 	DawidSkene map[int64]int // Dawid-Skene grade per pair id, from DawidSkeneGrades
+	FillFrom   string        // the source whose grades fill Labels.Source (a LabelPolicy's FillFrom)
 }
 
-// Current judgments of one pair come packed in one text: records split by char(30), fields
+// Current judgments of one pair by people come packed in one text (external sources are not
+// among them; the grade of the source a policy fills from comes in a column of its own): records split by char(30), fields
 // (username, grade, cannot-judge reason) by char(31), so one statement streams every pair
 // without a sort over the judgments table and without decoding JSON per pair.
 const exportPairsSQL = `SELECT p.id, q.external_id, d.external_id, p.gold_grade IS NOT NULL,
 		(SELECT a.grade FROM adjudications a WHERE a.pair_id = p.id AND a.current = 1),
 		(SELECT group_concat(u.username || char(31) || COALESCE(j.grade, '') || char(31) || COALESCE(j.cannot_judge, ''), char(30) ORDER BY u.username)
 			FROM judgments j JOIN users u ON u.id = j.user_id
-			WHERE j.pair_id = p.id AND j.current = 1 AND j.withdrawn_at IS NULL),
-		CASE WHEN ?2 THEN (SELECT f.data FROM pair_features f WHERE f.pair_id = p.id) END
+			WHERE j.pair_id = p.id AND j.current = 1 AND j.withdrawn_at IS NULL AND u.role != 'source'),
+		CASE WHEN ?2 THEN (SELECT f.data FROM pair_features f WHERE f.pair_id = p.id) END,
+		CASE WHEN ?3 != '' THEN (SELECT j.grade FROM judgments j JOIN users u ON u.id = j.user_id
+			WHERE j.pair_id = p.id AND j.current = 1 AND u.role = 'source' AND u.username = ?3) END
 	FROM queries q JOIN pairs p ON p.query_id = q.id JOIN documents d ON d.id = p.document_id
 	WHERE q.project_id = ?1
 	ORDER BY q.external_id, d.external_id`
@@ -72,13 +76,13 @@ func (s *Store) ExportPairs(ctx context.Context, projectID int64, scan ExportSca
 	var p ExportPair
 	var ds int
 	return eachRow(ctx, s.r, exportPairsSQL, func(r rowScanner) error {
-		var adj sql.NullInt64
+		var adj, src sql.NullInt64
 		var packed sql.NullString
-		if err := r.Scan(&p.PairID, &p.QueryID, &p.DocID, &p.Labels.Gold, &adj, &packed, &p.blob); err != nil {
+		if err := r.Scan(&p.PairID, &p.QueryID, &p.DocID, &p.Labels.Gold, &adj, &packed, &p.blob, &src); err != nil {
 			return err
 		}
 		l := &p.Labels
-		l.Adjudicated, l.DawidSkene = gradeOf(adj), nil
+		l.Adjudicated, l.DawidSkene, l.Source = gradeOf(adj), nil, gradeOf(src)
 		if g, ok := scan.DawidSkene[p.PairID]; ok {
 			ds = g
 			l.DawidSkene = &ds
@@ -87,7 +91,7 @@ func (s *Store) ExportPairs(ctx context.Context, projectID int64, scan ExportSca
 			return err
 		}
 		return fn(&p)
-	}, projectID, scan.Features)
+	}, projectID, scan.Features, scan.FillFrom)
 }
 
 func unpackJudgments(p *ExportPair, packed string) error {

@@ -55,6 +55,9 @@ func (s *Store) PlanExport(ctx context.Context, projectID int64, req ExportReque
 	if err := req.Policy.Validate(); err != nil {
 		return nil, err
 	}
+	if err := s.checkFillFrom(ctx, projectID, req.Policy.FillFrom); err != nil {
+		return nil, err
+	}
 	switch req.Format {
 	case FormatSVMlight, FormatQrels, FormatCSV, FormatJSONL:
 	default:
@@ -196,8 +199,8 @@ func (pl *ExportPlan) Write(ctx context.Context, sink export.Sink, now time.Time
 	tally := export.NewTally()
 	qids := pl.qidMap()
 	written := map[string]bool{} // queries with rows, for the qid map file
-	excluded := map[string]int{}
-	scan := ExportScan{Features: pl.req.Format == FormatSVMlight || pl.req.Format == FormatJSONL, DawidSkene: pl.ds}
+	excluded, fromSources := map[string]int{}, map[string]int{}
+	scan := ExportScan{Features: pl.req.Format == FormatSVMlight || pl.req.Format == FormatJSONL, DawidSkene: pl.ds, FillFrom: pl.req.Policy.FillFrom}
 
 	var passes [][]string // split names written in each pass
 	switch {
@@ -239,6 +242,9 @@ func (pl *ExportPlan) Write(ctx context.Context, sink export.Sink, now time.Time
 			if !dec.Include {
 				excluded[reasonKey(dec.Excluded)]++ // each pair reaches this in one pass only
 				return nil
+			}
+			if dec.Source != "" {
+				fromSources[dec.Source]++
 			}
 			row := export.Row{QueryID: p.QueryID, DocID: p.DocID, Grade: dec.Grade, Decided: dec.Decided,
 				Judgments: p.Judgments, Agreement: export.AgreementOf(p.Judgments), Split: split}
@@ -287,6 +293,9 @@ func (pl *ExportPlan) Write(ctx context.Context, sink export.Sink, now time.Time
 	tally.Fill(&m)
 	if len(excluded) > 0 {
 		m.Excluded = excluded
+	}
+	if len(fromSources) > 0 {
+		m.FromSources = fromSources
 	}
 	w, err := sink.Create(ManifestFile)
 	if err != nil {

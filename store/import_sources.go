@@ -104,3 +104,20 @@ func (s *Store) Sources(ctx context.Context, projectID int64) ([]Source, error) 
 	}, projectID)
 	return slices.DeleteFunc(all, func(src Source) bool { return src.Grades == 0 }), err
 }
+
+// checkFillFrom refuses a label policy's FillFrom that names no source of the project.
+func (s *Store) checkFillFrom(ctx context.Context, projectID int64, name string) error {
+	if name == "" {
+		return nil
+	}
+	sources, err := s.Sources(ctx, projectID)
+	if err != nil {
+		return err
+	}
+	for _, src := range sources {
+		if src.Name == name {
+			return nil
+		}
+	}
+	return errorf(CodeInvalid, fmt.Sprintf("there is no source of grades named %q in this project (see Sources)", name))
+}

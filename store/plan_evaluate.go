@@ -23,6 +23,9 @@ func (s *Store) FinalGrades(ctx context.Context, projectID int64, policy export.
 	if err := policy.Validate(); err != nil {
 		return nil, 0, err
 	}
+	if err := s.checkFillFrom(ctx, projectID, policy.FillFrom); err != nil {
+		return nil, 0, err
+	}
 	levels, err := s.Scale(ctx, projectID)
 	if err != nil {
 		return nil, 0, err
@@ -30,7 +33,7 @@ func (s *Store) FinalGrades(ctx context.Context, projectID int64, policy export.
 	if len(levels) < 2 {
 		return nil, 0, ErrNotFound
 	}
-	scan := ExportScan{}
+	scan := ExportScan{FillFrom: policy.FillFrom}
 	if policy.Consensus == export.ConsensusDawidSkene {
 		if scan.DawidSkene, err = s.DawidSkeneGrades(ctx, projectID); err != nil {
 			return nil, 0, err

@@ -23,12 +23,14 @@ type policyForm struct {
 	ExcludeCannotJudge bool
 	ExcludeFlagged     bool
 	ExcludeGold        bool
+	FillFrom           string // a source's name, or empty
 }
 
 func readPolicyForm(v url.Values) policyForm {
 	return policyForm{Adjudication: cmp.Or(v.Get("adjudication"), "first"), Consensus: cmp.Or(v.Get("consensus"), string(export.ConsensusMedian)),
 		MinJudgments: cmp.Or(strings.TrimSpace(v.Get("min_judgments")), "1"), MaxDisagreement: strings.TrimSpace(v.Get("max_disagreement")),
-		ExcludeCannotJudge: checked(v, "exclude_cannot_judge"), ExcludeFlagged: checked(v, "exclude_flagged"), ExcludeGold: checked(v, "exclude_gold")}
+		ExcludeCannotJudge: checked(v, "exclude_cannot_judge"), ExcludeFlagged: checked(v, "exclude_flagged"), ExcludeGold: checked(v, "exclude_gold"),
+		FillFrom: strings.TrimSpace(v.Get("fill_from"))}
 }
 
 // checked reads a checkbox (browsers send "on") or an API flag ("1", "true").
@@ -42,7 +44,7 @@ func checked(v url.Values, name string) bool {
 
 func (f policyForm) policy() (export.LabelPolicy, error) {
 	p := export.LabelPolicy{AdjudicationFirst: f.Adjudication != "ignore", Consensus: export.Consensus(f.Consensus),
-		ExcludeCannotJudge: f.ExcludeCannotJudge, ExcludeFlagged: f.ExcludeFlagged, ExcludeGold: f.ExcludeGold}
+		ExcludeCannotJudge: f.ExcludeCannotJudge, ExcludeFlagged: f.ExcludeFlagged, ExcludeGold: f.ExcludeGold, FillFrom: f.FillFrom}
 	n, err := strconv.Atoi(f.MinJudgments)
 	if err != nil || n < 1 {
 		return p, &pertinent.Error{Code: pertinent.Invalid, Message: "the least number of judgments must be a whole number of at least 1"}

@@ -17,9 +17,10 @@ func policyFlags(fs *flag.FlagSet) func() (export.LabelPolicy, error) {
 	exCJ := fs.Bool("exclude-cannot-judge", false, "leave out pairs with any cannot-judge answer")
 	exFlag := fs.Bool("exclude-flagged", false, "leave out pairs flagged as disturbing")
 	exGold := fs.Bool("exclude-gold", false, "leave out gold pairs")
+	fill := fs.String("fill-from", "", "where no person graded a pair, take the grade of this source (counted in the manifest)")
 	return func() (export.LabelPolicy, error) {
 		p := export.LabelPolicy{AdjudicationFirst: *adj, Consensus: export.Consensus(*consensus), MinJudgments: *minJ,
-			ExcludeCannotJudge: *exCJ, ExcludeFlagged: *exFlag, ExcludeGold: *exGold}
+			ExcludeCannotJudge: *exCJ, ExcludeFlagged: *exFlag, ExcludeGold: *exGold, FillFrom: *fill}
 		if *maxD >= 0 {
 			d := *maxD
 			p.MaxDisagreement = &d
