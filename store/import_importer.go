@@ -154,12 +154,17 @@ func (im *importer) run(files []ImportFile, formats []ingest.Format) error {
 			err = im.qrels(f)
 		case ImportFeatures:
 			err = im.features(f, formats[i])
+		case ImportCalibration:
+			err = im.calibration(f, formats[i])
 		}
 		if err := im.ps.endFile(err); err != nil {
 			return err
 		}
 	}
-	return im.ps.err()
+	if err := im.ps.err(); err != nil || im.spec.Kind != ImportCalibration {
+		return err
+	}
+	return im.orderCalibration(files[len(files)-1].Name)
 }
 
 // finish settles the counts that come from totals rather than single rows.

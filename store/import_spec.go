@@ -25,10 +25,12 @@ const (
 	ImportRuns      ImportKind = "runs" // run files, pooled to a depth
 	ImportQrels     ImportKind = "qrels"
 	ImportFeatures  ImportKind = "features"
+	// Calibration pairs: pairs with a known grade and its reason, for the calibration round.
+	ImportCalibration ImportKind = "calibration"
 )
 
 // ImportKinds lists every kind in the order pages offer them.
-var ImportKinds = []ImportKind{ImportRows, ImportQueries, ImportDocuments, ImportPairs, ImportRuns, ImportQrels, ImportFeatures}
+var ImportKinds = []ImportKind{ImportRows, ImportQueries, ImportDocuments, ImportPairs, ImportRuns, ImportQrels, ImportFeatures, ImportCalibration}
 
 // ImportSpec says what to import and how.
 type ImportSpec struct {

@@ -92,12 +92,14 @@ func lineDiff(a, b []string) string {
 // but the store always fills in: their PostgreSQL columns are plain bigint, every other such
 // key is an identity column.
 var storeGivenKeys = map[string]bool{
-	"schema_migrations.version":   true, // the migration's number
-	"query_progress.query_id":     true, // the query's id
-	"pair_features.pair_id":       true, // the pair's id
-	"project_versions.project_id": true, // the project's id
-	"bulk_imports.project_id":     true, // the importing project's id
-	"source_details.user_id":      true, // the source account's id
+	"schema_migrations.version":    true, // the migration's number
+	"query_progress.query_id":      true, // the query's id
+	"pair_features.pair_id":        true, // the pair's id
+	"project_versions.project_id":  true, // the project's id
+	"bulk_imports.project_id":      true, // the importing project's id
+	"source_details.user_id":       true, // the source account's id
+	"prelabel_settings.project_id": true, // the project's id
+	"prelabel_raises.pair_id":      true, // the pair's id
 }
 
 // The schema is written as one line per fact, the same words for both engines:
