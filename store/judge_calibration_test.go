@@ -41,7 +41,6 @@ func calibrationProject(t *testing.T) (*Store, Project, User, []User) {
 	return s, p, lead, as
 }
 
-
 // tenCalibrationPairs covers 0..4 twice each, listed grade by grade.
 const tenCalibrationPairs = `query_id,doc_id,grade,reason
 q2,d5,0,The leaflet is about parking; nothing on ferries.
