@@ -199,6 +199,14 @@ func savedMessage(code string, levels int) string {
 }
 
 func (s *Server) judgePage(w http.ResponseWriter, r *http.Request) {
+	// A new assessor of a project with a calibration round takes it first.
+	if owed, err := s.owesCalibration(r); err != nil {
+		s.storeError(w, r, err)
+		return
+	} else if owed {
+		http.Redirect(w, r, fmt.Sprintf("/projects/%d/calibration", currentProject(r).ID), http.StatusSeeOther)
+		return
+	}
 	d, err := s.judgeData(r, "", true, nil)
 	if err != nil {
 		s.storeError(w, r, err)

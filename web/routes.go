@@ -43,6 +43,7 @@ func (s *Server) routes() chi.Router {
 			r.Get("/designs/{design}/queries", s.apiDesignQueries)
 			r.Get("/assessor-effects", s.apiEffects)
 			r.Get("/sources", s.apiSources)
+			r.Get("/calibration", s.apiCalibration)
 		})
 		r.NotFound(func(w http.ResponseWriter, r *http.Request) {
 			apiError(w, http.StatusNotFound, "no such endpoint")
@@ -69,6 +70,8 @@ func (s *Server) routes() chi.Router {
 			r.Group(func(r chi.Router) {
 				r.Use(s.requireProjectRole(store.RoleAssessor))
 				r.Get("/judge", s.judgePage)
+				r.Get("/calibration", s.calibrationPage)
+				r.Post("/calibration", s.calibrationSubmit)
 				r.Post("/judge", s.judgeSubmit)
 				r.Post("/undo", s.judgeUndo)
 				r.Get("/mine", s.myWorkPage)
@@ -87,6 +90,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/assessors/{user}", s.assessorPage)
 				r.Get("/assessor-effects", s.effectsPage)
 				r.Get("/sources", s.sourcesPage)
+				r.Get("/calibration-scores", s.calibrationScoresPage)
 				r.Get("/agreement", s.agreementPage)
 				r.Get("/queue", s.queuePage)
 				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)

@@ -47,6 +47,8 @@ var routeAccess = map[string]access{
 	"POST /account/tokens/{token}/revoke":                            signedIn,
 	"GET /projects/{project}/judge":                                  projectJudge,
 	"POST /projects/{project}/judge":                                 projectJudge,
+	"GET /projects/{project}/calibration":                            projectJudge,
+	"POST /projects/{project}/calibration":                           projectJudge,
 	"GET /projects/{project}/mine":                                   projectJudge,
 	"POST /projects/{project}/mine":                                  projectJudge,
 	"POST /projects/{project}/undo":                                  projectJudge,
@@ -57,6 +59,7 @@ var routeAccess = map[string]access{
 	"GET /projects/{project}/assessors/{user}":                       projectLead,
 	"GET /projects/{project}/assessor-effects":                       projectLead,
 	"GET /projects/{project}/sources":                                projectLead,
+	"GET /projects/{project}/calibration-scores":                     projectLead,
 	"GET /projects/{project}/queue":                                  projectLead,
 	"GET /projects/{project}/pairs/{pair}/adjudicate":                projectLead,
 	"POST /projects/{project}/pairs/{pair}/adjudicate":               projectLead,
@@ -102,6 +105,7 @@ var routeAccess = map[string]access{
 	"GET /api/v1/projects/{project}/designs/{design}/queries":        apiToken,
 	"GET /api/v1/projects/{project}/assessor-effects":                apiToken,
 	"GET /api/v1/projects/{project}/sources":                         apiToken,
+	"GET /api/v1/projects/{project}/calibration":                     apiToken,
 }
 
 // TestEveryRouteEnforcesItsRoles walks the router itself and requests every route as an

@@ -74,3 +74,23 @@ func printSources(w io.Writer, c store.SourceComparison, asJSON bool) error {
 	}
 	return nil
 }
+
+// printCalibration prints the calibration round as the lead's page shows it: one JSON object
+// (the API's), or lines of text.
+func printCalibration(w io.Writer, c store.CalibrationRound, asJSON bool) error {
+	if asJSON {
+		enc := json.NewEncoder(w)
+		enc.SetIndent("", "  ")
+		return enc.Encode(c)
+	}
+	if c.Pairs == 0 {
+		fmt.Fprintln(w, "No calibration round in this project.")
+		return nil
+	}
+	fmt.Fprintf(w, "Calibration round: %d pairs, by known grade %v\n", c.Pairs, c.ByGrade)
+	for _, a := range c.Scores {
+		fmt.Fprintf(w, "  %s: %d of %d answered; same as known %s (95%% interval %s to %s), within one %s, mean given minus known %s\n",
+			a.Assessor, a.Answered, c.Pairs, num(a.Exact), num(a.ExactCI.Lo), num(a.ExactCI.Hi), num(a.WithinOne), num(a.MeanSigned))
+	}
+	return nil
+}

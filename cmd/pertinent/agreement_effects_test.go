@@ -95,3 +95,78 @@ func TestAgreementSourcesPrintsTheStoresFigures(t *testing.T) {
 		t.Error("--source-about without = accepted")
 	}
 }
+
+// A calibration round imported from the command line, answered, and printed: --json is the
+// store's (and so the API's) figures.
+func TestAgreementCalibrationPrintsTheStoresFigures(t *testing.T) {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "demo.db")
+	st := openTestStore(t, path)
+	if _, err := seedDemo(ctx, st); err != nil {
+		t.Fatal(err)
+	}
+	p := testProject(t, st, demoProjectName)
+	var q string
+	err := st.ExportPairs(ctx, p.ID, store.ExportScan{}, func(x *store.ExportPair) error {
+		q = x.QueryID
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var docs, cal strings.Builder
+	docs.WriteString("doc_id,title,body\n")
+	cal.WriteString("query_id,doc_id,grade,reason\n")
+	for g := range 5 {
+		fmt.Fprintf(&docs, "key-%d,Key page %d,Written to be graded %d.\n", g, g, g)
+		fmt.Fprintf(&cal, "%s,key-%d,%d,Graded %d by the project's key.\n", q, g, g, g)
+	}
+	var out, errOut bytes.Buffer
+	for _, args := range [][]string{
+		{"documents", "--db", path, "--project", demoProjectName, writeFile(t, "key-docs.csv", docs.String())},
+		{"calibration", "--db", path, "--project", demoProjectName, writeFile(t, "key.csv", cal.String())},
+	} {
+		if err := runImport(ctx, args, &out, &errOut); err != nil {
+			t.Fatal(err, errOut.String())
+		}
+	}
+	assessor, err := st.CreateUser(ctx, "newcomer", "", store.RoleAssessor, "long enough password")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := st.SetMember(ctx, p.ID, assessor.ID, store.RoleAssessor, assessor.ID); err != nil {
+		t.Fatal(err)
+	}
+	for {
+		cp, err := st.NextCalibrationPair(ctx, p.ID, assessor.ID)
+		if err != nil {
+			break
+		}
+		g := min(4, cp.Number) // 1, 2, 3, 4, 4 against the key's interleaved levels
+		if _, err := st.AnswerCalibration(ctx, p.ID, store.CalibrationAnswer{PairID: cp.ID, UserID: assessor.ID, Grade: &g}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	want, err := st.CalibrationRound(ctx, p.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want.Pairs != 5 || len(want.Scores) != 1 || want.Scores[0].Answered != 5 {
+		t.Fatalf("round %+v", want)
+	}
+	out.Reset()
+	if err := runAgreement(ctx, []string{"--db", path, "--project", demoProjectName, "--calibration", "--json"}, &out, &errOut); err != nil {
+		t.Fatal(err)
+	}
+	wantJSON, _ := json.MarshalIndent(want, "", "  ")
+	if strings.TrimSpace(out.String()) != string(wantJSON) {
+		t.Errorf("--json differs from the store's figures:\n%s\nwant\n%s", out.String(), wantJSON)
+	}
+	out.Reset()
+	if err := runAgreement(ctx, []string{"--db", path, "--project", demoProjectName, "--calibration"}, &out, &errOut); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(out.String(), "newcomer: 5 of 5 answered") {
+		t.Errorf("text output:\n%s", out.String())
+	}
+}

@@ -16,7 +16,7 @@ import (
 	"github.com/pertinent/pertinent/store"
 )
 
-const importHelp = "usage: pertinent import queries|documents|pairs|rows|runs|qrels|features --db FILE --project NAME " +
+const importHelp = "usage: pertinent import queries|documents|pairs|rows|runs|qrels|features|calibration --db FILE --project NAME " +
 	"[--format csv|jsonl|svmlight] [--dry-run] [--depth K] [--source NAME [--source-kind model|campaign|heuristic] [--source-about KEY=VALUE]...] [--gold] [--progress] FILE..."
 
 // errRejected makes the command exit non-zero after it has printed the problems itself.
