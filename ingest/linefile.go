@@ -42,18 +42,26 @@ func eachLine(r io.Reader, o Options, c *collector, comments bool, fn func(line 
 
 // eachRow reads a whitespace-separated file with the columns layout names, such as a run or
 // qrels file: fn gets the columns of each line that has that many, with the collector and a
-// set for the keys that may appear once. It returns the problems collected.
+// set for the keys that may appear once. Columns the layout writes in brackets, at its end,
+// may be left out; fn then sees them empty. It returns the problems collected.
 func eachRow(r io.Reader, o Options, layout string, fn func(c *collector, dups *seen, line int, f []string) error) error {
 	o = o.withDefaults()
 	c := o.collector()
 	dups := newSeen()
 	n := strings.Count(layout, " ") + 1
+	need := n - strings.Count(layout, "[")
+	expected := fmt.Sprint(n)
+	if need < n {
+		expected = fmt.Sprintf("%d to %d", need, n)
+	}
 	f := make([]string, n) // reused from line to line: fn must not keep it
 	return eachLine(r, o, c, false, func(line int, s string) error {
-		if got := fieldsInto(f, s); got != n {
-			c.addf(line, "", "has %d columns, expected %d: %s", got, n, layout)
+		got := fieldsInto(f, s)
+		if got < need || got > n {
+			c.addf(line, "", "has %d columns, expected %s: %s", got, expected, layout)
 			return nil
 		}
+		clear(f[got:])
 		return fn(c, dups, line, f)
 	})
 }

@@ -59,7 +59,20 @@ func TestReadQrels(t *testing.T) {
 		`qrels:3: column 4 (grade): grade -1 is outside the scale 0..4`,
 		`qrels:4: column 4 (grade): "1.0" is not an integer`,
 		`qrels:5: duplicate pair ("q1", "d1") (first at line 1)`,
-		`qrels:6: has 3 columns, expected 4: <query-id> <iteration> <doc-id> <grade>`,
+		`qrels:6: has 3 columns, expected 4 to 5: <query-id> <iteration> <doc-id> <grade> [<confidence>]`,
+	)
+	// The optional fifth column: a source's confidence in [0, 1].
+	got = nil
+	err = ReadQrels(strings.NewReader("q1 0 d1 4 0.25\nq1 0 d2 1\n"), Options{}, func(q Qrel) error {
+		got = append(got, q)
+		return nil
+	})
+	wantRead(t, got, err, []Qrel{{QueryID: "q1", DocID: "d1", Grade: 4, Confidence: 0.25, HasConfidence: true, Line: 1}, {QueryID: "q1", DocID: "d2", Grade: 1, Line: 2}})
+	err = ReadQrels(strings.NewReader("q1 0 d1 4 1.5\nq1 0 d2 1 sure\nq1 0 d3 1 0.5 more\n"), Options{File: "qrels", Scale: 5}, nil)
+	wantProblems(t, err,
+		`qrels:1: column 5 (confidence): confidence 1.5 is outside 0..1`,
+		`qrels:2: column 5 (confidence): "sure" is not a number`,
+		`qrels:3: has 6 columns, expected 4 to 5: <query-id> <iteration> <doc-id> <grade> [<confidence>]`,
 	)
 	// A binary scale (K = 2) rejects grade 2.
 	err = ReadQrels(strings.NewReader("q1 0 d1 2\n"), Options{File: "qrels", Scale: 2}, nil)

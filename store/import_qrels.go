@@ -16,6 +16,11 @@ const (
 	retireJudgment    = `UPDATE judgments SET current = 0 WHERE id = ?`
 	insertSourceGrade = `INSERT INTO judgments(pair_id, user_id, grade, supersedes, created_at) VALUES (?, ?, ?, ?, ?)`
 	setGold           = `UPDATE pairs SET gold_grade = ? WHERE id = ?`
+	// What the latest file said of the source's confidence stands: given, it is recorded;
+	// left out, an earlier one is dropped.
+	setConfidence = `INSERT INTO source_confidence(pair_id, user_id, confidence) VALUES (?1, ?2, ?3)
+		ON CONFLICT (pair_id, user_id) DO UPDATE SET confidence = excluded.confidence`
+	dropConfidence = `DELETE FROM source_confidence WHERE pair_id = ? AND user_id = ?`
 )
 
 // sourceUser returns the id of the named external source, creating it on first use. A
@@ -81,6 +86,9 @@ func (im *importer) qrels(f ImportFile) error {
 		if err := im.sourceJudgment(jc, pairID, source, q.Grade); err != nil {
 			return err
 		}
+		if err := im.sourceConfidence(pairID, source, q); err != nil {
+			return err
+		}
 		if gc == nil || !gc.tally(gold.Valid, int(gold.Int64) == q.Grade) {
 			return nil
 		}
@@ -122,5 +130,22 @@ func (im *importer) sourceJudgment(c *ImportCount, pairID, source int64, grade i
 		return err
 	}
 	_, err = is.ExecContext(im.ctx, pairID, source, grade, nullID(prev), im.at)
+	return err
+}
+
+func (im *importer) sourceConfidence(pairID, source int64, q ingest.Qrel) error {
+	if !q.HasConfidence {
+		st, err := im.stmt(dropConfidence)
+		if err != nil {
+			return err
+		}
+		_, err = st.ExecContext(im.ctx, pairID, source)
+		return err
+	}
+	st, err := im.stmt(setConfidence)
+	if err != nil {
+		return err
+	}
+	_, err = st.ExecContext(im.ctx, pairID, source, q.Confidence)
 	return err
 }

@@ -1,8 +1,10 @@
 package web
 
 import (
+	"fmt"
 	"net/http"
 	"strconv"
+	"strings"
 
 	"github.com/pertinent/pertinent/agreement"
 	"github.com/pertinent/pertinent/store"
@@ -19,9 +21,12 @@ type sourceView struct {
 }
 
 type sourcesData struct {
-	Runs    []string
-	Measure string
-	Sources []sourceView
+	Runs      []string
+	Measure   string
+	Sources   []sourceView
+	Prelabels *store.Prelabels // the project's setting, nil when none
+	Saved     string           // what the last change of the setting did
+	Problem   string
 }
 
 func (s *Server) sourcesPage(w http.ResponseWriter, r *http.Request) {
@@ -31,6 +36,17 @@ func (s *Server) sourcesPage(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	data := sourcesData{Runs: c.Runs, Measure: c.Measure}
+	if pl, ok, err := s.store.ProjectPrelabels(r.Context(), currentProject(r).ID); err != nil {
+		s.storeError(w, r, err)
+		return
+	} else if ok {
+		data.Prelabels = &pl
+	}
+	if n, err := strconv.Atoi(r.URL.Query().Get("first")); err == nil && n >= 0 {
+		data.Saved = strconv.Itoa(n) + " pairs put first."
+	} else if r.URL.Query().Get("first") == "off" {
+		data.Saved = "Pre-labels off: every pair has its own priority again."
+	}
 	var tables []*table
 	for _, f := range c.Sources {
 		n := f.Name
@@ -73,4 +89,34 @@ func (s *Server) apiSources(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	apiJSON(w, c)
+}
+
+// sourcesPrelabels saves the project's pre-label setting: which source's grades choose what
+// people judge first, and how. The grades themselves never reach an assessor.
+func (s *Server) sourcesPrelabels(w http.ResponseWriter, r *http.Request) {
+	p := currentProject(r)
+	u, _ := currentUser(r)
+	var set *store.Prelabels
+	if mode := r.PostFormValue("mode"); mode != "off" {
+		share := 1.0
+		if v := strings.TrimSpace(r.PostFormValue("share")); v != "" {
+			f, err := strconv.ParseFloat(v, 64)
+			if err != nil {
+				s.fail(w, r, http.StatusBadRequest, "The share must be a number between 0 and 1.")
+				return
+			}
+			share = f
+		}
+		set = &store.Prelabels{Source: strings.TrimSpace(r.PostFormValue("source")), Mode: store.PrelabelMode(mode), Share: share}
+	}
+	n, err := s.store.SetPrelabels(r.Context(), p.ID, u.ID, set)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	first := strconv.Itoa(n)
+	if set == nil {
+		first = "off"
+	}
+	http.Redirect(w, r, fmt.Sprintf("/projects/%d/sources?first=%s", p.ID, first), http.StatusSeeOther)
 }

@@ -90,6 +90,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/assessors/{user}", s.assessorPage)
 				r.Get("/assessor-effects", s.effectsPage)
 				r.Get("/sources", s.sourcesPage)
+				r.Post("/sources/prelabels", s.sourcesPrelabels)
 				r.Get("/calibration-scores", s.calibrationScoresPage)
 				r.Get("/agreement", s.agreementPage)
 				r.Get("/queue", s.queuePage)

@@ -59,6 +59,7 @@ var routeAccess = map[string]access{
 	"GET /projects/{project}/assessors/{user}":                       projectLead,
 	"GET /projects/{project}/assessor-effects":                       projectLead,
 	"GET /projects/{project}/sources":                                projectLead,
+	"POST /projects/{project}/sources/prelabels":                     projectLead,
 	"GET /projects/{project}/calibration-scores":                     projectLead,
 	"GET /projects/{project}/queue":                                  projectLead,
 	"GET /projects/{project}/pairs/{pair}/adjudicate":                projectLead,
