@@ -86,10 +86,11 @@ func (s *Store) SetPrelabels(ctx context.Context, projectID, by int64, p *Prelab
 		if _, err := tx.ExecContext(ctx, restorePrelabelRaises, projectID); err != nil {
 			return err
 		}
-		for _, q := range []string{dropPrelabelRaises, dropPrelabels} {
-			if _, err := tx.ExecContext(ctx, q, projectID); err != nil {
-				return err
-			}
+		if _, err := tx.ExecContext(ctx, dropPrelabelRaises, projectID); err != nil {
+			return err
+		}
+		if _, err := tx.ExecContext(ctx, dropPrelabels, projectID); err != nil {
+			return err
 		}
 		if p == nil {
 			return s.audit(ctx, tx, by, projectID, "project.prelabels", "", "off")
