@@ -176,6 +176,9 @@ type AssessorEffect struct {
 	Assessor string          `json:"assessor"`
 	Order    OrderComparison `json:"order"`
 	Note     string          `json:"note,omitempty"`
+	// SignificanceChanged, where AddSignificance filled it, lists the pairs of runs whose
+	// significance verdict differs between the two sets of final grades.
+	SignificanceChanged []SignificanceChange `json:"significance_changed,omitempty"`
 }
 
 // WhatIf scores the runs under the actual final grades and under each assessor's variant

@@ -24,21 +24,28 @@ type AssessorEffects struct {
 	Alone    []rankeval.AssessorEffect `json:"alone"`
 	Standout string                    `json:"standout"`
 	// Replaced and LeftOut compare the actual order with the order when the assessor's grades
-	// are replaced by the others' consensus, or left out (agreement.WithoutAssessor).
+	// are replaced by the others' consensus, or left out (agreement.WithoutAssessor), and
+	// list the pairs of runs whose significance verdict changes (significanceLevel).
 	Replaced []rankeval.AssessorEffect `json:"replaced"`
 	LeftOut  []rankeval.AssessorEffect `json:"left_out"`
 }
+
+// significanceLevel is the level at which a pair of runs counts as significantly different
+// (paired t-test over queries, two-sided, no correction for the number of pairs): the usual
+// 0.05 of the field, common practice.
+const significanceLevel = 0.05
 
 // effectsCutoff is the rank the what-if leaderboards score to: NDCG@10, the common choice.
 const effectsCutoff = 10
 
 // keptRunsBoard is the leaderboard of the project's kept runs by mean NDCG@effectsCutoff
-// with exponential gain, and the runs' names; nil, with the names, when fewer than two runs
-// are kept and there is no order to compare.
-func (s *Store) keptRunsBoard(ctx context.Context, projectID int64, maxGrade int) (rankeval.Leaderboard, []string, error) {
+// with exponential gain, the paired t-tests of every two of them on the same, and the runs'
+// names; nil, with the names, when fewer than two runs are kept and there is no order to
+// compare.
+func (s *Store) keptRunsBoard(ctx context.Context, projectID int64, maxGrade int) (rankeval.Leaderboard, rankeval.Verdicts, []string, error) {
 	kept, err := s.KeptRuns(ctx, projectID)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 	names := make([]string, len(kept))
 	ids := make([]int64, len(kept))
@@ -46,18 +53,18 @@ func (s *Store) keptRunsBoard(ctx context.Context, projectID int64, maxGrade int
 		ids[i], names[i] = k.ID, k.Name
 	}
 	if len(kept) < 2 {
-		return nil, names, nil
+		return nil, nil, names, nil
 	}
 	named, err := s.loadRuns(ctx, projectID, ids)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 	runs := make(map[string]rankeval.Run, len(named))
 	for _, r := range named {
 		runs[r.Name] = r.Run
 	}
 	o := rankeval.Options{K: effectsCutoff, Gain: rankeval.GainExponential, Threshold: 1, MaxGrade: maxGrade}
-	return rankeval.MeanScores(runs, o, rankeval.MetricNDCG), names, nil
+	return rankeval.MeanScores(runs, o, rankeval.MetricNDCG), rankeval.PairedTTests(runs, o, rankeval.MetricNDCG), names, nil
 }
 
 // adjudicatedGrades are the project's current adjudicated grades by (query, document)
@@ -119,7 +126,7 @@ func (s *Store) AssessorEffects(ctx context.Context, projectID int64) (AssessorE
 
 	out.Measure = "NDCG@10"
 	out.Alone, out.Replaced, out.LeftOut = []rankeval.AssessorEffect{}, []rankeval.AssessorEffect{}, []rankeval.AssessorEffect{}
-	board, runs, err := s.keptRunsBoard(ctx, projectID, len(levels)-1)
+	board, verdicts, runs, err := s.keptRunsBoard(ctx, projectID, len(levels)-1)
 	if err != nil {
 		return out, err
 	}
@@ -149,6 +156,9 @@ func (s *Store) AssessorEffects(ctx context.Context, projectID int64) (AssessorE
 			return out, nil
 		}
 		if err != nil {
+			return out, err
+		}
+		if err := rankeval.AddSignificance(effects, qrelsFrom(actual), variants, verdicts, significanceLevel); err != nil {
 			return out, err
 		}
 		if w == agreement.ReplaceByOthers {

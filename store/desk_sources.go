@@ -82,7 +82,7 @@ func (s *Store) CompareSources(ctx context.Context, projectID int64) (SourceComp
 		return out, err
 	}
 	maps.Copy(final, adjudicated)
-	board, runs, err := s.keptRunsBoard(ctx, projectID, len(levels)-1)
+	board, _, runs, err := s.keptRunsBoard(ctx, projectID, len(levels)-1)
 	if err != nil {
 		return out, err
 	}

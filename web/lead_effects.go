@@ -36,19 +36,23 @@ func (s *Server) effectsPage(w http.ResponseWriter, r *http.Request) {
 			figCell(figPct("above:"+u, l.Above)), figCell(figPct("below:"+u, l.Below)),
 			figCell(figPct("over:"+u, l.Over)), figCell(figPct("under:"+u, l.Under)), {V: l.Summary}}})
 	}
-	data.Alone = effectsTable("alone", "Order under each assessor's own grades against the others' consensus on the same pairs", e.Alone)
-	data.Replaced = effectsTable("replaced", "Actual order against the order with the assessor's grades replaced by the others' consensus", e.Replaced)
-	data.LeftOut = effectsTable("left-out", "Actual order against the order without the assessor's grades", e.LeftOut)
+	data.Alone = effectsTable("alone", "Order under each assessor's own grades against the others' consensus on the same pairs", e.Alone, false)
+	data.Replaced = effectsTable("replaced", "Actual order against the order with the assessor's grades replaced by the others' consensus", e.Replaced, true)
+	data.LeftOut = effectsTable("left-out", "Actual order against the order without the assessor's grades", e.LeftOut, true)
 	if s.offerTables(w, r, &data.Leniency, &data.Alone, &data.Replaced, &data.LeftOut) {
 		return
 	}
 	s.render(w, r, http.StatusOK, "effects", "", s.newView(r, "What each assessor does: "+currentProject(r).Name, data))
 }
 
-// effectsTable lists assessor effects: tau, the run pairs that change order, the largest move.
-func effectsTable(name, caption string, es []rankeval.AssessorEffect) table {
+// effectsTable lists assessor effects: tau, the run pairs that change order, the largest move,
+// and with verdicts the run pairs whose significance changes.
+func effectsTable(name, caption string, es []rankeval.AssessorEffect, verdicts bool) table {
 	t := table{Name: name, File: "assessor-" + name, Caption: caption, RowHead: true, Empty: "No order to compare yet.",
 		Columns: cols("assessor", "Assessor", "tau", "Kendall's τ", "changed_pairs", "Run pairs in another order", "largest_move", "Largest move", "note", "")}
+	if verdicts {
+		t.Columns = append(t.Columns, cols("significance_changed", "Run pairs whose significance changes (p before → after)")...)
+	}
 	for _, e := range es {
 		tau := agreement.Value{V: e.Order.Tau, OK: e.Order.TauDefined, Why: e.Order.Why + e.Note}
 		changed := ""
@@ -66,8 +70,20 @@ func effectsTable(name, caption string, es []rankeval.AssessorEffect) table {
 		if e.Order.Move > 0 {
 			move = fmt.Sprintf("%s by %g places", e.Order.Moved, e.Order.Move)
 		}
-		t.Rows = append(t.Rows, row{Cells: []cell{{V: e.Assessor}, figCell(figV(name+"-tau:"+e.Assessor, tau, 3)),
-			{V: strconv.Itoa(len(e.Order.Changed)) + pick(changed != "", ": "+changed, "")}, {V: move}, {V: e.Note}}})
+		r := row{Cells: []cell{{V: e.Assessor}, figCell(figV(name+"-tau:"+e.Assessor, tau, 3)),
+			{V: strconv.Itoa(len(e.Order.Changed)) + pick(changed != "", ": "+changed, "")}, {V: move}, {V: e.Note}}}
+		if verdicts {
+			sig := strconv.Itoa(len(e.SignificanceChanged))
+			for i, c := range e.SignificanceChanged {
+				if i == 6 {
+					sig += fmt.Sprintf(" and %d more", len(e.SignificanceChanged)-6)
+					break
+				}
+				sig += pick(i == 0, ": ", ", ") + fmt.Sprintf("%s / %s (%.3f → %.3f)", c.A, c.B, c.PBefore, c.PAfter)
+			}
+			r.Cells = append(r.Cells, cell{V: sig})
+		}
+		t.Rows = append(t.Rows, r)
 	}
 	return t
 }

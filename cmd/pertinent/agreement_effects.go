@@ -33,6 +33,14 @@ func printEffects(w io.Writer, e store.AssessorEffects, asJSON bool) error {
 		}
 		fmt.Fprintf(w, "  %s: tau %.3f, %d run pairs in another order\n", a.Assessor, a.Order.Tau, len(a.Order.Changed))
 	}
+	fmt.Fprintln(w, "With each assessor's grades replaced by the others' consensus (paired t-test verdicts at 0.05):")
+	for _, a := range e.Replaced {
+		if !a.Order.TauDefined {
+			fmt.Fprintf(w, "  %s: no order (%s%s)\n", a.Assessor, a.Order.Why, a.Note)
+			continue
+		}
+		fmt.Fprintf(w, "  %s: tau %.3f, %d run pairs in another order, %d verdicts change\n", a.Assessor, a.Order.Tau, len(a.Order.Changed), len(a.SignificanceChanged))
+	}
 	if e.Standout != "" {
 		fmt.Fprintf(w, "%s moves the order clearly away from the others'.\n", e.Standout)
 	} else {
