@@ -40,6 +40,11 @@ func apiError(w http.ResponseWriter, status int, msg string) {
 func apiJSON(w http.ResponseWriter, v any) {
 	w.Header().Set("Content-Type", "application/json")
 	w.Header().Set("Cache-Control", "no-store")
+	apiJSONBody(w, v)
+}
+
+// apiJSONBody writes v as indented JSON, headers already sent.
+func apiJSONBody(w http.ResponseWriter, v any) {
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
 	enc.Encode(v)
@@ -152,7 +157,7 @@ func (s *Server) apiProject(next http.Handler) http.Handler {
 			return
 		}
 		if role != store.RoleLead && role != store.RoleAdmin && u.Role != store.RoleAdmin {
-			apiError(w, http.StatusForbidden, "exports and evaluations are for the project's leads and admins")
+			apiError(w, http.StatusForbidden, "imports, exports and evaluations are for the project's leads and admins")
 			return
 		}
 		next.ServeHTTP(w, r.WithContext(context.WithValue(r.Context(), projectKey{}, projectCtx{Project: p, Role: role})))

@@ -39,6 +39,7 @@ func (s *Server) routes() chi.Router {
 			r.Use(s.apiProject)
 			r.With(s.longTransfer).Get("/export", s.apiExport)
 			r.With(s.longTransfer).Post("/evaluate", s.apiEvaluate)
+			r.With(s.longTransfer).Post("/import", s.apiImport)
 			r.Get("/designs/{design}", s.apiDesign)
 			r.Get("/designs/{design}/queries", s.apiDesignQueries)
 			r.Get("/assessor-effects", s.apiEffects)

@@ -107,6 +107,7 @@ var routeAccess = map[string]access{
 	"GET /api/v1/projects/{project}/assessor-effects":                apiToken,
 	"GET /api/v1/projects/{project}/sources":                         apiToken,
 	"GET /api/v1/projects/{project}/calibration":                     apiToken,
+	"POST /api/v1/projects/{project}/import":                         apiToken,
 }
 
 // TestEveryRouteEnforcesItsRoles walks the router itself and requests every route as an
