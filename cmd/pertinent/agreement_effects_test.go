@@ -80,8 +80,12 @@ func TestAgreementSourcesPrintsTheStoresFigures(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(want.Sources) != 1 || want.Sources[0].About["date"] != "2026-11-30" || want.Sources[0].Kind != store.SourceModel || want.Sources[0].Report.N == 0 {
-		t.Fatalf("provenance not recorded: %+v", want.Sources)
+	// The demo's own grader and model-b, by name.
+	if len(want.Sources) != 2 || want.Sources[0].Name != demoSourceName || want.Sources[1].Name != "model-b" {
+		t.Fatalf("sources %+v", want.Sources)
+	}
+	if b := want.Sources[1]; b.About["date"] != "2026-11-30" || b.Kind != store.SourceModel || b.Report.N == 0 {
+		t.Fatalf("provenance not recorded: %+v", b)
 	}
 	out.Reset()
 	if err := runAgreement(ctx, []string{"--db", path, "--project", demoProjectName, "--sources", "--json"}, &out, &errOut); err != nil {
@@ -142,7 +146,7 @@ func TestAgreementCalibrationPrintsTheStoresFigures(t *testing.T) {
 		if err != nil {
 			break
 		}
-		g := min(4, cp.Number) // 1, 2, 3, 4, 4 against the key's interleaved levels
+		g := min(4, cp.Number)
 		if _, err := st.AnswerCalibration(ctx, p.ID, store.CalibrationAnswer{PairID: cp.ID, UserID: assessor.ID, Grade: &g}); err != nil {
 			t.Fatal(err)
 		}
@@ -151,7 +155,8 @@ func TestAgreementCalibrationPrintsTheStoresFigures(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if want.Pairs != 5 || len(want.Scores) != 1 || want.Scores[0].Answered != 5 {
+	// The demo's five anchors and the five imported here.
+	if want.Pairs != 10 || len(want.Scores) != 1 || want.Scores[0].Answered != 10 {
 		t.Fatalf("round %+v", want)
 	}
 	out.Reset()
@@ -166,7 +171,7 @@ func TestAgreementCalibrationPrintsTheStoresFigures(t *testing.T) {
 	if err := runAgreement(ctx, []string{"--db", path, "--project", demoProjectName, "--calibration"}, &out, &errOut); err != nil {
 		t.Fatal(err)
 	}
-	if !strings.Contains(out.String(), "newcomer: 5 of 5 answered") {
+	if !strings.Contains(out.String(), "newcomer: 10 of 10 answered") {
 		t.Errorf("text output:\n%s", out.String())
 	}
 }

@@ -49,6 +49,9 @@ func seedDemo(ctx context.Context, st *store.Store) ([]demoAccount, error) {
 		if err := keepDemoRuns(ctx, st, c); err != nil {
 			return nil, fmt.Errorf("demo runs: %w", err)
 		}
+		if err := addDemoExtras(ctx, st, c); err != nil {
+			return nil, err
+		}
 	} else if err != nil {
 		return nil, err
 	}
