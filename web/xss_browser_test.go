@@ -245,8 +245,21 @@ func (p *xssPass) run() {
 		assessor = h.assessors[1]
 	}
 
-	// The judging screen, pair by pair, each judged with a hostile note through htmx.
+	// The calibration round first (the assessor is new), each pair and its feedback; then
+	// the judging screen, pair by pair, each judged with a hostile note through htmx.
 	p.signIn(assessor, base+"/judge", "#pair")
+	for i := 1; i <= 5; i++ {
+		p.check(fmt.Sprintf("calibration pair %d", i))
+		err := chromedp.Do(p.ctx, chromedp.Click(chromedp.CSS(`#judge-form button[name="grade"][value="1"]`)),
+			chromedp.WaitReady("#calibration-feedback"))
+		if err != nil {
+			t.Fatalf("answering calibration pair %d: %v", i, err)
+		}
+		p.check(fmt.Sprintf("calibration feedback %d", i))
+		if err := chromedp.Do(p.ctx, chromedp.Click(chromedp.ID("next")), chromedp.WaitReady("#pair")); err != nil {
+			t.Fatalf("after calibration feedback %d: %v", i, err)
+		}
+	}
 	pair, err := chromedp.Run(p.ctx, chromedp.Evaluate[string](pairValueJS))
 	must(err)
 	note, _ := json.Marshal(h.cat.all("note typed on the judging screen"))
@@ -291,7 +304,7 @@ func (p *xssPass) run() {
 	paths := []string{base + "/queue", base + "/assessors", base + "/agreement", base + "/guidelines",
 		base + "/team", base + "/settings", base + "/export", base + "/evaluate", base + "/import", h.evalPage,
 		fmt.Sprintf("%s/assessors/%d", base, h.users["bea"].ID), fmt.Sprintf("%s/assessors/%d", base, h.users[assessor].ID),
-		base + "/queue?min=0"}
+		base + "/queue?min=0", base + "/sources", base + "/assessor-effects", base + "/calibration-scores"}
 	for _, g := range hist {
 		paths = append(paths, fmt.Sprintf("%s/guidelines/%d", base, g.ID))
 	}

@@ -2,6 +2,7 @@ package web
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"io"
 	"mime/multipart"
@@ -240,6 +241,30 @@ func newHostile(t *testing.T) *hostile {
 		return nil
 	})
 	must(err)
+	// A machine source whose provenance holds every attack, one a field, and a calibration
+	// round whose reasons and documents hold them too.
+	about := map[string]string{}
+	for i := range xssForms {
+		about[fmt.Sprintf("field%02d", i)] = h.cat.one("source provenance", i, false)
+	}
+	_, err = h.store.Import(ctx, h.project.ID, root.ID, store.ImportSpec{Kind: store.ImportQrels, Source: "xsource", SourceKind: store.SourceModel, SourceAbout: about},
+		[]store.ImportFile{{Name: "xsource.qrels", R: strings.NewReader("xq1 0 xd-text 2 0.4\nxq2 0 xd-html-00 3\n")}})
+	must(err)
+	var docs, cal strings.Builder
+	for g := range 5 {
+		d, _ := json.Marshal(map[string]string{"doc_id": fmt.Sprintf("xd-cal-%d", g), "title": h.cat.one("calibration document title", g, false),
+			"body": "<p>Calibration</p>" + h.cat.one("calibration document body", 5+g, false), "body_format": "html"})
+		c, _ := json.Marshal(map[string]any{"query_id": "xq1", "doc_id": fmt.Sprintf("xd-cal-%d", g), "grade": g, "reason": h.cat.all("calibration reason")})
+		docs.Write(append(d, '\n'))
+		cal.Write(append(c, '\n'))
+	}
+	for _, f := range []struct {
+		kind store.ImportKind
+		body string
+	}{{store.ImportDocuments, docs.String()}, {store.ImportCalibration, cal.String()}} {
+		_, err = h.store.Import(ctx, h.project.ID, root.ID, store.ImportSpec{Kind: f.kind}, []store.ImportFile{{Name: "x.jsonl", R: strings.NewReader(f.body)}})
+		must(err)
+	}
 	// An adjudication whose rationale bea sees on her feedback page.
 	_, err = h.store.Adjudicate(ctx, h.pairs[1], lena.ID, 4, h.cat.all("adjudication rationale"))
 	must(err)
