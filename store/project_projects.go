@@ -17,6 +17,12 @@ type Project struct {
 	LeaseSeconds     int
 	AllowChanges     bool
 	Archived         bool
+	// TaskKind is what assessors are asked: TaskGraded (a grade per pair) or TaskPreference
+	// (which of two documents is better).
+	TaskKind string
+	// PreferenceThreshold is the lowest final grade a document needs to be compared; nil
+	// means the top two levels of the scale (PreferenceFloor).
+	PreferenceThreshold *int
 }
 
 // ScaleLevel is one grade of a project's scale.
@@ -111,11 +117,15 @@ func (s *Store) CreateProject(ctx context.Context, p NewProject, by int64) (Proj
 	return s.Project(ctx, id)
 }
 
-const projectColumns = `id, name, description, judgments_per_pair, gold_rate, lease_seconds, allow_changes, archived_at IS NOT NULL`
+const projectColumns = `id, name, description, judgments_per_pair, gold_rate, lease_seconds, allow_changes, archived_at IS NOT NULL,
+	task_kind, preference_threshold`
 
 func scanProject(row interface{ Scan(...any) error }) (Project, error) {
 	var p Project
-	err := row.Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived)
+	var threshold sql.NullInt64
+	err := row.Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived,
+		&p.TaskKind, &threshold)
+	p.PreferenceThreshold = gradeOf(threshold)
 	if errors.Is(err, sql.ErrNoRows) {
 		return Project{}, ErrNotFound
 	}
@@ -131,10 +141,13 @@ func (s *Store) Project(ctx context.Context, id int64) (Project, error) {
 // none): the check in front of every project page, so one statement rather than two.
 func (s *Store) ProjectAndRole(ctx context.Context, projectID, userID int64) (p Project, role Role, member bool, err error) {
 	var r sql.NullString
+	var threshold sql.NullInt64
 	err = s.readRow(ctx, `SELECT `+projectColumns+`,
 			(SELECT m.role FROM project_members m WHERE m.project_id = projects.id AND m.user_id = ?2)
 		FROM projects WHERE id = ?1`, projectID, userID).
-		Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived, &r)
+		Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived,
+			&p.TaskKind, &threshold, &r)
+	p.PreferenceThreshold = gradeOf(threshold)
 	if errors.Is(err, sql.ErrNoRows) {
 		return Project{}, "", false, ErrNotFound
 	}
