@@ -175,7 +175,7 @@ type ProjectListing struct {
 // ProjectsByUser lists the projects a user works on; admins see every project.
 func (s *Store) ProjectsByUser(ctx context.Context, u User) ([]ProjectListing, error) {
 	return queryAll(ctx, s.r, `SELECT p.id, p.name, p.description, p.judgments_per_pair, p.gold_rate, p.lease_seconds,
-			p.allow_changes, p.archived_at IS NOT NULL, COALESCE(m.role, ''),
+			p.allow_changes, p.archived_at IS NOT NULL, p.task_kind, COALESCE(m.role, ''),
 			(SELECT COUNT(*) FROM pairs x WHERE x.project_id = p.id),
 			(SELECT COALESCE(SUM(x.judged), 0) FROM pairs x WHERE x.project_id = p.id),
 			(SELECT COUNT(*) FROM judgments j JOIN pairs x ON x.id = j.pair_id WHERE x.project_id = p.id AND j.user_id = ?1 AND j.current = 1)
@@ -185,7 +185,7 @@ func (s *Store) ProjectsByUser(ctx context.Context, u User) ([]ProjectListing, e
 		var l ProjectListing
 		var role string
 		err := r.Scan(&l.ID, &l.Name, &l.Description, &l.JudgmentsPerPair, &l.GoldRate, &l.LeaseSeconds,
-			&l.AllowChanges, &l.Archived, &role, &l.Pairs, &l.Judgments, &l.MineToDate)
+			&l.AllowChanges, &l.Archived, &l.TaskKind, &role, &l.Pairs, &l.Judgments, &l.MineToDate)
 		l.Role = Role(role)
 		if l.Role == "" {
 			l.Role = RoleAdmin

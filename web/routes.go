@@ -64,13 +64,17 @@ func (s *Server) routes() chi.Router {
 		r.Route("/projects/{project}", func(r chi.Router) {
 			r.Use(s.loadProject)
 
-			// The project's assessors: judging and undo (judge.go), their own judgments and
+			// The project's assessors: judging and undo (judge.go), comparing (compare.go), their own judgments and
 			// the feedback on them (mywork.go).
 			r.Group(func(r chi.Router) {
 				r.Use(s.requireProjectRole(store.RoleAssessor))
 				r.Get("/judge", s.judgePage)
 				r.Post("/judge", s.judgeSubmit)
 				r.Post("/undo", s.judgeUndo)
+				// Preference judging (compare.go).
+				r.Get("/compare", s.comparePage)
+				r.Post("/compare", s.compareSubmit)
+				r.Post("/compare/undo", s.compareUndo)
 				r.Get("/mine", s.myWorkPage)
 				r.Post("/mine", s.myWorkChange)
 				r.Get("/feedback", s.feedbackPage)
@@ -99,6 +103,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/settings", s.settingsPage)
 				r.Post("/settings", s.saveSettings)
 				r.Post("/scale", s.saveScale)
+				r.Post("/task", s.saveTask)
 				r.Post("/archive", s.archiveProject)
 				r.Post("/restore", s.restoreProject)
 				r.Get("/guidelines", s.guidelinesPage)

@@ -1,0 +1,151 @@
+package web
+
+import (
+	"context"
+	"fmt"
+	"net/http"
+	"net/url"
+	"regexp"
+	"strings"
+	"testing"
+
+	"github.com/pertinent/pertinent/store"
+)
+
+var (
+	comparisonInForm = regexp.MustCompile(`name="comparison" value="(\d+)"`)
+	leftInForm       = regexp.MustCompile(`name="left" value="(\d+)"`)
+)
+
+// offeredComparison reads the comparison and left document a comparing page offers; empty
+// when it offers none.
+func offeredComparison(body string) (id, left string) {
+	m, l := comparisonInForm.FindStringSubmatch(body), leftInForm.FindStringSubmatch(body)
+	if m == nil || l == nil {
+		return "", ""
+	}
+	return m[1], l[1]
+}
+
+// preferenceApp is a lamp project whose pairs a lead has settled at grade 4, switched to
+// preferences through the settings form.
+func preferenceApp(t *testing.T, opts ...fixtureOption) *testApp {
+	t.Helper()
+	a := newTestApp(t, opts...)
+	ctx := context.Background()
+	for _, p := range a.pairs {
+		if _, err := a.store.Adjudicate(ctx, p, a.lead.ID, 4, ""); err != nil {
+			t.Fatal(err)
+		}
+	}
+	lead := a.signIn(a.lead.Username)
+	res := a.post(lead, fmt.Sprintf("/projects/%d/task", a.project.ID), url.Values{"task_kind": {"preference"}, "threshold": {""}})
+	if res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("saving the task: status %d", res.StatusCode)
+	}
+	return a
+}
+
+func (a *testApp) comparePath() string { return fmt.Sprintf("/projects/%d/compare", a.project.ID) }
+
+// Without JavaScript: answer, undo (the same comparison comes back, placed as before), then
+// cannot judge with the flag and a note; each step a plain POST and a redirect.
+func TestComparingWithoutJavaScript(t *testing.T) {
+	a := preferenceApp(t, withPairs(1, 4), withAssessors(2), withPerPair(1))
+	c := a.signIn(a.assessors[0].Username)
+	res, body := a.get(c, a.comparePath())
+	id, left := offeredComparison(body)
+	if res.StatusCode != http.StatusOK || id == "" {
+		t.Fatalf("comparing page: %d, comparison %q", res.StatusCode, id)
+	}
+	for _, want := range []string{"Left is better", "Right is better", "About the same", "Neither is relevant", `name="flagged"`, "Cannot judge"} {
+		if !strings.Contains(body, want) {
+			t.Errorf("the comparing page lacks %q", want)
+		}
+	}
+	res = a.post(c, a.comparePath(), url.Values{"comparison": {id}, "left": {left}, "outcome": {"right"}, "elapsed_ms": {"2100"}})
+	if loc := res.Header.Get("Location"); res.StatusCode != http.StatusSeeOther || !strings.HasSuffix(loc, "/compare?saved=right") {
+		t.Fatalf("answer: %d to %q", res.StatusCode, loc)
+	}
+	_, body = a.get(c, a.comparePath()+"?saved=right")
+	if !strings.Contains(body, "Saved: right is better.") {
+		t.Errorf("the status line does not say what was saved")
+	}
+	if next, _ := offeredComparison(body); next == id {
+		t.Errorf("the answered comparison %s was offered again", id)
+	}
+	res = a.post(c, a.comparePath()+"/undo", nil)
+	if res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("undo: %d", res.StatusCode)
+	}
+	_, body = a.get(c, a.comparePath()+"?saved=undo")
+	if back, backLeft := offeredComparison(body); back != id || backLeft != left || !strings.Contains(body, "Undone") {
+		t.Fatalf("after undo: comparison %s with %s on the left, want %s with %s", back, backLeft, id, left)
+	}
+	const note = "quokka-violet-8812 page shows gore"
+	res = a.post(c, a.comparePath(), url.Values{"comparison": {id}, "left": {left}, "cannot_judge": {"disturbing"}, "flagged": {"1"}, "note": {note}})
+	if res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("cannot judge: %d", res.StatusCode)
+	}
+	hist, err := a.store.PreferenceAnswersByAssessor(context.Background(), a.project.ID, a.assessors[0].ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(hist) != 2 || hist[0].Outcome != "right" || !hist[0].Withdrawn || hist[0].TimeSpentMs != 2100 ||
+		hist[1].CannotJudge != "disturbing" || !hist[1].Flagged || hist[1].Note != note || fmt.Sprint(hist[1].LeftDoc) != left {
+		t.Fatalf("stored answers %+v", hist)
+	}
+	// Blind: the other assessor's pages never show the first one's note or name.
+	b := a.signIn(a.assessors[1].Username)
+	for _, path := range []string{a.comparePath(), "/", fmt.Sprintf("/projects/%d/mine", a.project.ID), fmt.Sprintf("/projects/%d/feedback", a.project.ID)} {
+		_, body := a.get(b, path)
+		for _, secret := range []string{note, a.assessors[0].Username, a.assessors[0].DisplayName} {
+			if strings.Contains(body, secret) {
+				t.Errorf("%s shows %q to another assessor", path, secret)
+			}
+		}
+	}
+}
+
+// With htmx, one request stores the answer and brings the next comparison; a comparison of
+// another project is not found; a project that asks for grades sends assessors to grading.
+func TestComparingWithHTMX(t *testing.T) {
+	a := preferenceApp(t, withPairs(2, 2), withAssessors(1), withPerPair(1))
+	c := a.signIn(a.assessors[0].Username)
+	_, body := a.get(c, a.comparePath())
+	seen := map[string]bool{}
+	for n := 0; ; n++ {
+		id, left := offeredComparison(body)
+		if id == "" {
+			break
+		}
+		if seen[id] || n > 4 {
+			t.Fatalf("comparison %s offered twice", id)
+		}
+		seen[id] = true
+		status, fragment, err := a.send(c, http.MethodPost, a.comparePath(), url.Values{"comparison": {id}, "left": {left}, "outcome": {"same"}}, true)
+		if err != nil || status != http.StatusOK || !strings.Contains(fragment, `hx-swap-oob`) || !strings.Contains(fragment, "Saved: about the same.") {
+			t.Fatalf("htmx answer: %d %v %s", status, err, fragment)
+		}
+		body = fragment
+	}
+	// Two queries of two documents: one comparison each.
+	if len(seen) != 2 || !strings.Contains(body, "Nothing left for you here") {
+		t.Errorf("answered %d comparisons, ending on %q", len(seen), body)
+	}
+	status, _, _ := a.send(c, http.MethodPost, a.comparePath(), url.Values{"comparison": {"999999"}, "left": {"1"}, "outcome": {"left"}}, true)
+	if status != http.StatusNotFound {
+		t.Errorf("a comparison of no project: status %d, want 404", status)
+	}
+	lead := a.signIn(a.lead.Username)
+	if res := a.post(lead, fmt.Sprintf("/projects/%d/task", a.project.ID), url.Values{"task_kind": {"preference"}, "threshold": {"9"}}); res.StatusCode != http.StatusBadRequest {
+		t.Errorf("a threshold off the scale: status %d, want 400", res.StatusCode)
+	}
+	if res := a.post(lead, fmt.Sprintf("/projects/%d/task", a.project.ID), url.Values{"task_kind": {store.TaskGraded}}); res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("back to grades: status %d", res.StatusCode)
+	}
+	res, _ := a.get(c, a.comparePath())
+	if loc := res.Header.Get("Location"); res.StatusCode != http.StatusSeeOther || loc != a.judgePath() {
+		t.Errorf("comparing a graded project: %d to %q, want the judging page", res.StatusCode, loc)
+	}
+}
