@@ -2,10 +2,12 @@ package web
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"net/http"
 	"net/url"
 	"regexp"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -147,5 +149,63 @@ func TestComparingWithHTMX(t *testing.T) {
 	res, _ := a.get(c, a.comparePath())
 	if loc := res.Header.Get("Location"); res.StatusCode != http.StatusSeeOther || loc != a.judgePath() {
 		t.Errorf("comparing a graded project: %d to %q, want the judging page", res.StatusCode, loc)
+	}
+}
+
+// The lead's Preferences page and the API give the same figures: after two assessors agree
+// on every comparison of three documents, the order is the documents' own and all answers
+// are alike.
+func TestPreferencesPageAndAPIAgree(t *testing.T) {
+	a := preferenceApp(t, withPairs(1, 3), withAssessors(2), withPerPair(2))
+	ctx := context.Background()
+	for idle := 0; idle < 2; {
+		idle = 0
+		for _, u := range a.assessors {
+			v, err := a.store.NextComparison(ctx, a.project.ID, u.ID)
+			if err != nil {
+				idle++
+				continue
+			}
+			outcome := "right"
+			if v.Left.ExternalID < v.Right.ExternalID {
+				outcome = "left"
+			}
+			if _, err := a.store.AnswerComparison(ctx, store.PreferenceSubmission{ComparisonID: v.ComparisonID, ProjectID: a.project.ID,
+				UserID: u.ID, LeftDoc: v.Left.ID, Outcome: outcome}); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	lead := a.signIn(a.lead.Username)
+	res, page := a.get(lead, fmt.Sprintf("/projects/%d/preferences", a.project.ID))
+	if res.StatusCode != http.StatusOK {
+		t.Fatalf("preferences page: %d", res.StatusCode)
+	}
+	token, _, err := a.store.CreateAPIToken(ctx, a.lead.ID, "desk")
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, body := a.api("GET", fmt.Sprintf("/api/v1/projects/%d/preferences", a.project.ID), token, nil)
+	var rep store.PreferenceReport
+	if res.StatusCode != http.StatusOK || json.Unmarshal([]byte(body), &rep) != nil || len(rep.Queries) != 1 {
+		t.Fatalf("API: %d %s", res.StatusCode, body)
+	}
+	q := rep.Queries[0]
+	if !q.Done || strings.Join(q.Order, " ") != "q0-d0 q0-d1 q0-d2" || q.Fit.Scores[0].Document != "q0-d0" ||
+		!rep.Agreement.UnanimousShare.OK || rep.Agreement.UnanimousShare.V != 1 {
+		t.Errorf("API report %+v", rep)
+	}
+	figures := map[string]float64{"pref-unanimous": rep.Agreement.UnanimousShare.V, "pref-pairwise": rep.Agreement.Pairwise.V}
+	for _, sc := range q.Fit.Scores {
+		figures["bt:q0:"+sc.Document], figures["bt-low:q0:"+sc.Document], figures["bt-high:q0:"+sc.Document] = sc.Score, sc.Low, sc.High
+	}
+	for name, v := range figures {
+		want := fmt.Sprintf(`data-figure="%s" data-value="%s"`, name, strconv.FormatFloat(v, 'g', -1, 64))
+		if !strings.Contains(page, want) {
+			t.Errorf("the page does not show %s = %v as the API does", name, v)
+		}
+	}
+	if strings.Index(page, ">q0-d0<") > strings.Index(page, ">q0-d2<") {
+		t.Errorf("the page does not list the best document first")
 	}
 }

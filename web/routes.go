@@ -43,6 +43,7 @@ func (s *Server) routes() chi.Router {
 			r.Get("/designs/{design}/queries", s.apiDesignQueries)
 			r.Get("/assessor-effects", s.apiEffects)
 			r.Get("/sources", s.apiSources)
+			r.Get("/preferences", s.apiPreferences)
 		})
 		r.NotFound(func(w http.ResponseWriter, r *http.Request) {
 			apiError(w, http.StatusNotFound, "no such endpoint")
@@ -91,6 +92,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/assessors/{user}", s.assessorPage)
 				r.Get("/assessor-effects", s.effectsPage)
 				r.Get("/sources", s.sourcesPage)
+				r.Get("/preferences", s.preferencesPage)
 				r.Get("/agreement", s.agreementPage)
 				r.Get("/queue", s.queuePage)
 				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)

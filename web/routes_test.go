@@ -60,6 +60,7 @@ var routeAccess = map[string]access{
 	"GET /projects/{project}/assessors/{user}":                       projectLead,
 	"GET /projects/{project}/assessor-effects":                       projectLead,
 	"GET /projects/{project}/sources":                                projectLead,
+	"GET /projects/{project}/preferences":                            projectLead,
 	"GET /projects/{project}/queue":                                  projectLead,
 	"GET /projects/{project}/pairs/{pair}/adjudicate":                projectLead,
 	"POST /projects/{project}/pairs/{pair}/adjudicate":               projectLead,
@@ -106,6 +107,7 @@ var routeAccess = map[string]access{
 	"GET /api/v1/projects/{project}/designs/{design}/queries":        apiToken,
 	"GET /api/v1/projects/{project}/assessor-effects":                apiToken,
 	"GET /api/v1/projects/{project}/sources":                         apiToken,
+	"GET /api/v1/projects/{project}/preferences":                     apiToken,
 }
 
 // TestEveryRouteEnforcesItsRoles walks the router itself and requests every route as an
