@@ -5,6 +5,7 @@ import (
 	"slices"
 
 	"github.com/pertinent/pertinent/preference"
+	"github.com/pertinent/pertinent/rankeval"
 )
 
 // PreferenceQuery is one query's preferences: the Bradley–Terry order of its compared
@@ -32,13 +33,21 @@ type PreferenceReport struct {
 	Flagged                int                  `json:"flagged"` // current answers with the flag or "disturbing"
 	Agreement              preference.Agreement `json:"agreement"`
 	Queries                []PreferenceQuery    `json:"queries"`
+	// Runs: how far each kept run orders documents as the assessors preferred them.
+	Runs []RunPreference `json:"runs"`
+}
+
+// RunPreference is one kept run against the preference answers.
+type RunPreference struct {
+	Run string `json:"run"`
+	preference.RunAgreement
 }
 
 // PreferenceFigures computes the project's PreferenceReport from its current answers and
 // final grades, through the same reads as the schedule. The Preferences page and the API
 // both call this.
 func (s *Store) PreferenceFigures(ctx context.Context, projectID int64) (PreferenceReport, error) {
-	out := PreferenceReport{Queries: []PreferenceQuery{}}
+	out := PreferenceReport{Queries: []PreferenceQuery{}, Runs: []RunPreference{}}
 	p, err := s.Project(ctx, projectID)
 	if err != nil {
 		return out, err
@@ -118,6 +127,44 @@ func (s *Store) PreferenceFigures(ctx context.Context, projectID int64) (Prefere
 			Done: plan.Done, Order: names(plan.Order), Open: len(plan.Next)})
 		out.Answers += len(named)
 	}
-	out.Agreement, err = preference.MeasureAgreement(all)
+	if out.Agreement, err = preference.MeasureAgreement(all); err != nil {
+		return out, err
+	}
+	out.Runs, err = s.runPreferences(ctx, projectID, all)
 	return out, err
+}
+
+// runPreferences measures every kept run of the project against the answers: each run's
+// documents per query in its ranked order (rankeval.Rank: score, then id).
+func (s *Store) runPreferences(ctx context.Context, projectID int64, js []preference.Judgment) ([]RunPreference, error) {
+	kept, err := s.KeptRuns(ctx, projectID)
+	if err != nil || len(kept) == 0 {
+		return []RunPreference{}, err
+	}
+	ids := make([]int64, len(kept))
+	for i, k := range kept {
+		ids[i] = k.ID
+	}
+	runs, err := s.loadRuns(ctx, projectID, ids)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]RunPreference, 0, len(runs))
+	for _, r := range runs {
+		ranking := make(map[string][]string, len(r.Run))
+		for q, docs := range r.Run {
+			ranked := rankeval.Rank(docs)
+			ids := make([]string, len(ranked))
+			for i, d := range ranked {
+				ids[i] = d.DocID
+			}
+			ranking[q] = ids
+		}
+		a, err := preference.MeasureRunAgreement(js, ranking)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, RunPreference{Run: r.Name, RunAgreement: a})
+	}
+	return out, nil
 }

@@ -4,6 +4,7 @@ import (
 	"context"
 	"math"
 	"slices"
+	"strings"
 	"testing"
 )
 
@@ -31,6 +32,19 @@ func TestPreferenceFigures(t *testing.T) {
 			answer(t, s, v, u, outcome)
 		}
 	}
+	// Two kept runs: one ranks the preferred documents first, the other last.
+	lead, err := s.UserByUsername(ctx, "lead")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for name, body := range map[string]string{
+		"good": "A Q0 Aa 1 2.0 good\nA Q0 Ab 2 1.0 good\nB Q0 Ba 1 2.0 good\nB Q0 Bb 2 1.0 good\n",
+		"bad":  "A Q0 Ab 1 2.0 bad\nA Q0 Aa 2 1.0 bad\nB Q0 Bb 1 2.0 bad\nB Q0 Ba 2 1.0 bad\n",
+	} {
+		if _, err := s.KeepRun(ctx, p.ID, lead.ID, name, strings.NewReader(body)); err != nil {
+			t.Fatal(err)
+		}
+	}
 	r, err := s.PreferenceFigures(ctx, p.ID)
 	if err != nil {
 		t.Fatal(err)
@@ -52,5 +66,17 @@ func TestPreferenceFigures(t *testing.T) {
 	if g.Comparisons != 2 || g.Unanimous != 1 || math.Abs(g.UnanimousShare.V-0.5) > 1e-12 || math.Abs(g.Pairwise.V-0.5) > 1e-12 ||
 		!g.Alpha.Alpha.OK || math.Abs(g.Alpha.Alpha.V) > 1e-12 {
 		t.Errorf("agreement %+v", g)
+	}
+	// The runs, counted by hand: three answers with a preference (two on A, one on B), one
+	// "about the same" on B.
+	runs := map[string]RunPreference{}
+	for _, x := range r.Runs {
+		runs[x.Run] = x
+	}
+	if good := runs["good"]; good.Agree != 3 || good.Disagree != 0 || good.NoPreference != 1 || good.Share.V != 1 {
+		t.Errorf("run good: %+v", good)
+	}
+	if bad := runs["bad"]; bad.Agree != 0 || bad.Disagree != 3 || !bad.Share.OK || bad.Share.V != 0 {
+		t.Errorf("run bad: %+v", bad)
 	}
 }

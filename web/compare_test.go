@@ -176,6 +176,12 @@ func TestPreferencesPageAndAPIAgree(t *testing.T) {
 			}
 		}
 	}
+	// A kept run that puts the worst document first: of the four answers (d1 over d2 twice,
+	// d0 over d1 twice) it keeps the order of the last two only.
+	if _, err := a.store.KeepRun(ctx, a.project.ID, a.lead.ID, "lamps-bm25",
+		strings.NewReader("q0 Q0 q0-d2 1 3 x\nq0 Q0 q0-d0 2 2 x\nq0 Q0 q0-d1 3 1 x\n")); err != nil {
+		t.Fatal(err)
+	}
 	lead := a.signIn(a.lead.Username)
 	res, page := a.get(lead, fmt.Sprintf("/projects/%d/preferences", a.project.ID))
 	if res.StatusCode != http.StatusOK {
@@ -195,7 +201,11 @@ func TestPreferencesPageAndAPIAgree(t *testing.T) {
 		!rep.Agreement.UnanimousShare.OK || rep.Agreement.UnanimousShare.V != 1 {
 		t.Errorf("API report %+v", rep)
 	}
-	figures := map[string]float64{"pref-unanimous": rep.Agreement.UnanimousShare.V, "pref-pairwise": rep.Agreement.Pairwise.V}
+	if len(rep.Runs) != 1 || rep.Runs[0].Agree != 2 || rep.Runs[0].Disagree != 2 || rep.Runs[0].Share.V != 0.5 {
+		t.Errorf("the kept run against the answers: %+v", rep.Runs)
+	}
+	figures := map[string]float64{"pref-unanimous": rep.Agreement.UnanimousShare.V, "pref-pairwise": rep.Agreement.Pairwise.V,
+		"pref-run:lamps-bm25": rep.Runs[0].Share.V}
 	for _, sc := range q.Fit.Scores {
 		figures["bt:q0:"+sc.Document], figures["bt-low:q0:"+sc.Document], figures["bt-high:q0:"+sc.Document] = sc.Score, sc.Low, sc.High
 	}

@@ -25,8 +25,14 @@ type preferenceQueryView struct {
 	Scores []preferenceScoreView
 }
 
+type runPreferenceView struct {
+	store.RunPreference
+	Share figure
+}
+
 type preferencesData struct {
 	Report                     store.PreferenceReport
+	Runs                       []runPreferenceView
 	Unanimous, Pairwise, Alpha figure
 	Queries                    []preferenceQueryView
 	Level                      string
@@ -42,6 +48,9 @@ func (s *Server) preferencesPage(w http.ResponseWriter, r *http.Request) {
 		Unanimous: figPct("pref-unanimous", rep.Agreement.UnanimousShare),
 		Pairwise:  figPct("pref-pairwise", rep.Agreement.Pairwise),
 		Alpha:     figV("pref-alpha", rep.Agreement.Alpha.Alpha, 3)}
+	for _, x := range rep.Runs {
+		d.Runs = append(d.Runs, runPreferenceView{RunPreference: x, Share: figPct("pref-run:"+x.Run, x.Share)})
+	}
 	for _, q := range rep.Queries {
 		v := preferenceQueryView{PreferenceQuery: q}
 		sorted := map[string]int{}

@@ -100,5 +100,9 @@ func printPreferences(w io.Writer, r store.PreferenceReport, asJSON bool) error 
 			fmt.Fprintf(w, "  intransitive: %s > %s > %s > %s\n", t.A, t.B, t.C, t.A)
 		}
 	}
+	for _, x := range r.Runs {
+		fmt.Fprintf(w, "run %s: orders %d answers as preferred, %d against (share %s); %d without a preference, %d of documents it ranks neither of\n",
+			x.Run, x.Agree, x.Disagree, num(x.Share), x.NoPreference, x.Unranked)
+	}
 	return nil
 }
