@@ -1,9 +1,11 @@
 package store
 
 import (
+	"cmp"
 	"context"
 	"slices"
 
+	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/preference"
 	"github.com/pertinent/pertinent/rankeval"
 )
@@ -166,5 +168,33 @@ func (s *Store) runPreferences(ctx context.Context, projectID int64, js []prefer
 		}
 		out = append(out, RunPreference{Run: r.Name, RunAgreement: a})
 	}
+	return out, nil
+}
+
+// PreferencePairs returns the project's current preference answers as training pairs: per
+// query and ordered pair of documents (by external id), how many assessors judged the first
+// the better. "About the same" and "neither relevant" give no pair. Sorted by query, better,
+// worse.
+func (s *Store) PreferencePairs(ctx context.Context, projectID int64) ([]export.PreferencePair, error) {
+	js, err := s.PreferenceJudgments(ctx, projectID)
+	if err != nil {
+		return nil, err
+	}
+	counts := map[[3]string]int{}
+	for _, j := range js {
+		switch j.Outcome {
+		case preference.LeftBetter:
+			counts[[3]string{j.Query, j.Left, j.Right}]++
+		case preference.RightBetter:
+			counts[[3]string{j.Query, j.Right, j.Left}]++
+		}
+	}
+	out := make([]export.PreferencePair, 0, len(counts))
+	for k, n := range counts {
+		out = append(out, export.PreferencePair{Query: k[0], Better: k[1], Worse: k[2], Count: n})
+	}
+	slices.SortFunc(out, func(a, b export.PreferencePair) int {
+		return cmp.Or(cmp.Compare(a.Query, b.Query), cmp.Compare(a.Better, b.Better), cmp.Compare(a.Worse, b.Worse))
+	})
 	return out, nil
 }

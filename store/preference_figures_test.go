@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"fmt"
 	"math"
 	"slices"
 	"strings"
@@ -66,6 +67,14 @@ func TestPreferenceFigures(t *testing.T) {
 	if g.Comparisons != 2 || g.Unanimous != 1 || math.Abs(g.UnanimousShare.V-0.5) > 1e-12 || math.Abs(g.Pairwise.V-0.5) > 1e-12 ||
 		!g.Alpha.Alpha.OK || math.Abs(g.Alpha.Alpha.V) > 1e-12 {
 		t.Errorf("agreement %+v", g)
+	}
+	// As training pairs: Aa over Ab twice; Ba over Bb once (the "about the same" gives none).
+	pairs, err := s.PreferencePairs(ctx, p.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := fmt.Sprint(pairs); got != "[{A Aa Ab 2} {B Ba Bb 1}]" {
+		t.Errorf("training pairs %s", got)
 	}
 	// The runs, counted by hand: three answers with a preference (two on A, one on B), one
 	// "about the same" on B.

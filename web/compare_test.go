@@ -215,6 +215,15 @@ func TestPreferencesPageAndAPIAgree(t *testing.T) {
 			t.Errorf("the page does not show %s = %v as the API does", name, v)
 		}
 	}
+	// The training pairs: d0 over d1 and d1 over d2, by both assessors.
+	const wantPairs = "query,better,worse,count\nq0,q0-d0,q0-d1,2\nq0,q0-d1,q0-d2,2\n"
+	if res, csv := a.get(lead, fmt.Sprintf("/projects/%d/preference-pairs.csv", a.project.ID)); res.StatusCode != http.StatusOK || csv != wantPairs {
+		t.Errorf("training pairs: %d\n%s", res.StatusCode, csv)
+	}
+	if res, jl := a.api("GET", fmt.Sprintf("/api/v1/projects/%d/preference-pairs", a.project.ID), token, nil); res.StatusCode != http.StatusOK ||
+		strings.Count(jl, "\n") != 2 || !strings.Contains(jl, `{"query":"q0","better":"q0-d0","worse":"q0-d1","count":2}`) {
+		t.Errorf("training pairs from the API: %d\n%s", res.StatusCode, jl)
+	}
 	if strings.Index(page, ">q0-d0<") > strings.Index(page, ">q0-d2<") {
 		t.Errorf("the page does not list the best document first")
 	}

@@ -5,6 +5,7 @@ import (
 	"strconv"
 
 	"github.com/pertinent/pertinent/agreement"
+	"github.com/pertinent/pertinent/export"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -80,4 +81,31 @@ func (s *Server) apiPreferences(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	apiJSON(w, rep)
+}
+
+// preferencePairsCSV downloads the project's preference answers as training pairs.
+func (s *Server) preferencePairsCSV(w http.ResponseWriter, r *http.Request) {
+	pairs, err := s.store.PreferencePairs(r.Context(), currentProject(r).ID)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
+	w.Header().Set("Content-Disposition", `attachment; filename="preference-pairs.csv"`)
+	if err := export.WritePreferencePairsCSV(w, pairs); err != nil {
+		s.log.ErrorContext(r.Context(), "writing preference pairs failed", "err", err)
+	}
+}
+
+// apiPreferencePairs gives the same pairs as JSON Lines.
+func (s *Server) apiPreferencePairs(w http.ResponseWriter, r *http.Request) {
+	pairs, err := s.store.PreferencePairs(r.Context(), currentProject(r).ID)
+	if err != nil {
+		s.apiStoreError(w, r, err)
+		return
+	}
+	w.Header().Set("Content-Type", "application/jsonl; charset=utf-8")
+	if err := export.WritePreferencePairsJSONL(w, pairs); err != nil {
+		s.log.ErrorContext(r.Context(), "writing preference pairs failed", "err", err)
+	}
 }

@@ -44,6 +44,7 @@ func (s *Server) routes() chi.Router {
 			r.Get("/assessor-effects", s.apiEffects)
 			r.Get("/sources", s.apiSources)
 			r.Get("/preferences", s.apiPreferences)
+			r.Get("/preference-pairs", s.apiPreferencePairs)
 		})
 		r.NotFound(func(w http.ResponseWriter, r *http.Request) {
 			apiError(w, http.StatusNotFound, "no such endpoint")
@@ -93,6 +94,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/assessor-effects", s.effectsPage)
 				r.Get("/sources", s.sourcesPage)
 				r.Get("/preferences", s.preferencesPage)
+				r.Get("/preference-pairs.csv", s.preferencePairsCSV)
 				r.Get("/agreement", s.agreementPage)
 				r.Get("/queue", s.queuePage)
 				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)

@@ -61,6 +61,7 @@ var routeAccess = map[string]access{
 	"GET /projects/{project}/assessor-effects":                       projectLead,
 	"GET /projects/{project}/sources":                                projectLead,
 	"GET /projects/{project}/preferences":                            projectLead,
+	"GET /projects/{project}/preference-pairs.csv":                   projectLead,
 	"GET /projects/{project}/queue":                                  projectLead,
 	"GET /projects/{project}/pairs/{pair}/adjudicate":                projectLead,
 	"POST /projects/{project}/pairs/{pair}/adjudicate":               projectLead,
@@ -108,6 +109,7 @@ var routeAccess = map[string]access{
 	"GET /api/v1/projects/{project}/assessor-effects":                apiToken,
 	"GET /api/v1/projects/{project}/sources":                         apiToken,
 	"GET /api/v1/projects/{project}/preferences":                     apiToken,
+	"GET /api/v1/projects/{project}/preference-pairs":                apiToken,
 }
 
 // TestEveryRouteEnforcesItsRoles walks the router itself and requests every route as an
