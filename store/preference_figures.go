@@ -37,6 +37,21 @@ type PreferenceReport struct {
 	Queries                []PreferenceQuery    `json:"queries"`
 	// Runs: how far each kept run orders documents as the assessors preferred them.
 	Runs []RunPreference `json:"runs"`
+	// FlaggedComparisons lists the comparisons with current answers flagged as disturbing or
+	// not judged, disturbing first; never who answered.
+	FlaggedComparisons []FlaggedComparison `json:"flagged_comparisons"`
+}
+
+// FlaggedComparison is one comparison that assessors flagged or could not judge.
+type FlaggedComparison struct {
+	Query      string `json:"query"`
+	DocumentA  string `json:"document_a"`
+	DocumentB  string `json:"document_b"`
+	Flagged    int    `json:"flagged"`    // answers with the flag or the reason "disturbing"
+	Disturbing int    `json:"disturbing"` // of those, cannot judge: disturbing
+	Broken     int    `json:"broken"`
+	Language   int    `json:"language"`
+	Other      int    `json:"other"`
 }
 
 // RunPreference is one kept run against the preference answers.
@@ -52,6 +67,9 @@ func (s *Store) PreferenceFigures(ctx context.Context, projectID int64) (Prefere
 	out := PreferenceReport{Queries: []PreferenceQuery{}, Runs: []RunPreference{}}
 	p, err := s.Project(ctx, projectID)
 	if err != nil {
+		return out, err
+	}
+	if out.FlaggedComparisons, err = s.flaggedComparisons(ctx, projectID); err != nil {
 		return out, err
 	}
 	levels, err := s.Scale(ctx, projectID)
@@ -197,4 +215,23 @@ func (s *Store) PreferencePairs(ctx context.Context, projectID int64) ([]export.
 		return cmp.Or(cmp.Compare(a.Query, b.Query), cmp.Compare(a.Better, b.Better), cmp.Compare(a.Worse, b.Worse))
 	})
 	return out, nil
+}
+
+// flaggedComparisons reads the comparisons with flagged or unjudged current answers.
+func (s *Store) flaggedComparisons(ctx context.Context, projectID int64) ([]FlaggedComparison, error) {
+	out, err := queryAll(ctx, s.r, `SELECT q.external_id, da.external_id, db.external_id,
+			SUM(a.flagged = 1 OR a.cannot_judge = 'disturbing'), SUM(a.cannot_judge = 'disturbing'),
+			SUM(a.cannot_judge = 'broken'), SUM(a.cannot_judge = 'language'), SUM(a.cannot_judge = 'other')
+		FROM preference_answers a JOIN preference_comparisons c ON c.id = a.comparison_id
+		JOIN queries q ON q.id = c.query_id JOIN documents da ON da.id = c.doc_a JOIN documents db ON db.id = c.doc_b
+		WHERE c.project_id = ? AND a.current = 1 AND (a.flagged = 1 OR a.cannot_judge IS NOT NULL)
+		GROUP BY c.id ORDER BY 4 DESC, q.external_id, da.external_id, db.external_id`, func(r rowScanner) (FlaggedComparison, error) {
+		var f FlaggedComparison
+		err := r.Scan(&f.Query, &f.DocumentA, &f.DocumentB, &f.Flagged, &f.Disturbing, &f.Broken, &f.Language, &f.Other)
+		return f, err
+	}, projectID)
+	if out == nil {
+		out = []FlaggedComparison{}
+	}
+	return out, err
 }

@@ -289,6 +289,13 @@ func TestPreferenceUndoCannotJudgeFlagAndNote(t *testing.T) {
 		!hist[1].Flagged || hist[1].Note != "graphic images on the right" || hist[1].LeftDoc != v.Left.ID {
 		t.Fatalf("history %+v", hist)
 	}
+	rep, err := s.PreferenceFigures(ctx, p.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f := rep.FlaggedComparisons; len(f) != 1 || f[0].Flagged != 1 || f[0].Disturbing != 1 || f[0].DocumentA != "Aa" || f[0].DocumentB != "Ab" || rep.Flagged != 1 {
+		t.Errorf("flagged comparisons %+v (%d flagged)", f, rep.Flagged)
+	}
 	for _, u := range users[1:] {
 		w, err := s.NextComparison(ctx, p.ID, u)
 		if err != nil {

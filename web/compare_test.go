@@ -97,6 +97,11 @@ func TestComparingWithoutJavaScript(t *testing.T) {
 		hist[1].CannotJudge != "disturbing" || !hist[1].Flagged || hist[1].Note != note || fmt.Sprint(hist[1].LeftDoc) != left {
 		t.Fatalf("stored answers %+v", hist)
 	}
+	// The lead sees the flagged comparison, and not who flagged it.
+	_, desk := a.get(a.signIn(a.lead.Username), fmt.Sprintf("/projects/%d/preferences", a.project.ID))
+	if !strings.Contains(desk, `<tr class="disturbing"><td>q0</td>`) || strings.Contains(desk, a.assessors[0].Username) {
+		t.Errorf("the Preferences page does not list the flagged comparison, or names who flagged it")
+	}
 	// Blind: the other assessor's pages never show the first one's note or name.
 	b := a.signIn(a.assessors[1].Username)
 	for _, path := range []string{a.comparePath(), "/", fmt.Sprintf("/projects/%d/mine", a.project.ID), fmt.Sprintf("/projects/%d/feedback", a.project.ID)} {
