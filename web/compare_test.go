@@ -233,3 +233,22 @@ func TestPreferencesPageAndAPIAgree(t *testing.T) {
 		t.Errorf("the page does not list the best document first")
 	}
 }
+
+// Hostile document text is inert on the comparing page: the body goes through the same
+// sanitiser as on the graded screen and the title is escaped.
+func TestComparingPageNeutralisesHostileDocuments(t *testing.T) {
+	a := preferenceApp(t, withPairs(1, 2), withAssessors(1), withPerPair(1))
+	a.rewriteDocuments(`<img src=x onerror="alert('title')">`, `<p>fine</p><script>alert('body')</script><a href="javascript:alert(1)" onclick="x()">link</a>`, "html")
+	_, body := a.get(a.signIn(a.assessors[0].Username), a.comparePath())
+	if id, _ := offeredComparison(body); id == "" {
+		t.Fatal("no comparison offered")
+	}
+	for _, bad := range []string{"<script>alert", "<img src=x onerror", `onerror="alert`, `onclick="`, `href="javascript:`} {
+		if strings.Contains(body, bad) {
+			t.Errorf("the comparing page carries %q", bad)
+		}
+	}
+	if strings.Count(body, "<p>fine</p>") != 2 || strings.Count(body, "&lt;img src=x onerror=") != 2 {
+		t.Errorf("the sanitised bodies and the escaped titles are not both shown")
+	}
+}
