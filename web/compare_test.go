@@ -10,7 +10,9 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"time"
 
+	"github.com/pertinent/pertinent/internal/testclock"
 	"github.com/pertinent/pertinent/store"
 )
 
@@ -250,5 +252,34 @@ func TestComparingPageNeutralisesHostileDocuments(t *testing.T) {
 	}
 	if strings.Count(body, "<p>fine</p>") != 2 || strings.Count(body, "&lt;img src=x onerror=") != 2 {
 		t.Errorf("the sanitised bodies and the escaped titles are not both shown")
+	}
+}
+
+// A comparison whose lease ran out and that another assessor then answered refuses the late
+// answer: with htmx the screen says so and moves on.
+func TestLateAnswerIsRefusedAndTheScreenMovesOn(t *testing.T) {
+	a := preferenceApp(t, withPairs(2, 2), withAssessors(2), withPerPair(1))
+	clock := testclock.New(time.Now().UTC())
+	a.store.SetClock(clock.Now)
+	first, second := a.signIn(a.assessors[0].Username), a.signIn(a.assessors[1].Username)
+	_, body := a.get(first, a.comparePath())
+	id, left := offeredComparison(body)
+	clock.Advance(time.Duration(a.project.LeaseSeconds+1) * time.Second)
+	_, body = a.get(second, a.comparePath())
+	if other, otherLeft := offeredComparison(body); other != id {
+		t.Fatalf("after the lease ran out the second assessor got %s, not %s", other, id)
+	} else if res := a.post(second, a.comparePath(), url.Values{"comparison": {other}, "left": {otherLeft}, "outcome": {"left"}}); res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("second assessor's answer: %d", res.StatusCode)
+	}
+	status, fragment, err := a.send(first, http.MethodPost, a.comparePath(), url.Values{"comparison": {id}, "left": {left}, "outcome": {"right"}}, true)
+	if err != nil || status != http.StatusOK || !strings.Contains(fragment, "Not saved: this comparison has all the answers it needs.") {
+		t.Fatalf("late answer: %d %v %s", status, err, fragment)
+	}
+	if next, _ := offeredComparison(fragment); next == "" || next == id {
+		t.Errorf("after the refusal the screen offers %q, want the other query's comparison", next)
+	}
+	// Without JavaScript the refusal is a page of its own, 409.
+	if res := a.post(first, a.comparePath(), url.Values{"comparison": {id}, "left": {left}, "outcome": {"right"}}); res.StatusCode != http.StatusConflict {
+		t.Errorf("late answer without htmx: %d, want 409", res.StatusCode)
 	}
 }
