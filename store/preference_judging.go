@@ -340,3 +340,30 @@ func (s *Store) PreferenceJudgments(ctx context.Context, projectID int64) ([]pre
 		return j, err
 	}, projectID)
 }
+
+// MyComparison is one of an assessor's current answers as their My work page lists it.
+type MyComparison struct {
+	QueryText   string
+	LeftTitle   string
+	RightTitle  string
+	Outcome     string
+	CannotJudge string
+	Flagged     bool
+	Note        string
+	CreatedAt   time.Time
+}
+
+// ComparisonsByAssessor returns up to limit of one assessor's current answers in a project,
+// newest first, with the documents as they were placed for them. Nothing of anyone else's.
+func (s *Store) ComparisonsByAssessor(ctx context.Context, projectID, userID int64, limit int) ([]MyComparison, error) {
+	return queryAll(ctx, s.r, `SELECT q.text, l.title, r.title, COALESCE(a.outcome, ''), COALESCE(a.cannot_judge, ''), a.flagged, a.note, a.created_at
+		FROM preference_answers a JOIN preference_comparisons c ON c.id = a.comparison_id JOIN queries q ON q.id = c.query_id
+		JOIN documents l ON l.id = a.left_doc JOIN documents r ON r.id = a.right_doc
+		WHERE a.user_id = ?2 AND c.project_id = ?1 AND a.current = 1 ORDER BY a.id DESC LIMIT ?3`, func(r rowScanner) (MyComparison, error) {
+		var m MyComparison
+		var at string
+		err := r.Scan(&m.QueryText, &m.LeftTitle, &m.RightTitle, &m.Outcome, &m.CannotJudge, &m.Flagged, &m.Note, &at)
+		m.CreatedAt = parseTime(at)
+		return m, err
+	}, projectID, userID, limit)
+}

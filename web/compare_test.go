@@ -99,6 +99,12 @@ func TestComparingWithoutJavaScript(t *testing.T) {
 		hist[1].CannotJudge != "disturbing" || !hist[1].Flagged || hist[1].Note != note || fmt.Sprint(hist[1].LeftDoc) != left {
 		t.Fatalf("stored answers %+v", hist)
 	}
+	// My work lists the assessor's own current answer, the withdrawn one not.
+	_, mine := a.get(c, fmt.Sprintf("/projects/%d/mine", a.project.ID))
+	if !strings.Contains(mine, `id="my-comparisons"`) || !strings.Contains(mine, "cannot judge (disturbing)") || !strings.Contains(mine, note) ||
+		strings.Contains(mine, "Right is better") || !strings.Contains(mine, `/compare">Compare</a>`) {
+		t.Errorf("My work does not list the comparisons as answered")
+	}
 	// The lead sees the flagged comparison, and not who flagged it.
 	_, desk := a.get(a.signIn(a.lead.Username), fmt.Sprintf("/projects/%d/preferences", a.project.ID))
 	if !strings.Contains(desk, `<tr class="disturbing"><td>q0</td>`) || strings.Contains(desk, a.assessors[0].Username) {
