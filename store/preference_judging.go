@@ -77,6 +77,8 @@ const (
 func (s *Store) NextComparison(ctx context.Context, projectID, userID int64) (ComparisonView, error) {
 	var id, left int64
 	var leasedAt string
+	var committed func()
+	var noWork bool
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		var k, leaseSeconds int
 		var kind string
@@ -108,13 +110,32 @@ func (s *Store) NextComparison(ctx context.Context, projectID, userID int64) (Co
 		var a, b int64
 		err = tx.QueryRowContext(ctx, openComparisonSQL, projectID, userID, now, k).Scan(&id, &a, &b)
 		if errors.Is(err, sql.ErrNoRows) {
+			// Nothing open for them: grades may have come in, or the judgments per pair
+			// changed, since the schedule was last worked out. Answers and undo keep their
+			// own query current, so the whole project is replayed only when its grades'
+			// version (project_versions) or k differ from the last replay's.
+			var version int64
+			if err := tx.QueryRowContext(ctx, `SELECT COALESCE((SELECT version FROM project_versions WHERE project_id = ?), 0)`,
+				projectID).Scan(&version); err != nil {
+				return err
+			}
+			basis := [2]int64{version, int64(k)}
+			if last, ok := s.scheduled.Load(projectID); ok && last.([2]int64) == basis {
+				noWork = true
+				return nil
+			}
 			if err := s.refreshComparisons(ctx, tx, projectID, 0); err != nil {
 				return err
 			}
+			// Kept only once this transaction commits: a rolled-back replay must not count.
+			committed = func() { s.scheduled.Store(projectID, basis) }
 			err = tx.QueryRowContext(ctx, openComparisonSQL, projectID, userID, now, k).Scan(&id, &a, &b)
 		}
 		if errors.Is(err, sql.ErrNoRows) {
-			return ErrNoWork
+			// Committed all the same: the replay may have opened comparisons for others
+			// (ones this assessor answered) or closed some.
+			noWork = true
+			return nil
 		}
 		if err != nil {
 			return err
@@ -128,6 +149,12 @@ func (s *Store) NextComparison(ctx context.Context, projectID, userID int64) (Co
 		leasedAt = now
 		return s.leaseComparison(ctx, tx, id, userID, left, t, leaseSeconds)
 	})
+	if committed != nil && err == nil {
+		committed()
+	}
+	if err == nil && noWork {
+		err = ErrNoWork
+	}
 	if err != nil {
 		return ComparisonView{}, err
 	}

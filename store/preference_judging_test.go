@@ -396,3 +396,61 @@ func TestPreferenceAnswersSurviveReopening(t *testing.T) {
 		t.Errorf("after reopening: answers %v, acknowledged %v", got, acked)
 	}
 }
+
+// An assessor who found nothing open gets work once grades come in or the judgments per
+// comparison rise, without anything else replaying the schedule first.
+func TestPreferenceWorkFollowsNewGradesAndK(t *testing.T) {
+	s := openTest(t)
+	ctx := context.Background()
+	p, lead, pairs, users := fixture(t, s, 1, 3, 2)
+	if _, err := s.Adjudicate(ctx, pairs[0], lead.ID, 4, ""); err != nil {
+		t.Fatal(err)
+	}
+	if err := s.SetTaskKind(ctx, p.ID, TaskPreference, nil, lead.ID); err != nil {
+		t.Fatal(err)
+	}
+	for range 2 { // the second miss is answered from what the first one worked out
+		if _, err := s.NextComparison(ctx, p.ID, users[0]); !errors.Is(err, ErrNoWork) {
+			t.Fatalf("one document above the threshold gave a comparison: %v", err)
+		}
+	}
+	// A grade by a person: the lower median of 3 and 4 is 3, at the threshold.
+	for i, g := range []int{3, 4} {
+		v := nextPair(t, s, p.ID, users[i])
+		if _, err := s.Submit(ctx, Submission{PairID: pairs[1], UserID: users[i], Grade: &g}); err != nil {
+			t.Fatalf("grading %d (leased %d): %v", pairs[1], v.PairID, err)
+		}
+	}
+	v, err := s.NextComparison(ctx, p.ID, users[0])
+	if err != nil {
+		t.Fatalf("after a second document reached the threshold: %v", err)
+	}
+	answer(t, s, v, users[0], "left")
+	w, err := s.NextComparison(ctx, p.ID, users[1])
+	if err != nil {
+		t.Fatal(err)
+	}
+	answer(t, s, w, users[1], "left")
+	if _, err := s.NextComparison(ctx, p.ID, users[1]); !errors.Is(err, ErrNoWork) {
+		t.Fatalf("after both answers: %v", err)
+	}
+	// Three answers per comparison now: a third assessor is asked.
+	third, err := s.CreateUser(ctx, "third", "", RoleAssessor, "long enough password")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := s.SetMember(ctx, p.ID, third.ID, RoleAssessor, lead.ID); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := s.NextComparison(ctx, p.ID, third.ID); !errors.Is(err, ErrNoWork) {
+		t.Fatalf("the comparison had its two answers, yet a third assessor was asked: %v", err)
+	}
+	ps := p.Settings()
+	ps.JudgmentsPerPair = 3
+	if err := s.UpdateProject(ctx, p.ID, ps, lead.ID); err != nil {
+		t.Fatal(err)
+	}
+	if x, err := s.NextComparison(ctx, p.ID, third.ID); err != nil || x.ComparisonID != v.ComparisonID {
+		t.Fatalf("after raising the answers per comparison to 3: %+v, %v", x, err)
+	}
+}
