@@ -11,6 +11,7 @@ import (
 	"fmt"
 	"net/url"
 	"runtime"
+	"sync"
 	"sync/atomic"
 	"time"
 
@@ -31,6 +32,9 @@ type Store struct {
 	group    groupWriter   // group commit of the judging path (judge_groupwriter.go)
 	progress progressCache // judging progress per project, keyed by project_versions
 	runs     runCache      // parsed kept runs (plan_runs.go)
+	// scheduled holds, per project, what its comparisons were last worked out from
+	// (preference_judging.go), so an assessor with nothing open does not replay every query.
+	scheduled sync.Map
 }
 
 // Open opens (creating if needed) the database file at path and applies pending migrations.

@@ -17,6 +17,12 @@ type Project struct {
 	LeaseSeconds     int
 	AllowChanges     bool
 	Archived         bool
+	// TaskKind is what assessors are asked: TaskGraded (a grade per pair) or TaskPreference
+	// (which of two documents is better).
+	TaskKind string
+	// PreferenceThreshold is the lowest final grade a document needs to be compared; nil
+	// means the top two levels of the scale (PreferenceFloor).
+	PreferenceThreshold *int
 }
 
 // ScaleLevel is one grade of a project's scale.
@@ -111,11 +117,15 @@ func (s *Store) CreateProject(ctx context.Context, p NewProject, by int64) (Proj
 	return s.Project(ctx, id)
 }
 
-const projectColumns = `id, name, description, judgments_per_pair, gold_rate, lease_seconds, allow_changes, archived_at IS NOT NULL`
+const projectColumns = `id, name, description, judgments_per_pair, gold_rate, lease_seconds, allow_changes, archived_at IS NOT NULL,
+	task_kind, preference_threshold`
 
 func scanProject(row interface{ Scan(...any) error }) (Project, error) {
 	var p Project
-	err := row.Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived)
+	var threshold sql.NullInt64
+	err := row.Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived,
+		&p.TaskKind, &threshold)
+	p.PreferenceThreshold = gradeOf(threshold)
 	if errors.Is(err, sql.ErrNoRows) {
 		return Project{}, ErrNotFound
 	}
@@ -131,10 +141,13 @@ func (s *Store) Project(ctx context.Context, id int64) (Project, error) {
 // none): the check in front of every project page, so one statement rather than two.
 func (s *Store) ProjectAndRole(ctx context.Context, projectID, userID int64) (p Project, role Role, member bool, err error) {
 	var r sql.NullString
+	var threshold sql.NullInt64
 	err = s.readRow(ctx, `SELECT `+projectColumns+`,
 			(SELECT m.role FROM project_members m WHERE m.project_id = projects.id AND m.user_id = ?2)
 		FROM projects WHERE id = ?1`, projectID, userID).
-		Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived, &r)
+		Scan(&p.ID, &p.Name, &p.Description, &p.JudgmentsPerPair, &p.GoldRate, &p.LeaseSeconds, &p.AllowChanges, &p.Archived,
+			&p.TaskKind, &threshold, &r)
+	p.PreferenceThreshold = gradeOf(threshold)
 	if errors.Is(err, sql.ErrNoRows) {
 		return Project{}, "", false, ErrNotFound
 	}
@@ -162,7 +175,7 @@ type ProjectListing struct {
 // ProjectsByUser lists the projects a user works on; admins see every project.
 func (s *Store) ProjectsByUser(ctx context.Context, u User) ([]ProjectListing, error) {
 	return queryAll(ctx, s.r, `SELECT p.id, p.name, p.description, p.judgments_per_pair, p.gold_rate, p.lease_seconds,
-			p.allow_changes, p.archived_at IS NOT NULL, COALESCE(m.role, ''),
+			p.allow_changes, p.archived_at IS NOT NULL, p.task_kind, COALESCE(m.role, ''),
 			(SELECT COUNT(*) FROM pairs x WHERE x.project_id = p.id),
 			(SELECT COALESCE(SUM(x.judged), 0) FROM pairs x WHERE x.project_id = p.id),
 			(SELECT COUNT(*) FROM judgments j JOIN pairs x ON x.id = j.pair_id WHERE x.project_id = p.id AND j.user_id = ?1 AND j.current = 1)
@@ -172,7 +185,7 @@ func (s *Store) ProjectsByUser(ctx context.Context, u User) ([]ProjectListing, e
 		var l ProjectListing
 		var role string
 		err := r.Scan(&l.ID, &l.Name, &l.Description, &l.JudgmentsPerPair, &l.GoldRate, &l.LeaseSeconds,
-			&l.AllowChanges, &l.Archived, &role, &l.Pairs, &l.Judgments, &l.MineToDate)
+			&l.AllowChanges, &l.Archived, &l.TaskKind, &role, &l.Pairs, &l.Judgments, &l.MineToDate)
 		l.Role = Role(role)
 		if l.Role == "" {
 			l.Role = RoleAdmin

@@ -41,7 +41,7 @@ func TestMigrateEmptyFileToLatest(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, want := range []string{"adjudications", "api_tokens", "audit_events", "documents", "feature_names",
-		"guideline_revisions", "judgments", "leases", "pair_features", "pair_sources", "pairs", "password_links",
+		"guideline_revisions", "judgments", "leases", "preference_answers", "preference_comparisons", "preference_leases", "pair_features", "pair_sources", "pairs", "password_links",
 		"project_members", "projects", "queries", "scale_levels", "schema_migrations", "sessions", "settings", "users"} {
 		if !slices.Contains(tables, want) {
 			t.Errorf("table %s missing after migration; have %v", want, tables)

@@ -12,6 +12,8 @@ import (
 // myWorkData is an assessor's own recent judgments: nothing of anyone else's.
 type myWorkData struct {
 	Judgments    []store.MyJudgment
+	Comparisons  []store.MyComparison
+	Preference   bool // the project asks for preferences: the screen to go back to is comparing
 	Scale        []store.ScaleLevel
 	Reasons      []reasonOption
 	Today        int
@@ -25,8 +27,11 @@ type myWorkData struct {
 func (s *Server) myWorkData(r *http.Request, status string) (myWorkData, error) {
 	p := currentProject(r)
 	u, _ := currentUser(r)
-	d := myWorkData{Reasons: cannotJudgeOptions, AllowChanges: p.AllowChanges, Status: status}
+	d := myWorkData{Reasons: cannotJudgeOptions, AllowChanges: p.AllowChanges, Status: status, Preference: p.TaskKind == store.TaskPreference}
 	var err error
+	if d.Comparisons, err = s.store.ComparisonsByAssessor(r.Context(), p.ID, u.ID, 100); err != nil {
+		return d, err
+	}
 	if d.Judgments, err = s.store.JudgmentsByAssessor(r.Context(), p.ID, u.ID, 100); err != nil {
 		return d, err
 	}

@@ -37,6 +37,13 @@ type settingsData struct {
 	Notices     []string
 	Error       string // about the settings form
 	ScaleError  string // about the scale form
+	TaskError   string // about the task form
+	// The task form: what assessors are asked, and the lowest final grade compared (Floor
+	// is the one in force, DefaultFloor the top two levels).
+	TaskKind     string
+	Threshold    string // as entered; empty for the top two levels
+	Floor        int
+	DefaultFloor int
 }
 
 func (s *Server) settingsData(w http.ResponseWriter, r *http.Request) (settingsData, error) {
@@ -65,6 +72,10 @@ func (s *Server) settingsData(w http.ResponseWriter, r *http.Request) (settingsD
 	// ?levels=N shows the scale form with N rows, so the number of levels changes without
 	// JavaScript: new rows start from the default wording or blank.
 	d.Levels = len(d.Scale)
+	d.TaskKind, d.Floor, d.DefaultFloor = p.TaskKind, store.PreferenceFloor(p.Project, len(d.Scale)), store.PreferenceFloor(store.Project{}, len(d.Scale))
+	if p.PreferenceThreshold != nil {
+		d.Threshold = strconv.Itoa(*p.PreferenceThreshold)
+	}
 	if n, err := strconv.Atoi(r.URL.Query().Get("levels")); err == nil && n >= 2 && n <= 11 && !d.ScaleLocked {
 		d.Levels = n
 		d.Scale = resizeScale(d.Scale, n)
@@ -137,6 +148,33 @@ func (s *Server) saveSettings(w http.ResponseWriter, r *http.Request) {
 		}
 	}
 	s.renderSettings(w, r, status, func(d *settingsData) { d.Form, d.Error = f, bad })
+}
+
+// saveTask sets what the project asks its assessors: grades, or preferences between the
+// documents whose final grade reaches the threshold (empty: the top two levels).
+func (s *Server) saveTask(w http.ResponseWriter, r *http.Request) {
+	u, _ := currentUser(r)
+	kind, entered := r.PostFormValue("task_kind"), strings.TrimSpace(r.PostFormValue("threshold"))
+	var threshold *int
+	var err error
+	if entered != "" {
+		n, convErr := strconv.Atoi(entered)
+		if convErr != nil {
+			s.renderSettings(w, r, http.StatusBadRequest, func(d *settingsData) {
+				d.TaskError, d.TaskKind, d.Threshold = "The threshold must be a grade, a whole number.", kind, entered
+			})
+			return
+		}
+		threshold = &n
+	}
+	if err = s.store.SetTaskKind(r.Context(), currentProject(r).ID, kind, threshold, u.ID); err == nil {
+		s.flash(w, r, "notice", "Task saved.")
+		http.Redirect(w, r, projectPath(r, "settings"), http.StatusSeeOther)
+		return
+	}
+	s.formError(w, r, err, func(status int, msg string) {
+		s.renderSettings(w, r, status, func(d *settingsData) { d.TaskError, d.TaskKind, d.Threshold = msg, kind, entered })
+	})
 }
 
 func (s *Server) saveScale(w http.ResponseWriter, r *http.Request) {

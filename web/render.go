@@ -30,7 +30,8 @@ var funcs = template.FuncMap{
 	},
 	"add": func(a, b int) int { return a + b },
 	// wellFormed balances sanitised HTML shown inside a page (document bodies).
-	"wellFormed": wellFormed,
+	"wellFormed":   wellFormed,
+	"outcomeLabel": outcomeLabel,
 	"deref": func(p *int) int {
 		if p == nil {
 			return 0

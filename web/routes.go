@@ -45,6 +45,8 @@ func (s *Server) routes() chi.Router {
 			r.Get("/assessor-effects", s.apiEffects)
 			r.Get("/sources", s.apiSources)
 			r.Get("/calibration", s.apiCalibration)
+			r.Get("/preferences", s.apiPreferences)
+			r.Get("/preference-pairs", s.apiPreferencePairs)
 		})
 		r.NotFound(func(w http.ResponseWriter, r *http.Request) {
 			apiError(w, http.StatusNotFound, "no such endpoint")
@@ -66,7 +68,7 @@ func (s *Server) routes() chi.Router {
 		r.Route("/projects/{project}", func(r chi.Router) {
 			r.Use(s.loadProject)
 
-			// The project's assessors: judging and undo (judge.go), their own judgments and
+			// The project's assessors: judging and undo (judge.go), comparing (compare.go), their own judgments and
 			// the feedback on them (mywork.go).
 			r.Group(func(r chi.Router) {
 				r.Use(s.requireProjectRole(store.RoleAssessor))
@@ -75,6 +77,10 @@ func (s *Server) routes() chi.Router {
 				r.Post("/calibration", s.calibrationSubmit)
 				r.Post("/judge", s.judgeSubmit)
 				r.Post("/undo", s.judgeUndo)
+				// Preference judging (compare.go).
+				r.Get("/compare", s.comparePage)
+				r.Post("/compare", s.compareSubmit)
+				r.Post("/compare/undo", s.compareUndo)
 				r.Get("/mine", s.myWorkPage)
 				r.Post("/mine", s.myWorkChange)
 				r.Get("/feedback", s.feedbackPage)
@@ -93,6 +99,8 @@ func (s *Server) routes() chi.Router {
 				r.Get("/sources", s.sourcesPage)
 				r.Post("/sources/prelabels", s.sourcesPrelabels)
 				r.Get("/calibration-scores", s.calibrationScoresPage)
+				r.Get("/preferences", s.preferencesPage)
+				r.Get("/preference-pairs.csv", s.preferencePairsCSV)
 				r.Get("/agreement", s.agreementPage)
 				r.Get("/queue", s.queuePage)
 				r.Get("/pairs/{pair}/adjudicate", s.adjudicatePage)
@@ -105,6 +113,7 @@ func (s *Server) routes() chi.Router {
 				r.Get("/settings", s.settingsPage)
 				r.Post("/settings", s.saveSettings)
 				r.Post("/scale", s.saveScale)
+				r.Post("/task", s.saveTask)
 				r.Post("/archive", s.archiveProject)
 				r.Post("/restore", s.restoreProject)
 				r.Get("/guidelines", s.guidelinesPage)

@@ -30,10 +30,11 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 	sources := fs.Bool("sources", false, "with --db: every external source of grades against the people's final grades instead of agreement")
 	effects := fs.Bool("effects", false, "with --db: what each assessor does (leniency, and the kept runs' order under their grades) instead of agreement")
 	calibration := fs.Bool("calibration", false, "with --db: the calibration round and each assessor's score against its known grades instead of agreement")
+	preferences := fs.Bool("preferences", false, "with --db: agreement on preference answers, and each query's Bradley-Terry order, instead of graded agreement")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: pertinent agreement --from FILE.csv [--json] [--scale K] [--bootstrap N] [--seed S]")
 		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME [...]")
-		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME --effects|--sources|--calibration [--json]")
+		fmt.Fprintln(stderr, "       pertinent agreement --db FILE --project NAME --effects|--sources|--calibration|--preferences [--json]")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -78,6 +79,13 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 			}
 			return printCalibration(stdout, c, *asJSON)
 		}
+		if *preferences {
+			r, err := st.PreferenceFigures(ctx, p.ID)
+			if err != nil {
+				return err
+			}
+			return printPreferences(stdout, r, *asJSON)
+		}
 		if *effects {
 			e, err := st.AssessorEffects(ctx, p.ID)
 			if err != nil {
@@ -99,8 +107,8 @@ func runAgreement(ctx context.Context, args []string, stdout, stderr io.Writer) 
 		if !given["seed"] {
 			*seed = store.BootstrapSeed
 		}
-	case *effects || *sources || *calibration:
-		return errors.New("agreement: --effects, --sources and --calibration need --db and --project")
+	case *effects || *sources || *calibration || *preferences:
+		return errors.New("agreement: --effects, --sources, --calibration and --preferences need --db and --project")
 	case *from != "":
 		d, err := readRatingsCSV(*from, *scale)
 		if err != nil {

@@ -102,3 +102,35 @@ func printCalibration(w io.Writer, c store.CalibrationRound, asJSON bool) error 
 	}
 	return nil
 }
+
+// printPreferences prints the store's PreferenceReport: as JSON, exactly what the API gives.
+func printPreferences(w io.Writer, r store.PreferenceReport, asJSON bool) error {
+	if asJSON {
+		enc := json.NewEncoder(w)
+		enc.SetIndent("", "  ")
+		return enc.Encode(r)
+	}
+	a := r.Agreement
+	fmt.Fprintf(w, "Preferences between documents graded %d or better, %d answers per comparison: %d answers, %d cannot judge, %d flagged\n",
+		r.Threshold, r.JudgmentsPerComparison, r.Answers, r.CannotJudge, r.Flagged)
+	fmt.Fprintf(w, "Agreement over %d comparisons: all alike %s, pairs of assessors agreeing %s, Krippendorff's alpha (nominal) %s\n",
+		a.Comparisons, num(a.UnanimousShare), num(a.Pairwise), num(a.Alpha.Alpha))
+	for _, q := range r.Queries {
+		state := fmt.Sprintf("waiting for %d comparisons", q.Open)
+		if q.Done {
+			state = "sorted"
+		}
+		fmt.Fprintf(w, "%s (%s): %d documents, %s\n", q.Query, q.Text, len(q.Documents), state)
+		for i, sc := range q.Fit.Scores {
+			fmt.Fprintf(w, "  %d. %s  %.2f [%.2f, %.2f]  %d-%d-%d\n", i+1, sc.Document, sc.Score, sc.Low, sc.High, sc.Wins, sc.Losses, sc.Ties)
+		}
+		for _, t := range q.Fit.Intransitive {
+			fmt.Fprintf(w, "  intransitive: %s > %s > %s > %s\n", t.A, t.B, t.C, t.A)
+		}
+	}
+	for _, x := range r.Runs {
+		fmt.Fprintf(w, "run %s: orders %d answers as preferred, %d against (share %s); %d without a preference, %d of documents it ranks neither of\n",
+			x.Run, x.Agree, x.Disagree, num(x.Share), x.NoPreference, x.Unranked)
+	}
+	return nil
+}

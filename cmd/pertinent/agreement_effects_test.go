@@ -46,7 +46,7 @@ func TestAgreementEffectsPrintsTheStoresFigures(t *testing.T) {
 			t.Errorf("text lacks %s's leniency:\n%s", l.Rater, out.String())
 		}
 	}
-	if err := runAgreement(ctx, []string{"--effects"}, &out, &errOut); err == nil || !strings.Contains(err.Error(), "--effects, --sources and --calibration need --db") {
+	if err := runAgreement(ctx, []string{"--effects"}, &out, &errOut); err == nil || !strings.Contains(err.Error(), "--effects, --sources, --calibration and --preferences need --db") {
 		t.Errorf("--effects alone: %v", err)
 	}
 }

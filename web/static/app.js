@@ -3,11 +3,15 @@
 //   0-9  grade the pair on screen (and go on)     x  cannot judge: opens the reasons,
 //   b l d o  pick a reason while they are open    u  undo the last judgment
 //   n    focus the note (Esc leaves it)           g  show or hide the guidelines
+// On the comparing screen 1-4 give the answer of the button marked with that key
+// (data-shortcut) and f ticks or clears the disturbing-content flag.
 (function () {
   "use strict";
   let shownAt = performance.now();
 
   function typing(el) {
+    // A ticked checkbox keeps focus, but the keys must still work there.
+    if (el && el.tagName === "INPUT" && el.type === "checkbox") return false;
     return el && (el.tagName === "TEXTAREA" || el.tagName === "INPUT" || el.tagName === "SELECT" || el.isContentEditable);
   }
 
@@ -34,12 +38,16 @@
     const cannot = document.getElementById("cannot");
     let handled = true;
     if (/^[0-9]$/.test(ev.key)) {
-      const button = pair.querySelector('button[name="grade"][value="' + ev.key + '"]');
+      const button = pair.querySelector('button[name="grade"][value="' + ev.key + '"]') ||
+        pair.querySelector('button[data-shortcut="' + ev.key + '"]');
       if (button) button.click(); else handled = false;
     } else if (ev.key === "x") {
       toggle(cannot, "button");
     } else if (cannot && cannot.open && pair.querySelector('button[data-key="' + ev.key + '"]')) {
       pair.querySelector('button[data-key="' + ev.key + '"]').click();
+    } else if (ev.key === "f" && document.getElementById("flag")) {
+      const flag = document.getElementById("flag");
+      flag.checked = !flag.checked;
     } else if (ev.key === "u") {
       const undo = document.getElementById("undo");
       if (undo) undo.click(); else handled = false;
