@@ -36,7 +36,12 @@ func (s *Server) signin(w http.ResponseWriter, r *http.Request) {
 	data := signinData{Username: username, Next: r.PostFormValue("next")}
 	addr := clientAddress(r)
 	account := strings.ToLower(username)
-	if !s.throttle.allowed(account, addr) {
+	ok, err := s.throttle.allowed(r.Context(), account, addr)
+	if err != nil {
+		s.storeError(w, r, err)
+		return
+	}
+	if !ok {
 		data.Error = "Too many failed attempts. Wait a quarter of an hour, or ask an admin to set a new password."
 		s.render(w, r, http.StatusTooManyRequests, "signin", "", s.newView(r, "Sign in", data))
 		return
@@ -47,7 +52,10 @@ func (s *Server) signin(w http.ResponseWriter, r *http.Request) {
 			s.storeError(w, r, err)
 			return
 		}
-		s.throttle.failed(account, addr)
+		if err := s.throttle.failed(r.Context(), account, addr); err != nil {
+			s.storeError(w, r, err)
+			return
+		}
 		// What was typed as a username is logged only when it names an account: people
 		// type their password into the username field, and the log must never hold one.
 		logged := "(no such account)"
@@ -59,7 +67,10 @@ func (s *Server) signin(w http.ResponseWriter, r *http.Request) {
 		s.render(w, r, http.StatusUnauthorized, "signin", "", s.newView(r, "Sign in", data))
 		return
 	}
-	s.throttle.succeeded(account)
+	if err := s.throttle.succeeded(r.Context(), account); err != nil {
+		s.storeError(w, r, err)
+		return
+	}
 	// A fresh token on every sign-in: a session id planted before sign-in is worth nothing after.
 	sess, _ := s.cookies.Get(r, sessionName)
 	if old, ok := sess.Values["token"].(string); ok {

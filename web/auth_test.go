@@ -7,6 +7,8 @@ import (
 	"net/url"
 	"strings"
 	"testing"
+
+	"github.com/pertinent/pertinent/store"
 )
 
 func TestSignInSucceedsAndShowsProjects(t *testing.T) {
@@ -202,5 +204,34 @@ func TestHealthz(t *testing.T) {
 	a.store.Close()
 	if res, _ := a.get(a.client(), "/healthz"); res.StatusCode != http.StatusServiceUnavailable {
 		t.Errorf("healthz with the database closed: status %d, want 503", res.StatusCode)
+	}
+}
+
+// Two servers on one database (two instances behind a load balancer) count the same
+// failures: guesses spread over both are refused as if sent to one.
+func TestSignInThrottleHoldsAcrossInstances(t *testing.T) {
+	a := newTestApp(t)
+	other, err := store.Open(context.Background(), a.store.Path())
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { other.Close() })
+	b, err := New(context.Background(), other, Options{Logger: discardLogger()})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range 5 {
+		srv := http.Handler(a.srv)
+		if i%2 == 1 {
+			srv = b
+		}
+		if got := signinFrom(srv, "192.0.2.7:4000", "bea", fmt.Sprintf("guess %d", i)); got != http.StatusUnauthorized {
+			t.Fatalf("guess %d: %d", i, got)
+		}
+	}
+	for name, srv := range map[string]http.Handler{"first": a.srv, "second": b} {
+		if got := signinFrom(srv, "192.0.2.8:4000", "bea", testPassword); got != http.StatusTooManyRequests {
+			t.Errorf("the %s instance let bea in after five failures spread over two: %d", name, got)
+		}
 	}
 }

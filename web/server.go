@@ -83,7 +83,7 @@ func New(ctx context.Context, st *store.Store, opts Options) (*Server, error) {
 	}
 	cs := sessions.NewCookieStore(hashKey, blockKey)
 	cs.Options = &sessions.Options{Path: "/", MaxAge: int(opts.SessionTTL.Seconds()), HttpOnly: true, SameSite: http.SameSiteLaxMode}
-	s := &Server{store: st, log: opts.Logger, opts: opts, pages: p, cookies: cs, throttle: newThrottle(), jobs: newImportJobs(ctx)}
+	s := &Server{store: st, log: opts.Logger, opts: opts, pages: p, cookies: cs, throttle: newThrottle(st), jobs: newImportJobs(ctx)}
 	s.router = s.routes()
 	return s, nil
 }

@@ -1,70 +1,37 @@
 package web
 
 import (
-	"sync"
+	"context"
 	"time"
+
+	"github.com/pertinent/pertinent/store"
 )
 
-// throttle counts failed sign-ins per account and per address within a window and refuses
-// further tries once a limit is reached. It lives in memory: a restart forgets, which is
-// acceptable for slowing down guessing, not a lockout record.
+// throttle refuses sign-ins for an account or from an address after too many failures within
+// a window. The failures are kept in the database (store/account_throttle.go), so every
+// instance serving it counts the same tries and a restart forgets nothing.
 type throttle struct {
-	mu         sync.Mutex
+	store      *store.Store
 	window     time.Duration
 	perAccount int
 	perAddress int
-	fails      map[string][]time.Time
-	now        func() time.Time
 }
 
-func newThrottle() *throttle {
-	return &throttle{window: 15 * time.Minute, perAccount: 5, perAddress: 20,
-		fails: map[string][]time.Time{}, now: time.Now}
+func newThrottle(st *store.Store) *throttle {
+	return &throttle{store: st, window: 15 * time.Minute, perAccount: 5, perAddress: 20}
 }
 
 // allowed reports whether a sign-in for this account from this address may be tried now.
-func (t *throttle) allowed(account, address string) bool {
-	t.mu.Lock()
-	defer t.mu.Unlock()
-	return len(t.recent("a:"+account)) < t.perAccount && len(t.recent("ip:"+address)) < t.perAddress
+func (t *throttle) allowed(ctx context.Context, account, address string) (bool, error) {
+	a, b, err := t.store.SignInFailures(ctx, account, address, t.window)
+	return err == nil && a < t.perAccount && b < t.perAddress, err
 }
 
-func (t *throttle) failed(account, address string) {
-	t.mu.Lock()
-	defer t.mu.Unlock()
-	for _, k := range []string{"a:" + account, "ip:" + address} {
-		t.fails[k] = append(t.recent(k), t.now())
-	}
-	if len(t.fails) > 100000 { // bound memory under a spray of names
-		t.sweep()
-	}
+func (t *throttle) failed(ctx context.Context, account, address string) error {
+	return t.store.SignInFailed(ctx, account, address, t.window)
 }
 
 // succeeded clears the account's failures; the address keeps its count.
-func (t *throttle) succeeded(account string) {
-	t.mu.Lock()
-	defer t.mu.Unlock()
-	delete(t.fails, "a:"+account)
-}
-
-func (t *throttle) recent(key string) []time.Time {
-	cut := t.now().Add(-t.window)
-	list := t.fails[key]
-	i := 0
-	for i < len(list) && list[i].Before(cut) {
-		i++
-	}
-	if i == len(list) {
-		delete(t.fails, key)
-		return nil
-	}
-	list = list[i:]
-	t.fails[key] = list
-	return list
-}
-
-func (t *throttle) sweep() {
-	for k := range t.fails {
-		t.recent(k)
-	}
+func (t *throttle) succeeded(ctx context.Context, account string) error {
+	return t.store.SignInSucceeded(ctx, account)
 }
