@@ -1,0 +1,103 @@
+package store
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"os"
+	"path/filepath"
+	"slices"
+	"testing"
+	"time"
+
+	"github.com/pertinent/pertinent/export"
+)
+
+// refineFixture is a preference project of two queries of five documents, two assessors
+// answering every comparison. Query A: Aa, Ab graded 4, Ac, Ad graded 3, Ae 2; both assessors
+// hold Ab > Ad > Aa > Ac, so the fit puts Ad (grade 3) above Aa (grade 4). Query B: Ba, Bb
+// graded 4, Bc 3, Bd 1, Be 0, every comparison answered "neither relevant", so nothing of B
+// is ordered.
+func refineFixture(t *testing.T) (*Store, Project) {
+	t.Helper()
+	s := openTest(t)
+	ctx := context.Background()
+	grades := [][]int{{4, 4, 3, 3, 2}, {4, 4, 3, 1, 0}}
+	p, _, users := prefFixture(t, s, 2, 5, 2, func(q, d int) int { return grades[q][d] })
+	rank := map[string]int{"Ab": 0, "Ad": 1, "Aa": 2, "Ac": 3}
+	for round := 0; ; round++ {
+		if round > 200 {
+			t.Fatal("the comparisons never ran out")
+		}
+		answered := false
+		for _, u := range users {
+			v, err := s.NextComparison(ctx, p.ID, u)
+			if errors.Is(err, ErrNoWork) {
+				continue
+			}
+			if err != nil {
+				t.Fatal(err)
+			}
+			outcome := "neither"
+			if v.Query.ExternalID == "A" {
+				outcome = "right"
+				if rank[v.Left.ExternalID] < rank[v.Right.ExternalID] {
+					outcome = "left"
+				}
+			}
+			answer(t, s, v, u, outcome)
+			answered = true
+		}
+		if !answered {
+			break
+		}
+	}
+	return s, p
+}
+
+var refinePolicy = export.LabelPolicy{AdjudicationFirst: true, Consensus: export.ConsensusMedian, MinJudgments: 1}
+
+// refineExport writes an export into a folder at a fixed time and reads every file back.
+func refineExport(t *testing.T, s *Store, p Project, req ExportRequest) (map[string][]byte, export.Manifest) {
+	t.Helper()
+	ctx := context.Background()
+	plan, err := s.PlanExport(ctx, p.ID, req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	sink := &export.DirSink{Dir: dir}
+	m, err := plan.Write(ctx, sink, time.Date(2026, 1, 2, 3, 4, 5, 0, time.UTC), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := sink.Close(); err != nil {
+		t.Fatal(err)
+	}
+	return dirFiles(t, dir), m
+}
+
+// Without the option the SVMlight export is byte for byte what it was before refining existed:
+// testdata/refine-off holds the files written then (same project, same clock).
+func TestExportWithoutRefinementIsUnchanged(t *testing.T) {
+	s, p := refineFixture(t)
+	files, _ := refineExport(t, s, p, ExportRequest{Policy: refinePolicy, Format: FormatSVMlight})
+	dir := filepath.Join("testdata", "refine-off")
+	if os.Getenv("PERTINENT_WRITE_GOLDEN") != "" {
+		for name, b := range files {
+			if err := os.WriteFile(filepath.Join(dir, name), b, 0o644); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	want := dirFiles(t, dir)
+	names := slices.Sorted(mapKeys(files))
+	if !slices.Equal(names, slices.Sorted(mapKeys(want))) {
+		t.Fatalf("files %v, want %v", names, slices.Sorted(mapKeys(want)))
+	}
+	for _, name := range names {
+		if !bytes.Equal(files[name], want[name]) {
+			t.Errorf("%s changed:\n%s\nwant:\n%s", name, files[name], want[name])
+		}
+	}
+}
