@@ -101,3 +101,51 @@ func TestExportWithoutRefinementIsUnchanged(t *testing.T) {
 		}
 	}
 }
+
+// With the option, query A's labels follow the fit within each grade and never cross a
+// grade: Ad, preferred to Aa by both assessors, stays below it because Aa is graded 4 and Ad
+// 3. Query B, with no order from its answers, keeps its grades. The manifest says so.
+func TestExportRefinesLabelsWithinGrades(t *testing.T) {
+	s, p := refineFixture(t)
+	files, m := refineExport(t, s, p, ExportRequest{Policy: refinePolicy, Format: FormatSVMlight, RefineByPreferences: true})
+	// Worked by hand from export.RefineRule: Ae 2; grade 3 takes 3 (Ac) and 4 (Ad); grade 4
+	// then starts at 5 (Aa) and Ab gets 6.
+	got := map[string]string{}
+	for _, line := range bytes.Split(bytes.TrimSpace(files["all.svm"]), []byte("\n")) {
+		f := bytes.Fields(line)
+		got[string(f[len(f)-1])] = string(f[0])
+	}
+	for doc, label := range map[string]string{"Aa": "5", "Ab": "6", "Ac": "3", "Ad": "4", "Ae": "2",
+		"Ba": "4", "Bb": "4", "Bc": "3", "Bd": "1", "Be": "0"} {
+		if got[doc] != label {
+			t.Errorf("%s: label %s, want %s", doc, got[doc], label)
+		}
+	}
+	r := m.Refinement
+	if r == nil || r.By != "bradley-terry" || r.Threshold != 3 || r.Queries != 1 || r.Grades != 2 || r.Documents != 4 ||
+		r.Skipped != 0 || r.MaxLabel != 6 || r.Rule != export.RefineRule {
+		t.Fatalf("manifest refinement %+v", r)
+	}
+	if !bytes.Contains(files["manifest.json"], []byte(`"label_refinement": {`)) || !bytes.Contains(files["manifest.json"], []byte(`"max_label": 6`)) {
+		t.Errorf("manifest.json does not state the refinement:\n%s", files["manifest.json"])
+	}
+	// The manifest's grades are still the final grades, and the group file and qid map are
+	// those of the plain export.
+	plain, _ := refineExport(t, s, p, ExportRequest{Policy: refinePolicy, Format: FormatSVMlight})
+	for _, name := range []string{"all.group", "qid-map.tsv"} {
+		if !bytes.Equal(files[name], plain[name]) {
+			t.Errorf("%s differs from the plain export", name)
+		}
+	}
+	if m.Grades["4"] != 4 || m.Grades["3"] != 3 {
+		t.Errorf("manifest grades %v", m.Grades)
+	}
+}
+
+func TestExportRefinementIsForSVMlightOnly(t *testing.T) {
+	s, p := refineFixture(t)
+	_, err := s.PlanExport(context.Background(), p.ID, ExportRequest{Policy: refinePolicy, Format: FormatQrels, RefineByPreferences: true})
+	if code := ErrorCode(err); code != CodeInvalid {
+		t.Fatalf("qrels with refinement: %v (code %v)", err, code)
+	}
+}
