@@ -3,14 +3,17 @@ package store
 import (
 	"bytes"
 	"context"
+	"encoding/json"
 	"errors"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"slices"
 	"testing"
 	"time"
 
 	"github.com/pertinent/pertinent/export"
+	"github.com/pertinent/pertinent/internal/reference"
 )
 
 // refineFixture is a preference project of two queries of five documents, two assessors
@@ -147,5 +150,43 @@ func TestExportRefinementIsForSVMlightOnly(t *testing.T) {
 	_, err := s.PlanExport(context.Background(), p.ID, ExportRequest{Policy: refinePolicy, Format: FormatQrels, RefineByPreferences: true})
 	if code := ErrorCode(err); code != CodeInvalid {
 		t.Fatalf("qrels with refinement: %v (code %v)", err, code)
+	}
+}
+
+// sklearnLabels prints the labels and query ids scikit-learn's SVMlight reader finds in a file.
+const sklearnLabels = `
+import json, sys
+from sklearn.datasets import load_svmlight_file
+X, y, qid = load_svmlight_file(sys.argv[1], query_id=True, zero_based=False, n_features=1)
+print(json.dumps({"y": [float(v) for v in y], "qid": [int(q) for q in qid]}))
+`
+
+// A reader ranking trainers use (scikit-learn's load_svmlight_file with query_id) takes the
+// refined file as it is: whole-number labels, in the file's order, with the queries grouped.
+func TestRefinedLabelsReadBySklearn(t *testing.T) {
+	refPython := reference.RequirePython(t, "sklearn")
+	s, p := refineFixture(t)
+	dir := t.TempDir()
+	files, _ := refineExport(t, s, p, ExportRequest{Policy: refinePolicy, Format: FormatSVMlight, RefineByPreferences: true})
+	path := filepath.Join(dir, "all.svm")
+	if err := os.WriteFile(path, files["all.svm"], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, err := exec.Command(refPython, "-c", sklearnLabels, path).Output()
+	if err != nil {
+		t.Fatalf("python: %v", err)
+	}
+	var got struct {
+		Y   []float64 `json:"y"`
+		QID []int     `json:"qid"`
+	}
+	if err := json.Unmarshal(out, &got); err != nil {
+		t.Fatal(err)
+	}
+	// Aa Ab Ac Ad Ae, then Ba … Be, as TestExportRefinesLabelsWithinGrades works them out.
+	wantY := []float64{5, 6, 3, 4, 2, 4, 4, 3, 1, 0}
+	wantQ := []int{1, 1, 1, 1, 1, 2, 2, 2, 2, 2}
+	if !slices.Equal(got.Y, wantY) || !slices.Equal(got.QID, wantQ) {
+		t.Errorf("sklearn read labels %v qids %v, want %v %v", got.Y, got.QID, wantY, wantQ)
 	}
 }
