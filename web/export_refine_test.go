@@ -58,6 +58,12 @@ func TestExportRefinedByPreferencesFromPageAndAPI(t *testing.T) {
 	if got := unzip(t, []byte(body)); got["all.svm"] != "4 qid:1 # q0-d0\n4 qid:1 # q0-d1\n4 qid:1 # q0-d2\n" || strings.Contains(got["manifest.json"], "label_refinement") {
 		t.Errorf("API download without refinement:\n%s", got["all.svm"])
 	}
+	// A project that asks for grades has nothing to refine by: its Export page does not offer it.
+	g := newTestApp(t)
+	if _, page := g.get(g.signIn(g.lead.Username), fmt.Sprintf("/projects/%d/export", g.project.ID)); !strings.Contains(page, `name="format"`) ||
+		strings.Contains(page, "refine_by_preferences") {
+		t.Errorf("a graded project's Export page offers the refinement")
+	}
 	if res, body := a.api("GET", fmt.Sprintf("/api/v1/projects/%d/export?format=qrels&refine_by_preferences=1", a.project.ID), token, nil); res.StatusCode != http.StatusBadRequest ||
 		!strings.Contains(body, "SVMlight") {
 		t.Errorf("qrels with refinement: %d %s", res.StatusCode, body)
