@@ -9,7 +9,9 @@ import (
 	"io"
 	"log/slog"
 	"net/http"
+	"net/http/cookiejar"
 	"net/http/httptest"
+	"net/url"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -135,7 +137,7 @@ func TestExportCommandRefinesByPreferences(t *testing.T) {
 }
 
 // `export --format preferences` writes the training pairs the API gives, line for line, and
-// the same pairs as the page's CSV.
+// the page's CSV byte for byte.
 func TestExportCommandPreferencePairsEqualTheAPI(t *testing.T) {
 	ctx := context.Background()
 	path, st, p := prefDemoDB(t)
@@ -191,6 +193,27 @@ func TestExportCommandPreferencePairsEqualTheAPI(t *testing.T) {
 	rows := strings.Split(strings.TrimSpace(string(csvBody)), "\n")
 	if rows[0] != "query,better,worse,count" || len(rows)-1 != lines {
 		t.Errorf("preference-pairs.csv: header %q, %d rows for %d lines", rows[0], len(rows)-1, lines)
+	}
+	// The lead's download on the Preferences page, signed in through the form.
+	const pw = "a long enough password for noor"
+	if err := st.SetPassword(ctx, lead, pw); err != nil {
+		t.Fatal(err)
+	}
+	jar, _ := cookiejar.New(nil)
+	c := &http.Client{Jar: jar}
+	res, err = c.PostForm(ts.URL+"/signin", url.Values{"username": {"noor"}, "password": {pw}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	res.Body.Close()
+	res, err = c.Get(ts.URL + "/projects/" + strconv.FormatInt(p.ID, 10) + "/preference-pairs.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	page, _ := io.ReadAll(res.Body)
+	res.Body.Close()
+	if res.StatusCode != http.StatusOK || !bytes.Equal(csvBody, page) {
+		t.Errorf("preference-pairs.csv differs from the page's download (%d):\n%s\npage:\n%s", res.StatusCode, csvBody, page)
 	}
 	if !strings.Contains(stdout.String(), strconv.Itoa(lines)+" training pairs") {
 		t.Errorf("stdout: %s", stdout.String())
