@@ -49,7 +49,9 @@ type Manifest struct {
 	// FromSources counts the final grades that came from an external source rather than
 	// from people (the policy's FillFrom), per source: never silently.
 	FromSources map[string]int `json:"from_sources,omitempty"`
-	Files       []ManifestFile `json:"files"`
+	// Refinement is set when the SVMlight labels were refined by preference judgments.
+	Refinement *LabelRefinement `json:"label_refinement,omitempty"`
+	Files      []ManifestFile   `json:"files"`
 }
 
 // NewManifest starts a manifest for a policy, stamped with the time given.

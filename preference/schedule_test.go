@@ -158,3 +158,66 @@ func TestMajority(t *testing.T) {
 		}
 	}
 }
+
+// sameBest is the count when every answer is "about the same": the earlier run always stays
+// first, so a merge takes one comparison per document of its left half, B(n) = B(⌊n/2⌋) +
+// B(⌈n/2⌉) + ⌊n/2⌋, the fewest any merge of these halves can take.
+func sameBest(n int) int {
+	if n <= 1 {
+		return 0
+	}
+	return sameBest(n/2) + sameBest(n-n/2) + n/2
+}
+
+// The counts DEVELOPERS.md quotes, over five shuffles each: noisy assessors (strengths spread
+// over ±3, three per comparison, majority), assessors who never err, and assessors who always
+// answer "about the same". Every count stays at or below merge sort's worst case, which is
+// below n·log2 n; the "about the same" count is exactly sameBest.
+func TestScheduleComparisonCountMeasured(t *testing.T) {
+	const shuffles = 5
+	for _, n := range []int{10, 50, 200} {
+		docs := docNames(n)
+		lg := math.Ceil(math.Log2(float64(n)))
+		worst := n*int(lg) - int(math.Pow(2, lg)) + 1
+		nlog := float64(n) * math.Log2(float64(n))
+		for _, kind := range []string{"noisy", "perfect"} {
+			lo, hi, sum := math.MaxInt, 0, 0
+			for seed := uint64(1); seed <= shuffles; seed++ {
+				truth := shuffled(docs, seed)
+				theta := spread(n, 3)
+				k := 3
+				if kind == "perfect" {
+					for i := range theta {
+						theta[i] = 1000 * float64(i) // σ of the gaps is 1 to machine precision
+					}
+					k = 1
+				}
+				_, p := runSchedule(t, "q", docs, newOracle(truth, theta, seed), k)
+				if p.Comparisons > worst {
+					t.Errorf("n=%d %s seed %d: %d comparisons, above the worst case %d", n, kind, seed, p.Comparisons, worst)
+				}
+				lo, hi, sum = min(lo, p.Comparisons), max(hi, p.Comparisons), sum+p.Comparisons
+			}
+			mean := float64(sum) / shuffles
+			t.Logf("n=%d %s: comparisons min %d mean %.1f max %d; n·log2 n %.1f (mean/n·log2 n %.3f); worst case %d; all pairs %d",
+				n, kind, lo, mean, hi, nlog, mean/nlog, worst, n*(n-1)/2)
+		}
+		var js []Judgment
+		for {
+			p, err := Schedule("q", docs, js, 1)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if p.Done {
+				t.Logf("n=%d about the same: %d comparisons (%.3f of n·log2 n)", n, p.Comparisons, float64(p.Comparisons)/nlog)
+				if p.Comparisons != sameBest(n) {
+					t.Errorf("n=%d: %d comparisons when all are about the same, want %d", n, p.Comparisons, sameBest(n))
+				}
+				break
+			}
+			for _, c := range p.Next {
+				js = append(js, Judgment{Query: "q", Left: c.Left, Right: c.Right, Outcome: Same, Assessor: "x"})
+			}
+		}
+	}
+}

@@ -29,6 +29,9 @@ type ExportRequest struct {
 	// Split is how queries are divided: Method "none" (or empty), "ratio" with Ratios, or
 	// "k-fold" with Folds; Seed drives the shuffle.
 	Split export.SplitSpec
+	// RefineByPreferences refines SVMlight labels within each grade by the Bradley–Terry
+	// order of the project's preference judgments (export.RefineRule).
+	RefineByPreferences bool
 }
 
 // ExportPlan is a validated export, ready to write: the Dawid-Skene fit, the split and the
@@ -44,6 +47,10 @@ type ExportPlan struct {
 	parts   []string          // split names in file order; "all" when not split
 	agree   map[string]float64
 	pairs   int
+	// labels are the refined labels of the queries with a refined grade, by query and
+	// document; refine is the manifest's account of them (nil without the option).
+	labels map[[2]string]int
+	refine *export.LabelRefinement
 }
 
 // PlanExport checks a request against a project and prepares it.
@@ -75,6 +82,14 @@ func (s *Store) PlanExport(ctx context.Context, projectID int64, req ExportReque
 	}
 	if req.Policy.Consensus == export.ConsensusDawidSkene {
 		if plan.ds, err = s.DawidSkeneGrades(ctx, projectID); err != nil {
+			return nil, err
+		}
+	}
+	if req.RefineByPreferences {
+		if req.Format != FormatSVMlight {
+			return nil, errorf(CodeInvalid, "refining labels by preferences is for SVMlight exports only")
+		}
+		if err := plan.planRefinement(ctx); err != nil {
 			return nil, err
 		}
 	}
@@ -123,6 +138,61 @@ func (pl *ExportPlan) planSplit(ctx context.Context) error {
 	}
 	if err != nil {
 		return err
+	}
+	return nil
+}
+
+// planRefinement reads the fitted Bradley–Terry strengths of every query's compared
+// documents and the final grades the export will write for those queries (one pass over the
+// pairs without features), and forms the refined labels with export.RefineQuery.
+func (pl *ExportPlan) planRefinement(ctx context.Context) error {
+	rep, err := pl.s.PreferenceFigures(ctx, pl.project.ID)
+	if err != nil {
+		return err
+	}
+	strengths := map[string]map[string]float64{}
+	for _, q := range rep.Queries {
+		for _, sc := range q.Fit.Scores {
+			if sc.Wins+sc.Losses+sc.Ties == 0 {
+				continue // in the fit with the prior alone: never compared
+			}
+			if strengths[q.Query] == nil {
+				strengths[q.Query] = map[string]float64{}
+			}
+			strengths[q.Query][sc.Document] = sc.Score
+		}
+	}
+	grades := map[string]map[string]int{}
+	scan := ExportScan{DawidSkene: pl.ds, FillFrom: pl.req.Policy.FillFrom}
+	err = pl.s.ExportPairs(ctx, pl.project.ID, scan, func(p *ExportPair) error {
+		if strengths[p.QueryID] == nil {
+			return nil
+		}
+		if dec := pl.req.Policy.Apply(p.Labels); dec.Include {
+			if grades[p.QueryID] == nil {
+				grades[p.QueryID] = map[string]int{}
+			}
+			grades[p.QueryID][p.DocID] = dec.Grade
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	pl.labels = map[[2]string]int{}
+	pl.refine = &export.LabelRefinement{By: "bradley-terry", Threshold: rep.Threshold, Rule: export.RefineRule}
+	for q, gs := range grades {
+		r := export.RefineQuery(gs, strengths[q])
+		pl.refine.Grades += r.Grades
+		pl.refine.Documents += r.Documents
+		pl.refine.Skipped += r.Skipped
+		if r.Grades == 0 {
+			continue
+		}
+		pl.refine.Queries++
+		for d, l := range r.Labels {
+			pl.labels[[2]string{q, d}] = l
+		}
 	}
 	return nil
 }
@@ -192,6 +262,10 @@ func (pl *ExportPlan) Write(ctx context.Context, sink export.Sink, now time.Time
 	m := export.NewManifest(pl.req.Policy, now)
 	m.Project = pl.project.Name
 	m.Agreement = pl.agree
+	if pl.refine != nil {
+		r := *pl.refine
+		m.Refinement = &r
+	}
 	if pl.req.Split.Method != "none" {
 		split := pl.req.Split
 		m.Split = &split
@@ -254,7 +328,14 @@ func (pl *ExportPlan) Write(ctx context.Context, sink export.Sink, now time.Time
 				}
 				row.Features = feats
 			}
-			if err := f.data.Write(row); err != nil {
+			out := row
+			if m.Refinement != nil {
+				if l, ok := pl.labels[[2]string{p.QueryID, p.DocID}]; ok {
+					out.Grade = l
+				}
+				m.Refinement.MaxLabel = max(m.Refinement.MaxLabel, out.Grade)
+			}
+			if err := f.data.Write(out); err != nil {
 				return err
 			}
 			written[p.QueryID] = true

@@ -7,8 +7,11 @@ import (
 	"testing"
 	"time"
 
+	"github.com/chromedp/cdproto/emulation"
 	"github.com/chromedp/chromedp"
 	"github.com/chromedp/chromedp/kb"
+
+	"github.com/pertinent/pertinent/store"
 )
 
 const comparisonValueJS = `(document.querySelector('#pair input[name=comparison]') || {value: ""}).value`
@@ -130,5 +133,86 @@ func TestBrowserKeyboardComparing(t *testing.T) {
 	want := []string{answered[0] + ":left", answered[1] + ":right flagged note=" + note, answered[2] + ":same withdrawn", answered[2] + ":broken"}
 	if strings.Join(got, "|") != strings.Join(want, "|") {
 		t.Errorf("stored answers\n%v\nwant\n%v", got, want)
+	}
+}
+
+// With JavaScript off the comparing screen is plain forms and 303 redirects: a click on an
+// answer stores it with the placement shown and brings the next comparison, Undo brings the
+// answered one back placed as before, and once the first round of the sort is answered the
+// comparison it opened appears.
+func TestBrowserComparingWithoutJavaScript(t *testing.T) {
+	ctx := withDeadline(t, newBrowser(t), 2*time.Minute)
+	// Four documents, one assessor per comparison: the sort's first round is d0–d1 and d2–d3,
+	// the second round merges their winners and losers.
+	a := preferenceApp(t, withPairs(1, 4), withAssessors(1), withPerPair(1))
+	must := fatalIf(t)
+	if _, err := chromedp.Call(ctx, emulation.SetScriptExecutionDisabled, emulation.SetScriptExecutionDisabledParams{Value: true}); err != nil {
+		t.Fatal(err)
+	}
+	must(browserSignIn(ctx, a.server.URL, "a000", a.comparePath()))
+	shown := func() (comparison, left string) {
+		t.Helper()
+		c, err := chromedp.Run(ctx, chromedp.AttributeValue(chromedp.CSS(`#pair input[name="comparison"]`), "value"))
+		must(err)
+		l, err := chromedp.Run(ctx, chromedp.AttributeValue(chromedp.CSS(`#pair input[name="left"]`), "value"))
+		must(err)
+		return c.Value, l.Value
+	}
+	status := func() string {
+		t.Helper()
+		s, err := chromedp.Run(ctx, chromedp.Text(chromedp.ID("status")))
+		must(err)
+		return s
+	}
+	answerWith := func(outcome, current string) {
+		t.Helper()
+		must(chromedp.Do(ctx,
+			chromedp.Click(chromedp.CSS(`#pair button[name="outcome"][value="`+outcome+`"]`)),
+			chromedp.WaitReady(chromedp.CSS(`#pair input[name="comparison"]:not([value="`+current+`"])`)),
+		))
+	}
+	history := func() []store.PreferenceAnswer {
+		t.Helper()
+		h, err := a.store.PreferenceAnswersByAssessor(context.Background(), a.project.ID, a.assessors[0].ID)
+		must(err)
+		return h
+	}
+
+	first, firstLeft := shown()
+	answerWith("left", first)
+	second, _ := shown()
+	if got := status(); !strings.Contains(got, "Saved: left is better.") || second == first {
+		t.Fatalf("after a plain form post: status %q, comparison %s -> %s", got, first, second)
+	}
+	if h := history(); len(h) != 1 || h[0].Outcome != "left" || fmt.Sprint(h[0].LeftDoc) != firstLeft || h[0].Withdrawn {
+		t.Fatalf("stored answers %+v", h)
+	}
+
+	must(chromedp.Do(ctx,
+		chromedp.Click(chromedp.ID("undo")),
+		chromedp.WaitReady(chromedp.CSS(`#pair input[name="comparison"][value="`+first+`"]`)),
+	))
+	back, backLeft := shown()
+	if got := status(); back != first || backLeft != firstLeft || !strings.Contains(got, "Undone") {
+		t.Fatalf("after Undo: comparison %s with %s on the left and status %q, want %s with %s", back, backLeft, got, first, firstLeft)
+	}
+	if h := history(); len(h) != 1 || !h[0].Withdrawn {
+		t.Fatalf("Undo without JavaScript did not withdraw the answer: %+v", h)
+	}
+
+	// Answer it again, then the other comparison of the first round: each brings the next.
+	answerWith("right", first)
+	next, _ := shown()
+	if next != second {
+		t.Fatalf("after answering %s again the page shows %s, want the waiting %s", first, next, second)
+	}
+	answerWith("left", second)
+	third, _ := shown()
+	if third == first || third == second || !strings.Contains(status(), "Saved: left is better.") {
+		t.Fatalf("after the first round the page shows comparison %s (status %q), want one the round opened", third, status())
+	}
+	h := history()
+	if len(h) != 3 || h[1].Outcome != "right" || h[1].Withdrawn || h[2].Outcome != "left" {
+		t.Errorf("stored answers %+v", h)
 	}
 }

@@ -71,12 +71,14 @@ type exportForm struct {
 	Ratios string
 	Folds  string
 	Seed   string
+	// Refine orders SVMlight labels within each grade by the preference judgments.
+	Refine bool
 }
 
 func readExportForm(v url.Values) exportForm {
 	f := exportForm{policyForm: readPolicyForm(v), Format: cmp.Or(v.Get("format"), string(store.FormatSVMlight)), Split: v.Get("split"),
 		Ratios: cmp.Or(strings.TrimSpace(v.Get("ratios")), "0.8,0.1,0.1"), Folds: strings.TrimSpace(v.Get("folds")),
-		Seed: cmp.Or(strings.TrimSpace(v.Get("seed")), "1")}
+		Seed: cmp.Or(strings.TrimSpace(v.Get("seed")), "1"), Refine: checked(v, "refine_by_preferences")}
 	// split=0.8,0.1,0.1 is short for split=ratio&ratios=0.8,0.1,0.1; folds=K alone asks for folds.
 	if strings.Contains(f.Split, ",") {
 		f.Split, f.Ratios = "ratio", f.Split
@@ -98,6 +100,7 @@ func (f exportForm) request() (store.ExportRequest, error) {
 		return req, err
 	}
 	req.Format = store.ExportFormat(f.Format)
+	req.RefineByPreferences = f.Refine
 	seed, err := strconv.ParseUint(f.Seed, 10, 64)
 	if err != nil {
 		return req, &pertinent.Error{Code: pertinent.Invalid, Message: "the seed must be a whole number of at least 0"}

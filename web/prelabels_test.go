@@ -78,6 +78,13 @@ func TestPrelabelsNeverReachAssessors(t *testing.T) {
 	if err != nil || strings.Contains(frag, "model-x") {
 		t.Fatalf("the next-pair fragment: %v\n%s", err, frag)
 	}
+	// The comparing screen of a project that asks for grades sends the assessor to grading,
+	// naming no source on the way.
+	if res, body := a.get(c, p+"/compare"); res.StatusCode != http.StatusSeeOther || !strings.HasSuffix(res.Header.Get("Location"), "/judge") ||
+		strings.Contains(body, "model-x") {
+		t.Fatalf("GET %s/compare in a graded project: %d to %q", p, res.StatusCode, res.Header.Get("Location"))
+	}
+	opened = append(opened, p+"/compare")
 	mine, feedback := look(p+"/mine"), look(p+"/feedback")
 	// A graded project's comparing screen sends the assessor to judging.
 	if res, body := a.get(c, p+"/compare"); res.StatusCode != http.StatusSeeOther || strings.Contains(body, "model-x") {

@@ -55,6 +55,10 @@ func seedDemo(ctx context.Context, st *store.Store) ([]demoAccount, error) {
 	} else if err != nil {
 		return nil, err
 	}
+	// A demo file from before the preference project gets it on its next start.
+	if err := addDemoPreferences(ctx, st); err != nil {
+		return nil, fmt.Errorf("demo preference project: %w", err)
+	}
 	var out []demoAccount
 	for _, p := range demoPeople {
 		u, err := st.UserByUsername(ctx, p.username)
