@@ -26,14 +26,21 @@ import (
 
 // Imports run in the background so a long one can show its progress: the upload is
 // streamed to temporary files (never held in memory), the import reads them through a
-// byte counter, and the page polls a small status fragment. Jobs belong to their Server
-// and live in this process only (ids are random, each job is shown only within its own
-// project); a finished one is kept for an hour so its report can be read again. Stopping
-// the server drains them (Server.Shutdown).
+// byte counter, and the page polls a small status fragment. A job runs in the Server that
+// received the upload, but lives in the database (store.ImportJob): its row is stamped about
+// once a second with the bytes read and gets the outcome at the end, so every instance
+// serving the database shows any job, within its own project only (ids are random). A row
+// no longer stamped reads as interrupted; a job is kept an hour after its last stamp. The
+// running Server also holds its own jobs in memory, to drain them when it stops
+// (Server.Shutdown) and to show their live byte count.
 
 // maxUpload bounds one import's files together.
 const maxUpload = 4 << 30
 
+// stampEvery is how often a running job stamps its row: well inside store.ImportJobStale.
+const stampEvery = time.Second
+
+// importJob is a job running in this Server.
 type importJob struct {
 	id        string
 	projectID int64
@@ -46,13 +53,12 @@ type importJob struct {
 	mu       sync.Mutex
 	done     bool
 	finished time.Time
-	report   store.ImportReport
-	problems *ingest.Problems
-	failure  string
+	outcome  store.ImportOutcome
 }
 
-// importJobs are a Server's imports: running jobs, and finished ones kept for their report.
-// The uploads and jobs it holds run on ctx, which drain cancels when the server stops.
+// importJobs are the jobs running in this Server, and finished ones whose outcome could not
+// be recorded in the database (kept here for their report instead). The uploads and jobs it
+// holds run on ctx, which drain cancels when the server stops.
 type importJobs struct {
 	mu     sync.Mutex
 	jobs   map[string]*importJob
@@ -85,13 +91,20 @@ func (j *importJobs) add(job *importJob) {
 	defer j.mu.Unlock()
 	for id, old := range j.jobs {
 		old.mu.Lock()
-		stale := old.done && time.Since(old.finished) > time.Hour
+		stale := old.done && time.Since(old.finished) > store.ImportJobKept
 		old.mu.Unlock()
 		if stale {
 			delete(j.jobs, id)
 		}
 	}
 	j.jobs[job.id] = job
+}
+
+// remove forgets a job once the database holds its outcome.
+func (j *importJobs) remove(id string) {
+	j.mu.Lock()
+	defer j.mu.Unlock()
+	delete(j.jobs, id)
 }
 
 func (j *importJobs) get(id string, projectID int64) *importJob {
@@ -190,20 +203,38 @@ type importJobView struct {
 	Failure  string
 }
 
-func (job *importJob) view() *importJobView {
+// jobView is what the status shows of a job as the database holds it.
+func jobView(j store.ImportJob, now time.Time) *importJobView {
+	v := &importJobView{ID: j.ID, Kind: j.Kind, Files: j.Files, Done: j.Done, Read: j.Read, Total: j.Total,
+		Report: j.Outcome.Report, Problems: j.Outcome.Problems, Failure: j.Outcome.Failure}
+	end := now
+	if j.Done {
+		end = j.Finished
+	}
+	v.finish(j.Started, end)
+	return v
+}
+
+// view is what the status shows of a job running in this Server: it knows the live byte
+// count, and that the job runs even while its stamps cannot reach the database.
+func (job *importJob) view(now time.Time) *importJobView {
 	job.mu.Lock()
 	defer job.mu.Unlock()
 	v := &importJobView{ID: job.id, Kind: job.kind, Files: job.files, Done: job.done, Read: job.read.Load(), Total: job.total,
-		Report: job.report, Problems: job.problems, Failure: job.failure}
-	if v.Total > 0 {
-		v.Percent = int(min(v.Read, v.Total) * 100 / v.Total)
-	}
-	end := time.Now()
+		Report: job.outcome.Report, Problems: job.outcome.Problems, Failure: job.outcome.Failure}
+	end := now
 	if job.done {
 		end = job.finished
 	}
-	v.Elapsed = end.Sub(job.started).Round(time.Second).String()
+	v.finish(job.started, end)
 	return v
+}
+
+func (v *importJobView) finish(started, end time.Time) {
+	if v.Total > 0 {
+		v.Percent = int(min(v.Read, v.Total) * 100 / v.Total)
+	}
+	v.Elapsed = max(0, end.Sub(started)).Round(time.Second).String()
 }
 
 func (s *Server) importPage(w http.ResponseWriter, r *http.Request) {
@@ -234,15 +265,21 @@ func (s *Server) importSubmit(w http.ResponseWriter, r *http.Request) {
 	}
 	spec := store.ImportSpec{Kind: store.ImportKind(form.Kind), Format: form.Format, DryRun: form.DryRun,
 		Depth: form.Depth, Source: form.Source, SourceKind: store.SourceKind(form.SourceKind), SourceAbout: form.about, Gold: form.Gold}
-	job := &importJob{id: newJobID(), projectID: p.ID, kind: spec.Kind, started: time.Now()}
+	job := &importJob{id: newJobID(), projectID: p.ID, kind: spec.Kind, started: time.Now(), files: []string{}}
 	for _, f := range tmp {
 		job.files = append(job.files, f.name)
 		job.total += f.size
 	}
+	if err := s.store.CreateImportJob(r.Context(), store.ImportJob{ID: job.id, ProjectID: p.ID, Kind: job.kind,
+		Files: job.files, Total: job.total}); err != nil {
+		removeAll(tmp)
+		s.storeError(w, r, err)
+		return
+	}
 	s.jobs.add(job)
 	if !s.jobs.hold() { // the server began to stop during the upload
 		removeAll(tmp)
-		job.finish(store.ImportReport{}, errInterrupted)
+		s.finishJob(r.Context(), job, store.ImportReport{}, errInterrupted)
 		s.fail(w, r, http.StatusServiceUnavailable, "The server is stopping; send the import again once it is back.")
 		return
 	}
@@ -371,6 +408,12 @@ var errInterrupted = errors.New("interrupted by a stop of the server")
 
 func (s *Server) runImportJob(ctx context.Context, job *importJob, by int64, spec store.ImportSpec, tmp []upload) {
 	defer removeAll(tmp)
+	stop := make(chan struct{})
+	stamped := make(chan struct{})
+	go func() {
+		defer close(stamped)
+		s.stampJob(ctx, job, stop)
+	}()
 	var files []store.ImportFile
 	var rep store.ImportReport
 	var err error
@@ -386,6 +429,8 @@ func (s *Server) runImportJob(ctx context.Context, job *importJob, by int64, spe
 	if err == nil {
 		rep, err = s.store.Import(ctx, job.projectID, by, spec, files)
 	}
+	close(stop)
+	<-stamped
 	var ps *ingest.Problems
 	var se *pertinent.Error
 	switch {
@@ -393,28 +438,60 @@ func (s *Server) runImportJob(ctx context.Context, job *importJob, by int64, spe
 	case ctx.Err() != nil:
 		err = errInterrupted
 	default:
-		s.log.Error("import failed", "project", job.projectID, "err", err)
+		s.log.ErrorContext(ctx, "import failed", "project", job.projectID, "err", err)
 	}
-	job.finish(rep, err)
+	s.finishJob(ctx, job, rep, err)
 }
 
-// finish records a job's outcome for its status page.
-func (job *importJob) finish(rep store.ImportReport, err error) {
-	job.mu.Lock()
-	defer job.mu.Unlock()
-	job.done, job.finished, job.report = true, time.Now(), rep
+// stampJob stamps the job's row every stampEvery until stop closes: the bytes read so far,
+// and that this instance still runs it. A stamp that cannot be written within the interval
+// is given up (a SQLite database takes no other write while the import's transaction is
+// open); the next one tries again.
+func (s *Server) stampJob(ctx context.Context, job *importJob, stop <-chan struct{}) {
+	tick := time.NewTicker(stampEvery)
+	defer tick.Stop()
+	for {
+		select {
+		case <-stop:
+			return
+		case <-ctx.Done():
+			return
+		case <-tick.C:
+		}
+		sctx, cancel := context.WithTimeout(ctx, stampEvery)
+		err := s.store.StampImportJob(sctx, job.id, job.read.Load())
+		cancel()
+		if err != nil {
+			s.log.DebugContext(ctx, "import job not stamped", "job", job.id, "err", err)
+		}
+	}
+}
+
+// finishJob records a job's outcome in the database for every instance's status page, and
+// in the job itself for this one's; once the database has it, the job leaves this Server.
+func (s *Server) finishJob(ctx context.Context, job *importJob, rep store.ImportReport, err error) {
+	out := store.ImportOutcome{Report: rep}
 	var ps *ingest.Problems
 	var se *pertinent.Error
 	switch {
 	case errors.As(err, &ps):
-		job.problems = ps
+		out.Problems = ps
 	case errors.As(err, &se):
-		job.failure = se.Message
+		out.Failure = se.Message
 	case errors.Is(err, errInterrupted):
-		job.failure = "The import was interrupted because the server stopped; nothing was changed."
+		out.Failure = "The import was interrupted because the server stopped; nothing was changed."
 	case err != nil:
-		job.failure = "The import failed on our side; nothing was changed."
+		out.Failure = "The import failed on our side; nothing was changed."
 	}
+	job.mu.Lock()
+	job.done, job.finished, job.outcome = true, time.Now(), out
+	job.mu.Unlock()
+	// Recorded even when the job was cancelled: the stop is what its outcome reports.
+	if err := s.store.FinishImportJob(context.WithoutCancel(ctx), job.id, job.read.Load(), out); err != nil {
+		s.log.ErrorContext(ctx, "import outcome not recorded; only this instance can show it", "job", job.id, "err", err)
+		return
+	}
+	s.jobs.remove(job.id)
 }
 
 func newJobID() string {
@@ -423,18 +500,32 @@ func newJobID() string {
 	return hex.EncodeToString(b)
 }
 
-// importStatus shows a job: the whole page, or with htmx the status fragment it polls.
+// importStatus shows a job: the whole page, or with htmx the status fragment it polls. The
+// database answers for every job, whichever instance runs it. A job running in this Server
+// answers from memory instead: it has the live byte count, and knows that it runs, which a
+// SQLite database cannot be told while the import's transaction holds its writes.
 func (s *Server) importStatus(w http.ResponseWriter, r *http.Request) {
 	p := currentProject(r)
-	job := s.jobs.get(chi.URLParam(r, "job"), p.ID)
-	if job == nil {
-		s.fail(w, r, http.StatusNotFound, "There is no such import (imports are kept for an hour after they finish).")
-		return
+	id := chi.URLParam(r, "job")
+	var v *importJobView
+	if job := s.jobs.get(id, p.ID); job != nil {
+		v = job.view(time.Now())
+	} else {
+		j, err := s.store.ImportJob(r.Context(), id, p.ID)
+		if errors.Is(err, store.ErrNotFound) {
+			s.fail(w, r, http.StatusNotFound, "There is no such import (imports are kept for an hour after they finish).")
+			return
+		}
+		if err != nil {
+			s.storeError(w, r, err)
+			return
+		}
+		v = jobView(j, time.Now())
 	}
-	v := importView{Kinds: store.ImportKinds, Job: job.view(), Defaults: importForm{Kind: string(job.kind), Depth: store.DefaultPoolDepth}}
+	page := importView{Kinds: store.ImportKinds, Job: v, Defaults: importForm{Kind: string(v.Kind), Depth: store.DefaultPoolDepth}}
 	block := ""
 	if r.Header.Get("HX-Request") == "true" {
 		block = "status"
 	}
-	s.render(w, r, http.StatusOK, "import", block, s.newView(r, "Import: "+p.Name, v))
+	s.render(w, r, http.StatusOK, "import", block, s.newView(r, "Import: "+p.Name, page))
 }

@@ -95,7 +95,7 @@ func TestShutdownInterruptsAndRollsBackAnImport(t *testing.T) {
 	}
 	// Stop once a quarter of the file has been read, so rows have been written.
 	for job.read.Load() < job.total/4 {
-		if job.view().Done {
+		if job.view(time.Now()).Done {
 			t.Fatal("the import finished before a quarter of it was read")
 		}
 		time.Sleep(time.Millisecond)
@@ -103,11 +103,25 @@ func TestShutdownInterruptsAndRollsBackAnImport(t *testing.T) {
 	if err := srv.Shutdown(context.Background()); err != nil {
 		t.Fatal(err)
 	}
-	v := job.view()
+	v := job.view(time.Now())
 	if !v.Done || !strings.Contains(v.Failure, "interrupted") {
 		t.Errorf("after the stop the job is done=%v failure=%q, want an interrupted job", v.Done, v.Failure)
 	}
-	if after := tableDump(t, a.store.Path()); !reflect.DeepEqual(before, after) {
+	// The database says so too, for every instance, and the job has left the stopped server.
+	if srv.jobs.get(job.id, a.project.ID) != nil {
+		t.Error("the interrupted job is still held by the stopped server")
+	}
+	if j, err := a.store.ImportJob(context.Background(), job.id, a.project.ID); err != nil || !j.Done ||
+		j.Outcome.Failure != "The import was interrupted because the server stopped; nothing was changed." || j.Outcome.Report.Changed() {
+		t.Errorf("after the stop the database holds %+v (%v), want an interrupted job", j, err)
+	}
+	after := tableDump(t, a.store.Path())
+	// The job's own row is the one change: it records the interruption.
+	if n := len(after["import_jobs"]); n != 1 {
+		t.Errorf("%d import_jobs rows after the stop, want the interrupted job's", n)
+	}
+	delete(after, "import_jobs")
+	if !reflect.DeepEqual(before, after) {
 		for name := range after {
 			if len(after[name]) != len(before[name]) {
 				t.Errorf("table %s: %d rows before, %d after", name, len(before[name]), len(after[name]))

@@ -55,7 +55,7 @@ type Server struct {
 	cookies  *sessions.CookieStore
 	throttle *throttle
 	router   chi.Router
-	jobs     *importJobs // imports: uploads in progress, running and finished jobs
+	jobs     *importJobs // imports: uploads in progress and the jobs running here (import.go)
 
 	guidelines guidelinesCache // rendered guidelines by revision (markdown.go)
 	controls   controlsCache   // the judging form's buttons by scale (judge.go)
