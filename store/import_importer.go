@@ -83,6 +83,11 @@ func (s *Store) newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64
 	if err := tx.QueryRowContext(ctx, projectIsFresh, projectID).Scan(&im.fresh); err != nil {
 		return nil, err
 	}
+	// The fresh path gives ids itself, past the highest of all projects; on PostgreSQL
+	// another project's import may hold ids beyond it uncommitted, and the identity sequence
+	// would not know of the given ones. There the bulk path, which lets the sequence number,
+	// takes every import.
+	im.fresh = im.fresh && !s.pg
 	if err := im.beginProgress(); err != nil {
 		return nil, err
 	}

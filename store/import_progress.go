@@ -20,7 +20,7 @@ const (
 			top_priority = excluded.top_priority`
 	bumpImportedVersion = `INSERT INTO project_versions(project_id, version)
 		SELECT ?2, 1 WHERE EXISTS (SELECT 1 FROM pairs WHERE id > ?1 AND project_id = ?2)
-		ON CONFLICT (project_id) DO UPDATE SET version = version + 1`
+		ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1`
 )
 
 // beginProgress makes the pair triggers stand aside for this import's project.

@@ -250,7 +250,7 @@ func (s *Store) ProjectProgress(ctx context.Context, projectID int64) (Progress,
 			COALESCE(SUM(x.judged), 0),
 			COUNT(x.id) * pr.judgments_per_pair
 		FROM projects pr LEFT JOIN pairs x ON x.project_id = pr.id AND x.gold_grade IS NULL
-		WHERE pr.id = ?`, projectID).Scan(&p.Pairs, &p.Done, &p.InProgress, &p.Untouched, &p.Judgments, &p.Needed)
+		WHERE pr.id = ? GROUP BY pr.judgments_per_pair`, projectID).Scan(&p.Pairs, &p.Done, &p.InProgress, &p.Untouched, &p.Judgments, &p.Needed)
 	return p, err
 }
 
