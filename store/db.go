@@ -42,7 +42,7 @@ func Open(ctx context.Context, path string) (*Store, error) {
 	if path == "" {
 		return nil, errors.New("store: empty database path")
 	}
-	if isPostgres(path) {
+	if IsPostgres(path) {
 		return openPostgresStore(ctx, path)
 	}
 	w, err := sql.Open("sqlite", dsn(path, false))

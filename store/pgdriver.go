@@ -4,6 +4,7 @@ import (
 	"context"
 	"database/sql"
 	"database/sql/driver"
+	"net/url"
 	"strconv"
 	"strings"
 	"sync"
@@ -29,8 +30,22 @@ func openPostgres(dsn string) (*sql.DB, error) {
 	return sql.OpenDB(pgConnector{stdlib.GetConnector(*cfg)}), nil
 }
 
-// isPostgres reports whether path names a PostgreSQL database rather than a SQLite file.
-func isPostgres(path string) bool {
+// DatabaseName is path as it may be shown or logged: a connection string without its
+// password, a file path as it is.
+func DatabaseName(path string) string {
+	if !IsPostgres(path) {
+		return path
+	}
+	u, err := url.Parse(path)
+	if err != nil {
+		return "PostgreSQL database"
+	}
+	return u.Redacted()
+}
+
+// IsPostgres reports whether path names a PostgreSQL database (a postgres:// or
+// postgresql:// connection string) rather than a SQLite file.
+func IsPostgres(path string) bool {
 	return strings.HasPrefix(path, "postgres://") || strings.HasPrefix(path, "postgresql://")
 }
 
