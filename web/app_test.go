@@ -10,7 +10,6 @@ import (
 	"net/http/cookiejar"
 	"net/http/httptest"
 	"net/url"
-	"path/filepath"
 	"regexp"
 	"strconv"
 	"strings"
@@ -83,7 +82,7 @@ func newTestApp(tb testing.TB, opts ...fixtureOption) *testApp {
 	}
 	store.SetPasswordCost(bcrypt.MinCost)
 	ctx := context.Background()
-	st, err := store.Open(ctx, filepath.Join(tb.TempDir(), "test.db"))
+	st, err := store.Open(ctx, testDatabase(tb))
 	if err != nil {
 		tb.Fatal(err)
 	}
