@@ -141,3 +141,34 @@ func TestTwoInstancesShareOneProjectOnPostgres(t *testing.T) {
 		t.Errorf("instance a's desk after b added a pair: %+v (%v), want one untouched pair", d.Progress, err)
 	}
 }
+
+// Instances starting together on a new PostgreSQL database agree on the session keys, so a
+// cookie one of them signed is good at every other.
+func TestInstancesStartingTogetherShareSessionKeys(t *testing.T) {
+	dsn := pgtest.New(t)
+	const n = 4
+	stores := make([]*Store, n)
+	for i := range stores {
+		stores[i] = openAt(t, dsn)
+	}
+	keys := make([][]byte, n)
+	errs := make([]error, n)
+	var wg sync.WaitGroup
+	for i, s := range stores {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			h, b, err := s.SessionKeys(context.Background())
+			keys[i], errs[i] = append(h, b...), err
+		}()
+	}
+	wg.Wait()
+	for i := range stores {
+		if errs[i] != nil {
+			t.Fatalf("instance %d: %v", i, errs[i])
+		}
+		if string(keys[i]) != string(keys[0]) || len(keys[i]) != 96 {
+			t.Errorf("instance %d has other session keys than instance 0", i)
+		}
+	}
+}
