@@ -71,7 +71,11 @@ func (s *Store) SessionKeys(ctx context.Context) (hashKey, blockKey []byte, err 
 		if errors.Is(err, sql.ErrNoRows) {
 			v = make([]byte, 64+32)
 			rand.Read(v)
-			_, err = tx.ExecContext(ctx, `INSERT INTO settings(key, value) VALUES ('session_keys', ?)`, v)
+			// Two instances starting together on one PostgreSQL database both get here: the
+			// second's insert waits for the first's and does nothing, and both read its keys.
+			if _, err = tx.ExecContext(ctx, `INSERT INTO settings(key, value) VALUES ('session_keys', ?) ON CONFLICT (key) DO NOTHING`, v); err == nil {
+				err = tx.QueryRowContext(ctx, `SELECT value FROM settings WHERE key = 'session_keys'`).Scan(&v)
+			}
 		}
 		if err != nil {
 			return err

@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"database/sql"
+	"math"
 	"strconv"
 	"time"
 )
@@ -35,7 +36,8 @@ type AuditFilter struct {
 // EachAuditEvent calls fn for every event matching f, newest first, reading row by row so a
 // long trail can be streamed without being held in memory.
 func (s *Store) EachAuditEvent(ctx context.Context, f AuditFilter, fn func(AuditEvent) error) error {
-	from, until, limit := "", "", -1 // SQLite reads LIMIT -1 as no limit
+	// No limit is the largest one: SQLite would take -1 too, PostgreSQL refuses a negative LIMIT.
+	from, until, limit := "", "", math.MaxInt64
 	if !f.From.IsZero() {
 		from = timeText(f.From)
 	}

@@ -9,12 +9,22 @@ import (
 	"path/filepath"
 )
 
+// ErrBackupPostgres is Backup's answer on PostgreSQL.
+var ErrBackupPostgres = errorf(CodeInvalid, "backup copies a SQLite file; this database is PostgreSQL: "+
+	"use pg_dump (for example pg_dump --format=custom --file=pertinent.dump DBNAME) and pg_restore to restore")
+
 // Backup writes a consistent copy of the database to path while the server keeps serving.
 // VACUUM INTO reads one snapshot of the database in a single read transaction, so writers
 // carry on meanwhile and the copy holds every transaction committed before it started.
 // The copy is written beside the target and renamed into place only once it is complete and
 // passes SQLite's integrity check, so a failed backup never leaves a half-written file.
+//
+// On PostgreSQL it refuses with ErrBackupPostgres: the server's own pg_dump takes a
+// consistent copy of a live database, and the store has no file to copy.
 func (s *Store) Backup(ctx context.Context, path string) error {
+	if s.pg {
+		return ErrBackupPostgres
+	}
 	if _, err := os.Stat(path); err == nil {
 		return fmt.Errorf("store: backup: %s exists already; choose a new file", path)
 	}

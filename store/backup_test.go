@@ -2,13 +2,18 @@ package store
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"os"
 	"path/filepath"
 	"reflect"
 	"slices"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"testing"
+
+	"github.com/pertinent/pertinent/internal/pgtest"
 )
 
 // dump reads every row of every table as text, rows sorted (so any order of storage compares
@@ -41,7 +46,7 @@ func dump(t *testing.T, s *Store) map[string][][]string {
 }
 
 func TestBackupWhileWritingThenRestore(t *testing.T) {
-	s := openTest(t)
+	s := openSQLiteTest(t) // a file copy; PostgreSQL refuses it (TestBackupOnPostgresPointsToPgDump)
 	ctx := context.Background()
 	p, _, _, users := fixture(t, s, 20, 10, 6)
 	dir := t.TempDir()
@@ -113,5 +118,18 @@ func TestBackupWhileWritingThenRestore(t *testing.T) {
 	}
 	if err := s.Backup(ctx, quiet); err == nil {
 		t.Error("a backup over an existing file was allowed")
+	}
+}
+
+// On PostgreSQL a backup is pg_dump's job: Backup says so and writes nothing.
+func TestBackupOnPostgresPointsToPgDump(t *testing.T) {
+	s := openAt(t, pgtest.New(t))
+	path := filepath.Join(t.TempDir(), "copy.db")
+	err := s.Backup(context.Background(), path)
+	if !errors.Is(err, ErrBackupPostgres) || !strings.Contains(err.Error(), "pg_dump") {
+		t.Fatalf("Backup on PostgreSQL: %v, want ErrBackupPostgres naming pg_dump", err)
+	}
+	if _, err := os.Stat(path); !os.IsNotExist(err) {
+		t.Errorf("Backup on PostgreSQL left %s (stat: %v)", path, err)
 	}
 }

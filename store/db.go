@@ -1,7 +1,8 @@
 // Package store is the only place that speaks SQL. It keeps one SQLite file through
 // modernc.org/sqlite (pure Go): a single writer connection, so writers queue in Go rather than
 // failing with "database is locked", and a pool of read-only connections that WAL lets run
-// beside the writer.
+// beside the writer. Given a postgres:// connection string it keeps a PostgreSQL database
+// instead, through pgx's database/sql driver (pgdriver.go), with one pool for both.
 package store
 
 import (
@@ -23,6 +24,7 @@ type Store struct {
 	w       *sql.DB // exactly one connection: every write goes through it
 	r       *sql.DB // read-only pool
 	path    string
+	pg      bool // PostgreSQL: w and r are one pool; see pgdriver.go and dialect
 	wStmts  stmtCache
 	rStmts  stmtCache
 	clockFn atomic.Pointer[func() time.Time] // nil: time.Now; see SetClock
@@ -38,9 +40,14 @@ type Store struct {
 }
 
 // Open opens (creating if needed) the database file at path and applies pending migrations.
+// A path starting postgres:// or postgresql:// is a PostgreSQL connection string instead; the
+// database must exist, and its migrations are applied the same way.
 func Open(ctx context.Context, path string) (*Store, error) {
 	if path == "" {
 		return nil, errors.New("store: empty database path")
+	}
+	if IsPostgres(path) {
+		return openPostgresStore(ctx, path)
 	}
 	w, err := sql.Open("sqlite", dsn(path, false))
 	if err != nil {
@@ -72,6 +79,30 @@ func Open(ctx context.Context, path string) (*Store, error) {
 	return s, nil
 }
 
+// openPostgresStore opens a PostgreSQL database as a Store. There is no single writer: the
+// pool serves reads and writes alike, and the judging path runs each request in its own
+// transaction under a per-project lock (lockProject) instead of the group writer.
+func openPostgresStore(ctx context.Context, dsn string) (*Store, error) {
+	db, err := openPostgres(dsn)
+	if err != nil {
+		return nil, fmt.Errorf("store: open PostgreSQL: %w", err)
+	}
+	n := max(4, 2*runtime.GOMAXPROCS(0))
+	db.SetMaxOpenConns(n)
+	db.SetMaxIdleConns(n)
+	db.SetConnMaxIdleTime(5 * time.Minute)
+	if err := db.PingContext(ctx); err != nil {
+		db.Close()
+		return nil, fmt.Errorf("store: open PostgreSQL: %w", err)
+	}
+	s := &Store{w: db, r: db, path: dsn, pg: true}
+	if err := s.Migrate(ctx); err != nil {
+		db.Close()
+		return nil, err
+	}
+	return s, nil
+}
+
 // dsn builds the connection string. Every connection gets foreign keys and a busy timeout;
 // the writer starts its transactions IMMEDIATE so a read-then-write transaction never has to
 // upgrade its lock half-way (the classic source of SQLITE_BUSY under concurrency).
@@ -91,8 +122,20 @@ func dsn(path string, readOnly bool) string {
 	return "file:" + path + "?" + q.Encode()
 }
 
-// Path is the database file's path.
+// Path is the database file's path, or the PostgreSQL connection string.
 func (s *Store) Path() string { return s.path }
+
+// Postgres reports whether the store keeps a PostgreSQL database rather than a SQLite file.
+func (s *Store) Postgres() bool { return s.pg }
+
+// dialect picks the text of a statement that must differ between the engines; both are
+// constants named for their engine and kept side by side (sqliteX, postgresX).
+func (s *Store) dialect(sqlite, postgres string) string {
+	if s.pg {
+		return postgres
+	}
+	return sqlite
+}
 
 // Close closes every connection; the WAL is checkpointed by SQLite on the last close.
 func (s *Store) Close() error {
@@ -100,7 +143,7 @@ func (s *Store) Close() error {
 	s.wStmts.close()
 	s.rStmts.close()
 	var errR error
-	if s.r != nil {
+	if s.r != nil && s.r != s.w {
 		errR = s.r.Close()
 	}
 	return errors.Join(errR, s.w.Close())
@@ -128,6 +171,44 @@ func (s *Store) write(ctx context.Context, fn func(tx *sql.Tx) error) error {
 		err = tx.Commit()
 	}
 	s.wStmts.prepareWanted(context.WithoutCancel(ctx), s.w)
+	return err
+}
+
+// postgresLockProjectSQL takes a project's advisory lock until the transaction ends.
+const postgresLockProjectSQL = `SELECT pg_advisory_xact_lock(?)`
+
+// lockProject makes tx the only write transaction of the project that assigns, judges or
+// imports until it ends. SQLite needs nothing: its one writer connection already runs every
+// write transaction alone. On PostgreSQL several connections (and instances) write at once,
+// and the assignment reads before it writes (a pair's judgments and others' leases, then a
+// new lease), as do Submit's check of pairs.judged and the import's "rows above the highest
+// id". A transaction-scoped advisory lock per project keeps those reads true until COMMIT,
+// and keeps the project's judgment ids in commit order, which the desk's incremental read
+// (id > seenID) relies on. One lock per project rather than row locks: what must not change
+// is the absence of rows (no other lease, no other judgment), which FOR UPDATE cannot lock,
+// and projects never wait on each other.
+func (s *Store) lockProject(ctx context.Context, tx *sql.Tx, projectID int64) error {
+	if !s.pg {
+		return nil
+	}
+	_, err := s.txExec(ctx, tx, postgresLockProjectSQL, projectID)
+	return err
+}
+
+// postgresLockPairProjectSQL is postgresLockProjectSQL for the project of a pair.
+const postgresLockPairProjectSQL = `SELECT pg_advisory_xact_lock(project_id) FROM pairs WHERE id = ?`
+
+// lockPairProject is lockProject for the project a pair belongs to, when the caller does not
+// know it (projectID 0); a caller that names the project locks that one, so a transaction
+// never holds two projects' locks.
+func (s *Store) lockPairProject(ctx context.Context, tx *sql.Tx, pairID, projectID int64) error {
+	if !s.pg {
+		return nil
+	}
+	if projectID != 0 {
+		return s.lockProject(ctx, tx, projectID)
+	}
+	_, err := s.txExec(ctx, tx, postgresLockPairProjectSQL, pairID)
 	return err
 }
 

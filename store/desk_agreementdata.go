@@ -29,7 +29,7 @@ func (s *Store) AgreementData(ctx context.Context, projectID int64) (*agreement.
 	if err != nil {
 		return nil, nil, err
 	}
-	gold, _, err := goldGrades(ctx, s.r, projectID)
+	gold, _, err := s.goldGrades(ctx, s.r, projectID)
 	if err != nil {
 		return nil, nil, err
 	}

@@ -18,14 +18,16 @@ import (
 // than one on two cores.)
 const deskColumns = `SELECT (j.pair_id << 28) | (j.user_id << 4) |
 		COALESCE(j.grade, CASE j.cannot_judge WHEN 'disturbing' THEN 14 ELSE 15 END),
-		(j.id << 24) | MIN(j.time_spent_ms, 16777215), j.created_at `
+		(j.id << 24) | CASE WHEN j.time_spent_ms < 16777215 THEN j.time_spent_ms ELSE 16777215 END, j.created_at `
 
 // deskQuery reads all of a project's current judgments; deskNewQuery those with an id above
 // the previous desk's, the new and the revised ones. CROSS JOIN makes SQLite walk that
-// rowid range of judgments, not every pair of the project looking for new judgments.
+// rowid range of judgments, not every pair of the project looking for new judgments;
+// PostgreSQL has no such hint (nor CROSS JOIN ... ON) and plans the range from statistics.
 const (
-	deskQuery    = deskColumns + `FROM judgments j JOIN pairs p ON p.id = j.pair_id WHERE p.project_id = ?1 AND j.current = 1`
-	deskNewQuery = deskColumns + `FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id WHERE j.id > ?2 AND p.project_id = ?1 AND j.current = 1`
+	deskQuery            = deskColumns + `FROM judgments j JOIN pairs p ON p.id = j.pair_id WHERE p.project_id = ?1 AND j.current = 1`
+	sqliteDeskNewQuery   = deskColumns + `FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id WHERE j.id > ?2 AND p.project_id = ?1 AND j.current = 1`
+	postgresDeskNewQuery = deskColumns + `FROM judgments j JOIN pairs p ON p.id = j.pair_id WHERE j.id > ?2 AND p.project_id = ?1 AND j.current = 1`
 )
 
 // loadDesk builds the project's desk. With a previous desk it reads only what changed since
@@ -80,10 +82,10 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 	if err != nil {
 		return nil, err
 	}
-	if d.Gold, d.goldPair, err = goldGrades(ctx, tx, projectID); err != nil {
+	if d.Gold, d.goldPair, err = s.goldGrades(ctx, tx, projectID); err != nil {
 		return nil, err
 	}
-	if d.Progress, err = deskProgress(ctx, tx, projectID); err != nil {
+	if d.Progress, err = s.deskProgress(ctx, tx, projectID); err != nil {
 		return nil, err
 	}
 
@@ -96,7 +98,7 @@ func (s *Store) loadDesk(ctx context.Context, projectID int64, old *Desk) (*Desk
 		}
 	}
 	if incremental {
-		rows, err := tx.QueryContext(ctx, deskNewQuery, projectID, old.seenID)
+		rows, err := tx.QueryContext(ctx, s.dialect(sqliteDeskNewQuery, postgresDeskNewQuery), projectID, old.seenID)
 		added, err := scanDeskRows(rows, err, 0)
 		if err != nil {
 			return nil, err
@@ -157,18 +159,27 @@ func deskRetired(ctx context.Context, tx *sql.Tx, projectID, since int64) ([]des
 	return out, true, rows.Err()
 }
 
+const (
+	sqliteDeskProgressSQL = `SELECT judged, COUNT(*) FROM pairs INDEXED BY pairs_judged WHERE project_id = ?1 GROUP BY judged
+		UNION ALL
+		SELECT judged, -COUNT(*) FROM pairs INDEXED BY pairs_gold WHERE project_id = ?1 AND gold_grade IS NOT NULL GROUP BY judged`
+	postgresDeskProgressSQL = `SELECT judged, COUNT(*) FROM pairs WHERE project_id = ?1 GROUP BY judged
+		UNION ALL
+		SELECT judged, -COUNT(*) FROM pairs WHERE project_id = ?1 AND gold_grade IS NOT NULL GROUP BY judged`
+	sqliteGoldGradesSQL   = `SELECT id, gold_grade FROM pairs INDEXED BY pairs_gold WHERE project_id = ? AND gold_grade IS NOT NULL`
+	postgresGoldGradesSQL = `SELECT id, gold_grade FROM pairs WHERE project_id = ? AND gold_grade IS NOT NULL`
+)
+
 // deskProgress counts pairs by how far their judging has come, as ProjectProgress does, from
 // the pairs_judged index alone (judged per pair, counted without reading a table row) less
 // the few gold pairs: a third of the time of reading every pair row.
-func deskProgress(ctx context.Context, tx *sql.Tx, projectID int64) (Progress, error) {
+func (s *Store) deskProgress(ctx context.Context, tx *sql.Tx, projectID int64) (Progress, error) {
 	var need int
 	if err := tx.QueryRowContext(ctx, `SELECT judgments_per_pair FROM projects WHERE id = ?`, projectID).Scan(&need); err != nil {
 		return Progress{}, err
 	}
 	// Every pair by judged, then the gold pairs by judged with a negative count.
-	rows, err := tx.QueryContext(ctx, `SELECT judged, COUNT(*) FROM pairs INDEXED BY pairs_judged WHERE project_id = ?1 GROUP BY judged
-		UNION ALL
-		SELECT judged, -COUNT(*) FROM pairs INDEXED BY pairs_gold WHERE project_id = ?1 AND gold_grade IS NOT NULL GROUP BY judged`, projectID)
+	rows, err := tx.QueryContext(ctx, s.dialect(sqliteDeskProgressSQL, postgresDeskProgressSQL), projectID)
 	if err != nil {
 		return Progress{}, err
 	}
@@ -199,9 +210,9 @@ func deskProgress(ctx context.Context, tx *sql.Tx, projectID int64) (Progress, e
 
 // goldGrades reads the project's gold grades, keyed by the pair id as the agreement
 // package names items and by the pair id itself.
-func goldGrades(ctx context.Context, q querier, projectID int64) (map[string]int, map[int64]int, error) {
+func (s *Store) goldGrades(ctx context.Context, q querier, projectID int64) (map[string]int, map[int64]int, error) {
 	gold, goldPair := map[string]int{}, map[int64]int{}
-	rows, err := q.QueryContext(ctx, `SELECT id, gold_grade FROM pairs INDEXED BY pairs_gold WHERE project_id = ? AND gold_grade IS NOT NULL`, projectID)
+	rows, err := q.QueryContext(ctx, s.dialect(sqliteGoldGradesSQL, postgresGoldGradesSQL), projectID)
 	if err != nil {
 		return nil, nil, err
 	}

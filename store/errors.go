@@ -3,6 +3,7 @@ package store
 import (
 	"errors"
 
+	"github.com/jackc/pgx/v5/pgconn"
 	"modernc.org/sqlite"
 	sqlite3 "modernc.org/sqlite/lib"
 
@@ -40,8 +41,13 @@ var (
 // isUniqueViolation reports whether err is the engine refusing a duplicate key: a UNIQUE
 // index or a PRIMARY KEY. It reads the driver's extended result code, not the message, which
 // a trigger's RAISE can imitate and a driver update can reword; another engine would answer
-// this from its own codes here.
+// this from its own codes here: PostgreSQL's is SQLSTATE 23505 (unique_violation), which
+// covers primary keys too.
 func isUniqueViolation(err error) bool {
+	var pe *pgconn.PgError
+	if errors.As(err, &pe) {
+		return pe.Code == "23505"
+	}
 	var e *sqlite.Error
 	if !errors.As(err, &e) {
 		return false

@@ -56,17 +56,31 @@ type ExportScan struct {
 // among them; the grade of the source a policy fills from comes in a column of its own): records split by char(30), fields
 // (username, grade, cannot-judge reason) by char(31), so one statement streams every pair
 // without a sort over the judgments table and without decoding JSON per pair.
-const exportPairsSQL = `SELECT p.id, q.external_id, d.external_id, p.gold_grade IS NOT NULL,
+// PostgreSQL spells the packing with string_agg and chr, and a grade becomes text explicitly.
+const (
+	sqliteExportPairsSQL = `SELECT p.id, q.external_id, d.external_id, p.gold_grade IS NOT NULL,
 		(SELECT a.grade FROM adjudications a WHERE a.pair_id = p.id AND a.current = 1),
 		(SELECT group_concat(u.username || char(31) || COALESCE(j.grade, '') || char(31) || COALESCE(j.cannot_judge, ''), char(30) ORDER BY u.username)
 			FROM judgments j JOIN users u ON u.id = j.user_id
 			WHERE j.pair_id = p.id AND j.current = 1 AND j.withdrawn_at IS NULL AND u.role != 'source'),
-		CASE WHEN ?2 THEN (SELECT f.data FROM pair_features f WHERE f.pair_id = p.id) END,
+		CASE WHEN ?2 = 1 THEN (SELECT f.data FROM pair_features f WHERE f.pair_id = p.id) END,
 		CASE WHEN ?3 != '' THEN (SELECT j.grade FROM judgments j JOIN users u ON u.id = j.user_id
 			WHERE j.pair_id = p.id AND j.current = 1 AND u.role = 'source' AND u.username = ?3) END
 	FROM queries q JOIN pairs p ON p.query_id = q.id JOIN documents d ON d.id = p.document_id
 	WHERE q.project_id = ?1
 	ORDER BY q.external_id, d.external_id`
+	postgresExportPairsSQL = `SELECT p.id, q.external_id, d.external_id, p.gold_grade IS NOT NULL,
+		(SELECT a.grade FROM adjudications a WHERE a.pair_id = p.id AND a.current = 1),
+		(SELECT string_agg(u.username || chr(31) || COALESCE(j.grade::text, '') || chr(31) || COALESCE(j.cannot_judge, ''), chr(30) ORDER BY u.username)
+			FROM judgments j JOIN users u ON u.id = j.user_id
+			WHERE j.pair_id = p.id AND j.current = 1 AND j.withdrawn_at IS NULL AND u.role != 'source'),
+		CASE WHEN ?2 = 1 THEN (SELECT f.data FROM pair_features f WHERE f.pair_id = p.id) END,
+		CASE WHEN ?3 != '' THEN (SELECT j.grade FROM judgments j JOIN users u ON u.id = j.user_id
+			WHERE j.pair_id = p.id AND j.current = 1 AND u.role = 'source' AND u.username = ?3) END
+	FROM queries q JOIN pairs p ON p.query_id = q.id JOIN documents d ON d.id = p.document_id
+	WHERE q.project_id = ?1
+	ORDER BY q.external_id, d.external_id`
+)
 
 // ExportPairs streams a project's pairs in query order (query external id, then document
 // external id) with everything a label policy needs, reading the rows with one statement and
@@ -75,7 +89,7 @@ const exportPairsSQL = `SELECT p.id, q.external_id, d.external_id, p.gold_grade 
 func (s *Store) ExportPairs(ctx context.Context, projectID int64, scan ExportScan, fn func(*ExportPair) error) error {
 	var p ExportPair
 	var ds int
-	return eachRow(ctx, s.r, exportPairsSQL, func(r rowScanner) error {
+	return eachRow(ctx, s.r, s.dialect(sqliteExportPairsSQL, postgresExportPairsSQL), func(r rowScanner) error {
 		var adj, src sql.NullInt64
 		var packed sql.NullString
 		if err := r.Scan(&p.PairID, &p.QueryID, &p.DocID, &p.Labels.Gold, &adj, &packed, &p.blob, &src); err != nil {

@@ -36,9 +36,9 @@ const (
 	docOnConflict = `) AS v WHERE true
 		ON CONFLICT (project_id, external_id) DO UPDATE SET title = excluded.title, url = excluded.url,
 			body = excluded.body, body_format = excluded.body_format, metadata = excluded.metadata
-		WHERE documents.title IS NOT excluded.title OR documents.url IS NOT excluded.url
-			OR documents.body IS NOT excluded.body OR documents.body_format IS NOT excluded.body_format
-			OR documents.metadata IS NOT excluded.metadata`
+		WHERE documents.title IS DISTINCT FROM excluded.title OR documents.url IS DISTINCT FROM excluded.url
+			OR documents.body IS DISTINCT FROM excluded.body OR documents.body_format IS DISTINCT FROM excluded.body_format
+			OR documents.metadata IS DISTINCT FROM excluded.metadata`
 	pairValues    = `(?, ?, ?, ?)`
 	pairValues2   = pairValues + ", " + pairValues
 	pairValues4   = pairValues2 + ", " + pairValues2
@@ -54,8 +54,8 @@ const (
 	pairOnConflict = `) AS v WHERE true
 		ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority,
 			gold_grade = COALESCE(excluded.gold_grade, pairs.gold_grade)
-		WHERE pairs.priority IS NOT excluded.priority
-			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS NOT excluded.gold_grade)`
+		WHERE pairs.priority IS DISTINCT FROM excluded.priority
+			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS DISTINCT FROM excluded.gold_grade)`
 )
 
 // upsertDocument writes one document; the Loader uses it too.
@@ -86,6 +86,43 @@ var upsertRowPairs = [...]string{
 	pairInsert + pairValues64 + pairOnConflict,
 	pairInsert + pairValues128 + pairOnConflict,
 	pairInsert + pairValues256 + pairOnConflict,
+}
+
+// PostgreSQL takes the type of a parameter in a VALUES list from the list alone, where it is
+// unknown and so text; the integer columns of the pair rows are cast, in every row, so the
+// rows match the table as SQLite's typeless values do. (Documents are all text.)
+const (
+	postgresRowPairValues    = `(CAST(? AS bigint), ?, CAST(? AS bigint), CAST(? AS bigint))`
+	postgresRowPairValues2   = postgresRowPairValues + ", " + postgresRowPairValues
+	postgresRowPairValues4   = postgresRowPairValues2 + ", " + postgresRowPairValues2
+	postgresRowPairValues8   = postgresRowPairValues4 + ", " + postgresRowPairValues4
+	postgresRowPairValues16  = postgresRowPairValues8 + ", " + postgresRowPairValues8
+	postgresRowPairValues32  = postgresRowPairValues16 + ", " + postgresRowPairValues16
+	postgresRowPairValues64  = postgresRowPairValues32 + ", " + postgresRowPairValues32
+	postgresRowPairValues128 = postgresRowPairValues64 + ", " + postgresRowPairValues64
+	postgresRowPairValues256 = postgresRowPairValues128 + ", " + postgresRowPairValues128
+)
+
+// postgresUpsertRowPairs is upsertRowPairs on PostgreSQL.
+var postgresUpsertRowPairs = [...]string{
+	pairInsert + postgresRowPairValues + pairOnConflict,
+	pairInsert + postgresRowPairValues2 + pairOnConflict,
+	pairInsert + postgresRowPairValues4 + pairOnConflict,
+	pairInsert + postgresRowPairValues8 + pairOnConflict,
+	pairInsert + postgresRowPairValues16 + pairOnConflict,
+	pairInsert + postgresRowPairValues32 + pairOnConflict,
+	pairInsert + postgresRowPairValues64 + pairOnConflict,
+	pairInsert + postgresRowPairValues128 + pairOnConflict,
+	pairInsert + postgresRowPairValues256 + pairOnConflict,
+}
+
+// bulkForms picks the statement forms of the engine: sqlite's, or postgres's where the
+// engine's text differs.
+func (im *importer) bulkForms(sqlite, postgres *[bulkForms]string) *[bulkForms]string {
+	if im.pg {
+		return postgres
+	}
+	return sqlite
 }
 
 // bulk buffers the parameters of up to bulkRows rows of one upsert and counts the rows
@@ -164,7 +201,7 @@ func (im *importer) addDocument(d docArgs) error {
 // buffered before it are written first.
 func (im *importer) addRowPair(queryID int64, docExt, origin string, prio int, gold any) error {
 	if im.rowPairs == nil {
-		im.rowPairs = newBulk(&upsertRowPairs, 3, 4)
+		im.rowPairs = newBulk(im.bulkForms(&upsertRowPairs, &postgresUpsertRowPairs), 3, 4)
 	}
 	b := im.rowPairs
 	b.shared[0], b.shared[1], b.shared[2] = im.project, origin, im.at

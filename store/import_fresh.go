@@ -52,12 +52,59 @@ var insertPairs = [...]string{
 	freshPairInsert + pairValues256 + freshEnd,
 }
 
+// The fresh path's integer columns cast for PostgreSQL, as in import_bulk.go.
+const (
+	postgresFreshDocValues     = `(CAST(? AS bigint), ?, ?, ?, ?, ?, ?)`
+	postgresFreshDocValues2    = postgresFreshDocValues + ", " + postgresFreshDocValues
+	postgresFreshDocValues4    = postgresFreshDocValues2 + ", " + postgresFreshDocValues2
+	postgresFreshDocValues8    = postgresFreshDocValues4 + ", " + postgresFreshDocValues4
+	postgresFreshDocValues16   = postgresFreshDocValues8 + ", " + postgresFreshDocValues8
+	postgresFreshDocValues32   = postgresFreshDocValues16 + ", " + postgresFreshDocValues16
+	postgresFreshDocValues64   = postgresFreshDocValues32 + ", " + postgresFreshDocValues32
+	postgresFreshDocValues128  = postgresFreshDocValues64 + ", " + postgresFreshDocValues64
+	postgresFreshDocValues256  = postgresFreshDocValues128 + ", " + postgresFreshDocValues128
+	postgresFreshPairValues    = `(CAST(? AS bigint), CAST(? AS bigint), CAST(? AS bigint), CAST(? AS bigint))`
+	postgresFreshPairValues2   = postgresFreshPairValues + ", " + postgresFreshPairValues
+	postgresFreshPairValues4   = postgresFreshPairValues2 + ", " + postgresFreshPairValues2
+	postgresFreshPairValues8   = postgresFreshPairValues4 + ", " + postgresFreshPairValues4
+	postgresFreshPairValues16  = postgresFreshPairValues8 + ", " + postgresFreshPairValues8
+	postgresFreshPairValues32  = postgresFreshPairValues16 + ", " + postgresFreshPairValues16
+	postgresFreshPairValues64  = postgresFreshPairValues32 + ", " + postgresFreshPairValues32
+	postgresFreshPairValues128 = postgresFreshPairValues64 + ", " + postgresFreshPairValues64
+	postgresFreshPairValues256 = postgresFreshPairValues128 + ", " + postgresFreshPairValues128
+)
+
+// postgresInsertDocuments and postgresInsertPairs are insertDocuments and insertPairs on PostgreSQL.
+var postgresInsertDocuments = [...]string{
+	freshDocInsert + postgresFreshDocValues + freshEnd,
+	freshDocInsert + postgresFreshDocValues2 + freshEnd,
+	freshDocInsert + postgresFreshDocValues4 + freshEnd,
+	freshDocInsert + postgresFreshDocValues8 + freshEnd,
+	freshDocInsert + postgresFreshDocValues16 + freshEnd,
+	freshDocInsert + postgresFreshDocValues32 + freshEnd,
+	freshDocInsert + postgresFreshDocValues64 + freshEnd,
+	freshDocInsert + postgresFreshDocValues128 + freshEnd,
+	freshDocInsert + postgresFreshDocValues256 + freshEnd,
+}
+
+var postgresInsertPairs = [...]string{
+	freshPairInsert + postgresFreshPairValues + freshEnd,
+	freshPairInsert + postgresFreshPairValues2 + freshEnd,
+	freshPairInsert + postgresFreshPairValues4 + freshEnd,
+	freshPairInsert + postgresFreshPairValues8 + freshEnd,
+	freshPairInsert + postgresFreshPairValues16 + freshEnd,
+	freshPairInsert + postgresFreshPairValues32 + freshEnd,
+	freshPairInsert + postgresFreshPairValues64 + freshEnd,
+	freshPairInsert + postgresFreshPairValues128 + freshEnd,
+	freshPairInsert + postgresFreshPairValues256 + freshEnd,
+}
+
 // freshDocID is the id the fresh path gives the file's document number n (from 0).
 func (im *importer) freshDocID(n int) int64 { return im.maxDoc + 1 + int64(n) }
 
 func (im *importer) addFreshDocument(n int, d docArgs) error {
 	if im.newDocs == nil {
-		im.newDocs = newBulk(&insertDocuments, 1, 7)
+		im.newDocs = newBulk(im.bulkForms(&insertDocuments, &postgresInsertDocuments), 1, 7)
 		im.newDocs.shared[0] = im.project
 	}
 	if im.newDocs.add(im.freshDocID(n), d.id, d.title, d.url, d.body, d.format, d.meta) {
@@ -68,7 +115,7 @@ func (im *importer) addFreshDocument(n int, d docArgs) error {
 
 func (im *importer) addFreshPair(queryID int64, docNum int, origin string, prio int, gold any) error {
 	if im.newPairs == nil {
-		im.newPairs = newBulk(&insertPairs, 3, 4)
+		im.newPairs = newBulk(im.bulkForms(&insertPairs, &postgresInsertPairs), 3, 4)
 	}
 	b := im.newPairs
 	b.shared[0], b.shared[1], b.shared[2] = im.project, origin, im.at

@@ -17,6 +17,7 @@ type importer struct {
 	// statement itself in a bulk import. done is the caller's context, checked per batch.
 	ctx     context.Context
 	done    context.Context
+	pg      bool // PostgreSQL: no page cache to size
 	tx      *sql.Tx
 	project int64
 	by      int64
@@ -46,7 +47,10 @@ type importer struct {
 }
 
 func (s *Store) newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64, spec ImportSpec) (*importer, error) {
-	im := &importer{ctx: context.WithoutCancel(ctx), done: ctx, tx: tx, project: projectID, by: by, spec: spec, at: s.now(),
+	if err := s.lockProject(ctx, tx, projectID); err != nil {
+		return nil, err
+	}
+	im := &importer{ctx: context.WithoutCancel(ctx), done: ctx, pg: s.pg, tx: tx, project: projectID, by: by, spec: spec, at: s.now(),
 		stmts: map[string]*sql.Stmt{}, queryIDs: map[string]int64{}, docIDs: map[string]int64{}, count: map[string]*ImportCount{}}
 	im.ps.max = spec.MaxProblems
 	if im.ps.max <= 0 {
@@ -71,12 +75,19 @@ func (s *Store) newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64
 	}
 	// 16 MiB of page cache: measured on the benchmark, a larger cache made a bulk import
 	// no faster (the inserts touch few pages at a time) and only grew its memory.
-	if _, err := tx.ExecContext(ctx, `PRAGMA cache_size = -16384`); err != nil {
-		return nil, err
+	if !s.pg {
+		if _, err := tx.ExecContext(ctx, `PRAGMA cache_size = -16384`); err != nil {
+			return nil, err
+		}
 	}
 	if err := tx.QueryRowContext(ctx, projectIsFresh, projectID).Scan(&im.fresh); err != nil {
 		return nil, err
 	}
+	// The fresh path gives ids itself, past the highest of all projects; on PostgreSQL
+	// another project's import may hold ids beyond it uncommitted, and the identity sequence
+	// would not know of the given ones. There the bulk path, which lets the sequence number,
+	// takes every import.
+	im.fresh = im.fresh && !s.pg
 	if err := im.beginProgress(); err != nil {
 		return nil, err
 	}
@@ -88,7 +99,9 @@ func (im *importer) close() {
 		st.Close()
 	}
 	// Back to SQLite's default (the store sets no other), on the one writer connection.
-	im.tx.ExecContext(context.WithoutCancel(im.ctx), `PRAGMA cache_size = -2000`)
+	if !im.pg {
+		im.tx.ExecContext(context.WithoutCancel(im.ctx), `PRAGMA cache_size = -2000`)
+	}
 }
 
 // stmt prepares a statement once per import.

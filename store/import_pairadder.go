@@ -25,8 +25,8 @@ func newPairAdder(ctx context.Context, tx *sql.Tx, projectID int64, at string) (
 		if a.d, err = tx.PrepareContext(ctx, `SELECT id FROM documents WHERE project_id = ? AND external_id = ?`); err == nil {
 			if a.ins, err = tx.PrepareContext(ctx, `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, created_at)
 				VALUES (?, ?, ?, ?, ?, ?) ON CONFLICT (project_id, query_id, document_id) DO NOTHING RETURNING id`); err == nil {
-				a.raise, err = tx.PrepareContext(ctx, `UPDATE pairs SET priority = MAX(priority, ?)
-					WHERE project_id = ? AND query_id = ? AND document_id = ? RETURNING id`)
+				a.raise, err = tx.PrepareContext(ctx, `UPDATE pairs SET priority = CASE WHEN priority >= ?1 THEN priority ELSE ?1 END
+					WHERE project_id = ?2 AND query_id = ?3 AND document_id = ?4 RETURNING id`)
 			}
 		}
 	}

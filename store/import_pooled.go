@@ -28,7 +28,7 @@ func (s *Store) AddPooledPairs(ctx context.Context, projectID int64, pool []inge
 		}
 		defer adder.close()
 		source, err := tx.PrepareContext(ctx, `INSERT INTO pair_sources(pair_id, run, rank) VALUES (?, ?, ?)
-			ON CONFLICT (pair_id, run) DO UPDATE SET rank = MIN(rank, excluded.rank)`)
+			ON CONFLICT (pair_id, run) DO UPDATE SET rank = CASE WHEN excluded.rank < pair_sources.rank THEN excluded.rank ELSE pair_sources.rank END`)
 		if err != nil {
 			return err
 		}

@@ -15,12 +15,12 @@ const (
 			COALESCE(MAX(p.priority) FILTER (WHERE p.gold_grade IS NULL), 0)
 		FROM pairs p
 		WHERE p.query_id IN (SELECT query_id FROM pairs WHERE id > ?1 AND project_id = ?2)
-		GROUP BY p.query_id
+		GROUP BY p.query_id, p.project_id
 		ON CONFLICT (query_id) DO UPDATE SET pairs = excluded.pairs, judged = excluded.judged,
 			top_priority = excluded.top_priority`
 	bumpImportedVersion = `INSERT INTO project_versions(project_id, version)
 		SELECT ?2, 1 WHERE EXISTS (SELECT 1 FROM pairs WHERE id > ?1 AND project_id = ?2)
-		ON CONFLICT (project_id) DO UPDATE SET version = version + 1`
+		ON CONFLICT (project_id) DO UPDATE SET version = project_versions.version + 1`
 )
 
 // beginProgress makes the pair triggers stand aside for this import's project.

@@ -13,7 +13,7 @@ const (
 	upsertPoolPair = `INSERT INTO pairs(project_id, query_id, document_id, origin, priority, created_at)
 		VALUES (?, ?, ?, ?, ?, ?)
 		ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority
-		WHERE pairs.priority IS NOT excluded.priority
+		WHERE pairs.priority IS DISTINCT FROM excluded.priority
 		RETURNING id`
 	findPair       = `SELECT id, gold_grade FROM pairs WHERE project_id = ? AND query_id = ? AND document_id = ?`
 	findPairSource = `SELECT rank FROM pair_sources WHERE pair_id = ? AND run = ?`

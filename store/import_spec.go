@@ -181,6 +181,9 @@ func (s *Store) Import(ctx context.Context, projectID, by int64, spec ImportSpec
 // two writes per changed page and statement, most of a bulk import's time. So the writer
 // connection switches to in-memory temporary storage for the import's transaction.
 func (s *Store) importTx(ctx context.Context, fn func(tx *sql.Tx) error) error {
+	if s.pg {
+		return s.write(ctx, fn) // PostgreSQL keeps its own journal; nothing to switch
+	}
 	conn, err := s.w.Conn(ctx)
 	if err != nil {
 		return err

@@ -293,7 +293,7 @@ func TestPoolingTwoRunsRecordsSourcesAndPriority(t *testing.T) {
 func poolState(t *testing.T, s *Store) []string {
 	t.Helper()
 	rows, err := s.r.Query(`SELECT q.external_id, d.external_id, x.priority,
-			(SELECT group_concat(run || '@' || rank, ' ') FROM (SELECT run, rank FROM pair_sources WHERE pair_id = x.id ORDER BY run))
+			(SELECT string_agg(run || '@' || rank, ' ' ORDER BY run) FROM pair_sources WHERE pair_id = x.id)
 		FROM pairs x JOIN queries q ON q.id = x.query_id JOIN documents d ON d.id = x.document_id
 		ORDER BY q.external_id, d.external_id`)
 	if err != nil {
@@ -351,7 +351,7 @@ func TestQrelsBecomeSourceJudgmentsThatSurviveReimport(t *testing.T) {
 	wantCount(t, rep, "judgments", 0, 1, 1)
 	wantCount(t, rep, "gold grades", 0, 1, 1)
 	var total, current, byAssessor int
-	s.r.QueryRow(`SELECT COUNT(*), SUM(current), SUM(user_id = ?) FROM judgments`, as.ID).Scan(&total, &current, &byAssessor)
+	s.r.QueryRow(`SELECT COUNT(*), SUM(current), COUNT(*) FILTER (WHERE user_id = ?) FROM judgments`, as.ID).Scan(&total, &current, &byAssessor)
 	if total != 4 || current != 3 || byAssessor != 1 {
 		t.Errorf("%d judgments, %d current, %d by the assessor; want 4, 3, 1 (the old source grade kept as history)", total, current, byAssessor)
 	}

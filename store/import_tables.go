@@ -10,7 +10,7 @@ import (
 const (
 	upsertQuery = `INSERT INTO queries(project_id, external_id, text, need) VALUES (?, ?, ?, ?)
 		ON CONFLICT (project_id, external_id) DO UPDATE SET text = excluded.text, need = excluded.need
-		WHERE queries.text IS NOT excluded.text OR queries.need IS NOT excluded.need
+		WHERE queries.text IS DISTINCT FROM excluded.text OR queries.need IS DISTINCT FROM excluded.need
 		RETURNING id`
 	findQuery    = `SELECT id FROM queries WHERE project_id = ? AND external_id = ?`
 	findDocument = `SELECT id FROM documents WHERE project_id = ? AND external_id = ?`
@@ -21,8 +21,8 @@ const (
 		VALUES (?, ?, ?, ?, ?, ?, ?)
 		ON CONFLICT (project_id, query_id, document_id) DO UPDATE SET priority = excluded.priority,
 			gold_grade = COALESCE(excluded.gold_grade, pairs.gold_grade)
-		WHERE pairs.priority IS NOT excluded.priority
-			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS NOT excluded.gold_grade)`
+		WHERE pairs.priority IS DISTINCT FROM excluded.priority
+			OR (excluded.gold_grade IS NOT NULL AND pairs.gold_grade IS DISTINCT FROM excluded.gold_grade)`
 )
 
 func (im *importer) upsertQuery(q ingest.Query) (int64, error) {

@@ -35,8 +35,13 @@ const shuffle = `(((p.id * 1103515245 + ?5) % 2147483647) * ?6) % 2147483629`
 const (
 	// CROSS JOIN keeps leases (few per assessor) as the outer loop; unary + keeps the planner
 	// off indexes that would walk a whole project or all of its queries.
+	// PostgreSQL has neither hint; its planner sees the few leases from statistics.
 	resumeLeaseSQL = `SELECT l.pair_id, l.leased_at FROM leases l CROSS JOIN pairs p ON p.id = l.pair_id
 		WHERE l.user_id = ?2 AND +p.project_id = ?1 AND l.expires_at > ?3
+		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2 AND j.current = 1)
+		ORDER BY l.leased_at DESC LIMIT 1`
+	postgresResumeLeaseSQL = `SELECT l.pair_id, l.leased_at FROM leases l JOIN pairs p ON p.id = l.pair_id
+		WHERE l.user_id = ?2 AND p.project_id = ?1 AND l.expires_at > ?3
 		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2 AND j.current = 1)
 		ORDER BY l.leased_at DESC LIMIT 1`
 	batchPairSQL = `SELECT p.id FROM pairs p WHERE p.query_id = ?7 AND +p.project_id = ?1 AND ` + openPair + `
@@ -51,12 +56,16 @@ const (
 		WHERE p.query_id = ?1 AND l.user_id != ?2 AND l.expires_at > ?3)`
 	rankEndSQL     = `SELECT MAX(q.query_id) FROM query_progress q WHERE q.project_id = ?1 AND q.top_priority = ?2 AND q.coverage = ?3`
 	spreadQuerySQL = `SELECT q.query_id FROM query_progress q
-		WHERE q.project_id = ?1 AND q.top_priority = ?8 AND q.coverage = ?9 AND q.query_id >= ?10 AND +q.pairs > 0
+		WHERE q.project_id = ?1 AND q.top_priority = ?5 AND q.coverage = ?6 AND q.query_id >= ?7 AND +q.pairs > 0
 		AND EXISTS (SELECT 1 FROM pairs p WHERE p.query_id = q.query_id AND ` + openPair + `)
 		ORDER BY q.query_id LIMIT 1`
 	// Named, since the planner may otherwise take an index on project_id alone and walk
 	// every pair of the project to find its few gold ones.
 	goldPairSQL = `SELECT p.id FROM pairs p INDEXED BY pairs_gold
+		WHERE p.project_id = ?1 AND p.gold_grade IS NOT NULL
+		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2)
+		ORDER BY p.query_id = ?3 DESC, random() LIMIT 1`
+	postgresGoldPairSQL = `SELECT p.id FROM pairs p
 		WHERE p.project_id = ?1 AND p.gold_grade IS NOT NULL
 		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2)
 		ORDER BY p.query_id = ?3 DESC, random() LIMIT 1`
@@ -100,6 +109,9 @@ func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID in
 	var goldRate float64
 	var archived, member bool
 	var batch sql.NullInt64
+	if err := s.lockProject(ctx, tx, projectID); err != nil {
+		return 0, "", err
+	}
 	err = s.txRow(ctx, tx, `SELECT judgments_per_pair, lease_seconds, gold_rate, archived_at IS NOT NULL,
 			EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor'),
 			(SELECT query_id FROM batches b WHERE b.project_id = ?1 AND b.user_id = ?2)
@@ -118,7 +130,7 @@ func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID in
 	}
 	t := s.clock()
 	nowText := timeText(t)
-	err = s.txRow(ctx, tx, resumeLeaseSQL, projectID, userID, nowText).Scan(&pairID, &leasedAt)
+	err = s.txRow(ctx, tx, s.dialect(resumeLeaseSQL, postgresResumeLeaseSQL), projectID, userID, nowText).Scan(&pairID, &leasedAt)
 	if err == nil {
 		return pairID, leasedAt, nil
 	}
@@ -131,7 +143,7 @@ func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID in
 	}
 	pairID = 0
 	if goldRate > 0 && rand.Float64() < goldRate {
-		err = s.txRow(ctx, tx, goldPairSQL, projectID, userID, batch.Int64).Scan(&pairID)
+		err = s.txRow(ctx, tx, s.dialect(goldPairSQL, postgresGoldPairSQL), projectID, userID, batch.Int64).Scan(&pairID)
 		if err != nil && !errors.Is(err, sql.ErrNoRows) {
 			return 0, "", err
 		}
@@ -184,10 +196,9 @@ func (s *Store) spreadQuery(ctx context.Context, tx *sql.Tx, projectID, userID i
 	if err := s.txRow(ctx, tx, rankEndSQL, projectID, priority, coverage).Scan(&end); err != nil || end <= first {
 		return first, err
 	}
-	a, b := seeds(userID)
 	from := first + 1 + rand.Int64N(end-first)
 	var q int64
-	err := s.txRow(ctx, tx, spreadQuerySQL, projectID, userID, nowText, needed, a, b, 0, priority, coverage, from).Scan(&q)
+	err := s.txRow(ctx, tx, spreadQuerySQL, projectID, userID, nowText, needed, priority, coverage, from).Scan(&q)
 	if errors.Is(err, sql.ErrNoRows) {
 		return first, nil
 	}
@@ -233,13 +244,13 @@ type Progress struct {
 func (s *Store) ProjectProgress(ctx context.Context, projectID int64) (Progress, error) {
 	var p Progress
 	err := s.r.QueryRowContext(ctx, `SELECT COUNT(x.id),
-			COALESCE(SUM(x.judged >= pr.judgments_per_pair), 0),
-			COALESCE(SUM(x.judged > 0 AND x.judged < pr.judgments_per_pair), 0),
-			COALESCE(SUM(x.judged = 0), 0),
+			COUNT(*) FILTER (WHERE x.judged >= pr.judgments_per_pair),
+			COUNT(*) FILTER (WHERE x.judged > 0 AND x.judged < pr.judgments_per_pair),
+			COUNT(*) FILTER (WHERE x.judged = 0),
 			COALESCE(SUM(x.judged), 0),
 			COUNT(x.id) * pr.judgments_per_pair
 		FROM projects pr LEFT JOIN pairs x ON x.project_id = pr.id AND x.gold_grade IS NULL
-		WHERE pr.id = ?`, projectID).Scan(&p.Pairs, &p.Done, &p.InProgress, &p.Untouched, &p.Judgments, &p.Needed)
+		WHERE pr.id = ? GROUP BY pr.judgments_per_pair`, projectID).Scan(&p.Pairs, &p.Done, &p.InProgress, &p.Untouched, &p.Judgments, &p.Needed)
 	return p, err
 }
 

@@ -51,7 +51,14 @@ func (s *Store) startGroup() {
 // fn gets a context without cancellation: interrupting a statement in an explicit
 // transaction may roll the whole transaction back, which would take the other requests of
 // the batch with it. A request whose caller has gone is skipped before it starts instead.
+//
+// On PostgreSQL there is no batch: the server commits many connections' transactions together
+// itself, and a batch of one instance would only hold its row locks longer against another.
+// Each request runs in its own transaction on the pool (alone).
 func (s *Store) grouped(ctx context.Context, fn func(ctx context.Context, tx *sql.Tx) error, committed func()) error {
+	if s.pg {
+		return s.alone(ctx, fn, committed)
+	}
 	g := &s.group
 	req := &groupRequest{ctx: ctx, fn: fn, committed: committed, done: make(chan error, 1)}
 	g.mu.RLock()
@@ -183,6 +190,32 @@ func runRequest(r *groupRequest, tx *sql.Tx) (err error) {
 		}
 	}()
 	return r.fn(context.WithoutCancel(r.ctx), tx)
+}
+
+// alone is grouped without a batch: fn in a transaction of its own, committed called after
+// its COMMIT. The context is kept from cancellation as in a batch, so a request that began is
+// carried to its end and its outcome is the one reported.
+func (s *Store) alone(ctx context.Context, fn func(ctx context.Context, tx *sql.Tx) error, committed func()) error {
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	r := &groupRequest{ctx: ctx, fn: fn}
+	wctx := context.WithoutCancel(ctx)
+	tx, err := s.w.BeginTx(wctx, nil)
+	if err != nil {
+		return err
+	}
+	if err := runRequest(r, tx); err != nil {
+		tx.Rollback()
+		return err
+	}
+	if err := tx.Commit(); err != nil {
+		return err
+	}
+	if committed != nil {
+		committed()
+	}
+	return nil
 }
 
 func (g *groupWriter) close() {

@@ -95,6 +95,9 @@ func (s *Store) submitTx(ctx context.Context, tx *sql.Tx, sub Submission, revisi
 	var archived, member, allowChanges, adjudicated bool
 	var gold sql.NullInt64
 	var leasedAt sql.NullString
+	if err := s.lockPairProject(ctx, tx, sub.PairID, projectID); err != nil {
+		return j, false, err
+	}
 	err = s.txRow(ctx, tx, `SELECT p.id, p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
 			(SELECT COUNT(*) FROM scale_levels l WHERE l.project_id = p.id),
 			EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = p.id AND m.user_id = ?2 AND m.role = 'assessor'),
@@ -143,6 +146,24 @@ func (s *Store) submitTx(ctx context.Context, tx *sql.Tx, sub Submission, revisi
 	return j, prev == 0 && !gold.Valid, err
 }
 
+// The assessor's latest judgment in a project, for Undo; CROSS JOIN and + as in judge_mywork.go.
+const (
+	sqliteLatestJudgmentSQL = `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
+				COALESCE(j.supersedes, 0), j.current, j.withdrawn_at IS NOT NULL, j.created_at,
+				EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1),
+				(SELECT lease_seconds FROM projects WHERE id = ?1)
+			FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id
+			WHERE j.user_id = ?2 AND +p.project_id = ?1
+			ORDER BY j.id DESC LIMIT 1`
+	postgresLatestJudgmentSQL = `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
+				COALESCE(j.supersedes, 0), j.current, j.withdrawn_at IS NOT NULL, j.created_at,
+				EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1),
+				(SELECT lease_seconds FROM projects WHERE id = ?1)
+			FROM judgments j JOIN pairs p ON p.id = j.pair_id
+			WHERE j.user_id = ?2 AND p.project_id = ?1
+			ORDER BY j.id DESC LIMIT 1`
+)
+
 // Undo withdraws the assessor's latest judgment in the project: the row stays with
 // withdrawn_at set and no longer counts, and the pair is leased back to them so it is the
 // next one they see. Only their own latest judgment can be withdrawn, and not once a lead
@@ -154,13 +175,10 @@ func (s *Store) Undo(ctx context.Context, projectID, userID int64) (Judgment, er
 		var at string
 		var withdrawn, adjudicated bool
 		var leaseSeconds int
-		err := s.txRow(ctx, tx, `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
-				COALESCE(j.supersedes, 0), j.current, j.withdrawn_at IS NOT NULL, j.created_at,
-				EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1),
-				(SELECT lease_seconds FROM projects WHERE id = ?1)
-			FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id
-			WHERE j.user_id = ?2 AND +p.project_id = ?1
-			ORDER BY j.id DESC LIMIT 1`, projectID, userID).Scan(&j.ID, &j.PairID, &grade, &j.CannotJudge, &j.Note,
+		if err := s.lockProject(ctx, tx, projectID); err != nil {
+			return err
+		}
+		err := s.txRow(ctx, tx, s.dialect(sqliteLatestJudgmentSQL, postgresLatestJudgmentSQL), projectID, userID).Scan(&j.ID, &j.PairID, &grade, &j.CannotJudge, &j.Note,
 			&j.TimeSpentMs, &j.Supersedes, &j.Current, &withdrawn, &at, &adjudicated, &leaseSeconds)
 		if errors.Is(err, sql.ErrNoRows) || (err == nil && (withdrawn || !j.Current)) {
 			return errorf(CodeConflict, "there is no judgment to undo")

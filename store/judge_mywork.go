@@ -16,18 +16,52 @@ type MyJudgment struct {
 	Changeable    bool // the project allows changes and no lead has adjudicated the pair
 }
 
+// An assessor's judgments in a project: SQLite is told to start from the assessor's
+// judgments (CROSS JOIN, and + to keep it off the project's index); PostgreSQL, which has
+// neither hint, plans that from its statistics.
+const (
+	sqliteMyJudgmentsSQL = `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
+			COALESCE(j.supersedes, 0), j.created_at, q.text, d.title,
+			pr.allow_changes = 1 AND NOT EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1)
+		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id
+			JOIN documents d ON d.id = p.document_id JOIN projects pr ON pr.id = p.project_id
+		WHERE j.user_id = ?2 AND +p.project_id = ?1 AND j.current = 1
+		ORDER BY j.id DESC LIMIT ?3`
+	postgresMyJudgmentsSQL = `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
+			COALESCE(j.supersedes, 0), j.created_at, q.text, d.title,
+			pr.allow_changes = 1 AND NOT EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1)
+		FROM judgments j JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id
+			JOIN documents d ON d.id = p.document_id JOIN projects pr ON pr.id = p.project_id
+		WHERE j.user_id = ?2 AND p.project_id = ?1 AND j.current = 1
+		ORDER BY j.id DESC LIMIT ?3`
+	sqliteMyCountsSQL = `SELECT
+			COUNT(*) FILTER (WHERE j.created_at >= ?3 AND j.supersedes IS NULL AND j.withdrawn_at IS NULL),
+			COALESCE(SUM(j.current), 0)
+		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id
+		WHERE j.user_id = ?2 AND +p.project_id = ?1`
+	postgresMyCountsSQL = `SELECT
+			COUNT(*) FILTER (WHERE j.created_at >= ?3 AND j.supersedes IS NULL AND j.withdrawn_at IS NULL),
+			COALESCE(SUM(j.current), 0)
+		FROM judgments j JOIN pairs p ON p.id = j.pair_id
+		WHERE j.user_id = ?2 AND p.project_id = ?1`
+	sqliteFlaggedSQL = `SELECT p.id, q.text, d.title, j.cannot_judge, COUNT(*)
+		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id JOIN documents d ON d.id = p.document_id
+		WHERE j.current = 1 AND j.cannot_judge IS NOT NULL AND p.project_id = ?1
+		GROUP BY p.id, j.cannot_judge
+		ORDER BY j.cannot_judge = 'disturbing' DESC, COUNT(*) DESC, p.id LIMIT ?2`
+	postgresFlaggedSQL = `SELECT p.id, q.text, d.title, j.cannot_judge, COUNT(*)
+		FROM judgments j JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id JOIN documents d ON d.id = p.document_id
+		WHERE j.current = 1 AND j.cannot_judge IS NOT NULL AND p.project_id = ?1
+		GROUP BY p.id, q.text, d.title, j.cannot_judge
+		ORDER BY j.cannot_judge = 'disturbing' DESC, COUNT(*) DESC, p.id LIMIT ?2`
+)
+
 // JudgmentsByAssessor lists an assessor's current judgments in a project, newest first.
 func (s *Store) JudgmentsByAssessor(ctx context.Context, projectID, userID int64, limit int) ([]MyJudgment, error) {
 	if limit <= 0 || limit > 500 {
 		limit = 50
 	}
-	return queryAll(ctx, s.r, `SELECT j.id, j.pair_id, j.grade, COALESCE(j.cannot_judge, ''), j.note, j.time_spent_ms,
-			COALESCE(j.supersedes, 0), j.created_at, q.text, d.title,
-			pr.allow_changes AND NOT EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = j.pair_id AND a.current = 1)
-		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id
-			JOIN documents d ON d.id = p.document_id JOIN projects pr ON pr.id = p.project_id
-		WHERE j.user_id = ?2 AND +p.project_id = ?1 AND j.current = 1
-		ORDER BY j.id DESC LIMIT ?3`, func(r rowScanner) (MyJudgment, error) {
+	return queryAll(ctx, s.r, s.dialect(sqliteMyJudgmentsSQL, postgresMyJudgmentsSQL), func(r rowScanner) (MyJudgment, error) {
 		var m MyJudgment
 		var grade sql.NullInt64
 		var at string
@@ -45,11 +79,7 @@ func (s *Store) JudgmentsByAssessor(ctx context.Context, projectID, userID int64
 // how many first answers (not revisions, not withdrawn) they gave since the given time (the
 // start of their day, chosen by the caller).
 func (s *Store) JudgmentCountsByAssessor(ctx context.Context, projectID, userID int64, since time.Time) (today, overall int, err error) {
-	err = s.r.QueryRowContext(ctx, `SELECT
-			COALESCE(SUM(j.created_at >= ?3 AND j.supersedes IS NULL AND j.withdrawn_at IS NULL), 0),
-			COALESCE(SUM(j.current), 0)
-		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id
-		WHERE j.user_id = ?2 AND +p.project_id = ?1`, projectID, userID, timeText(since)).Scan(&today, &overall)
+	err = s.r.QueryRowContext(ctx, s.dialect(sqliteMyCountsSQL, postgresMyCountsSQL), projectID, userID, timeText(since)).Scan(&today, &overall)
 	return today, overall, err
 }
 
@@ -69,11 +99,7 @@ func (s *Store) FlaggedPairs(ctx context.Context, projectID int64, limit int) ([
 	if limit <= 0 || limit > 1000 {
 		limit = 100
 	}
-	return queryAll(ctx, s.r, `SELECT p.id, q.text, d.title, j.cannot_judge, COUNT(*)
-		FROM judgments j CROSS JOIN pairs p ON p.id = j.pair_id JOIN queries q ON q.id = p.query_id JOIN documents d ON d.id = p.document_id
-		WHERE j.current = 1 AND j.cannot_judge IS NOT NULL AND p.project_id = ?1
-		GROUP BY p.id, j.cannot_judge
-		ORDER BY j.cannot_judge = 'disturbing' DESC, COUNT(*) DESC, p.id LIMIT ?2`, func(r rowScanner) (FlaggedPair, error) {
+	return queryAll(ctx, s.r, s.dialect(sqliteFlaggedSQL, postgresFlaggedSQL), func(r rowScanner) (FlaggedPair, error) {
 		var f FlaggedPair
 		err := r.Scan(&f.PairID, &f.QueryText, &f.DocumentTitle, &f.Reason, &f.Count)
 		return f, err

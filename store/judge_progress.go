@@ -85,7 +85,8 @@ func (s *Store) JudgingProgress(ctx context.Context, projectID int64) (judged, n
 	e := progressEntry{}
 	err = s.readRow(ctx, `SELECT COALESCE((SELECT version FROM project_versions WHERE project_id = ?1), 0),
 			pr.judgments_per_pair, COALESCE(SUM(q.judged), 0), COALESCE(SUM(q.pairs), 0)
-		FROM projects pr LEFT JOIN query_progress q ON q.project_id = pr.id WHERE pr.id = ?1`, projectID).
+		FROM projects pr LEFT JOIN query_progress q ON q.project_id = pr.id WHERE pr.id = ?1
+		GROUP BY pr.judgments_per_pair`, projectID).
 		Scan(&e.version, &perPair, &e.judged, &e.pairs)
 	if err != nil {
 		return 0, 0, err

@@ -37,6 +37,9 @@ func (s *Store) SubmitAndNext(ctx context.Context, projectID int64, sub Submissi
 	var counted bool
 	err := s.grouped(ctx, func(ctx context.Context, tx *sql.Tx) error {
 		t = Turn{}
+		if err := s.lockProject(ctx, tx, projectID); err != nil {
+			return err
+		}
 		var err error
 		if before, err = s.projectVersion(ctx, tx, projectID); err != nil {
 			return err

@@ -56,6 +56,9 @@ func migrationsIn(files fs.FS) ([]Migration, error) {
 // last good step. Going by the record rather than by the highest number means a migration
 // merged out of order is still applied.
 func (s *Store) Migrate(ctx context.Context) error {
+	if s.pg {
+		return MigratePostgres(ctx, s.w)
+	}
 	if _, err := s.w.ExecContext(ctx, `CREATE TABLE IF NOT EXISTS schema_migrations (
 		version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL)`); err != nil {
 		return fmt.Errorf("store: migrate: %w", err)
@@ -103,5 +106,10 @@ func (s *Store) SchemaVersion(ctx context.Context) (int, error) {
 
 // Tables lists the user tables of the database, for checks of the schema.
 func (s *Store) Tables(ctx context.Context) ([]string, error) {
-	return queryAll(ctx, s.r, `SELECT name FROM sqlite_schema WHERE type = 'table' AND name NOT LIKE 'sqlite_%' ORDER BY name`, scanValue[string])
+	return queryAll(ctx, s.r, s.dialect(sqliteTablesSQL, postgresTablesSQL), scanValue[string])
 }
+
+const (
+	sqliteTablesSQL   = `SELECT name FROM sqlite_schema WHERE type = 'table' AND name NOT LIKE 'sqlite_%' ORDER BY name`
+	postgresTablesSQL = `SELECT tablename FROM pg_tables WHERE schemaname = current_schema() ORDER BY tablename`
+)

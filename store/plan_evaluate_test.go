@@ -1,6 +1,7 @@
 package store
 
 import (
+	"bytes"
 	"context"
 	"os"
 	"reflect"
@@ -156,10 +157,9 @@ func TestAddPooledPairs(t *testing.T) {
 	if err != nil || origin != "pool:alpha,beta" || priority != 2 || judged != 0 {
 		t.Errorf("new pair: origin %q priority %d judged %d (err %v); want pool:alpha,beta, 2, 0", origin, priority, judged, err)
 	}
-	var sources string
-	f.s.r.QueryRowContext(ctx, `SELECT group_concat(run || ':' || rank, ' ' ORDER BY run) FROM pair_sources WHERE pair_id IN
-		(SELECT p.id FROM pairs p JOIN documents d ON d.id = p.document_id WHERE d.external_id = 'q1-d4')`).Scan(&sources)
-	if sources != "alpha:2 beta:3" {
+	runs, _ := queryAll(ctx, f.s.r, `SELECT run || ':' || rank FROM pair_sources WHERE pair_id IN
+		(SELECT p.id FROM pairs p JOIN documents d ON d.id = p.document_id WHERE d.external_id = 'q1-d4') ORDER BY run`, scanValue[string])
+	if sources := strings.Join(runs, " "); sources != "alpha:2 beta:3" {
 		t.Errorf("pair sources %q, want alpha:2 beta:3", sources)
 	}
 	// The existing pair keeps its judgments and takes the higher priority.
@@ -207,9 +207,20 @@ func TestAPITokensAreStoredHashed(t *testing.T) {
 	if _, err := f.s.UserByAPIToken(ctx, token); err != ErrNotFound {
 		t.Errorf("revoked token: %v, want not found", err)
 	}
+	hash := tokenHash(token)
+	if f.s.Postgres() {
+		// No file to read: the stored row holds the hash and nothing of the token text.
+		var stored []byte
+		if err := f.s.r.QueryRowContext(ctx, `SELECT token_hash FROM api_tokens WHERE id = ?`, tok.ID).Scan(&stored); err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(stored, hash) {
+			t.Errorf("stored %x, want the token's SHA-256 %x", stored, hash)
+		}
+		return
+	}
 	// The token text is nowhere in the database files, its hash is.
 	f.s.Close()
-	hash := tokenHash(token)
 	found := false
 	for _, suffix := range []string{"", "-wal"} {
 		b, err := os.ReadFile(f.s.Path() + suffix)

@@ -180,7 +180,7 @@ func (s *Store) ProjectsByUser(ctx context.Context, u User) ([]ProjectListing, e
 			(SELECT COALESCE(SUM(x.judged), 0) FROM pairs x WHERE x.project_id = p.id),
 			(SELECT COUNT(*) FROM judgments j JOIN pairs x ON x.id = j.pair_id WHERE x.project_id = p.id AND j.user_id = ?1 AND j.current = 1)
 		FROM projects p LEFT JOIN project_members m ON m.project_id = p.id AND m.user_id = ?1
-		WHERE m.user_id IS NOT NULL OR ?2
+		WHERE m.user_id IS NOT NULL OR ?2 = 1
 		ORDER BY p.archived_at IS NOT NULL, p.name`, func(r rowScanner) (ProjectListing, error) {
 		var l ProjectListing
 		var role string

@@ -129,19 +129,27 @@ func (s *Store) SetProjectArchived(ctx context.Context, projectID int64, archive
 // GradeUses counts what in a project depends on the meaning of its grades: judgments (every
 // revision), adjudications and gold pairs. While any exist, the number of levels is fixed.
 func (s *Store) GradeUses(ctx context.Context, projectID int64) (int, error) {
-	return gradeUses(ctx, s.r, projectID)
+	return s.gradeUses(ctx, s.r, projectID)
 }
 
 type queryRower interface {
 	QueryRowContext(ctx context.Context, query string, args ...any) *sql.Row
 }
 
-func gradeUses(ctx context.Context, q queryRower, projectID int64) (int, error) {
-	var n int
-	err := q.QueryRowContext(ctx, `SELECT
+const (
+	sqliteGradeUsesSQL = `SELECT
 		(SELECT COUNT(*) FROM judgments j JOIN pairs x ON x.id = j.pair_id WHERE x.project_id = ?1 AND j.grade IS NOT NULL)
 		+ (SELECT COUNT(*) FROM adjudications a JOIN pairs x ON x.id = a.pair_id WHERE x.project_id = ?1)
-		+ (SELECT COUNT(*) FROM pairs INDEXED BY pairs_gold WHERE project_id = ?1 AND gold_grade IS NOT NULL)`, projectID).Scan(&n)
+		+ (SELECT COUNT(*) FROM pairs INDEXED BY pairs_gold WHERE project_id = ?1 AND gold_grade IS NOT NULL)`
+	postgresGradeUsesSQL = `SELECT
+		(SELECT COUNT(*) FROM judgments j JOIN pairs x ON x.id = j.pair_id WHERE x.project_id = ?1 AND j.grade IS NOT NULL)
+		+ (SELECT COUNT(*) FROM adjudications a JOIN pairs x ON x.id = a.pair_id WHERE x.project_id = ?1)
+		+ (SELECT COUNT(*) FROM pairs WHERE project_id = ?1 AND gold_grade IS NOT NULL)`
+)
+
+func (s *Store) gradeUses(ctx context.Context, q queryRower, projectID int64) (int, error) {
+	var n int
+	err := q.QueryRowContext(ctx, s.dialect(sqliteGradeUsesSQL, postgresGradeUsesSQL), projectID).Scan(&n)
 	return n, err
 }
 
@@ -175,7 +183,7 @@ func (s *Store) SetScale(ctx context.Context, projectID int64, levels []ScaleLev
 		action := "scale.relabel"
 		if old != len(levels) {
 			action = "scale.change"
-			uses, err := gradeUses(ctx, tx, projectID)
+			uses, err := s.gradeUses(ctx, tx, projectID)
 			if err != nil {
 				return err
 			}

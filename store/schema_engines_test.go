@@ -36,7 +36,7 @@ func TestPostgresMigrationsMatchSQLiteSchema(t *testing.T) {
 		t.Errorf("the migration sequences differ (migrations/ against migrations/postgres/):\n%s", d)
 	}
 
-	s := openTest(t)
+	s := openSQLiteTest(t) // SQLite against PostgreSQL, on either pass
 	db := migratedPostgres(t)
 	// Again: a no-op, as for SQLite.
 	if err := MigratePostgres(ctx, db); err != nil {
@@ -439,7 +439,7 @@ func postgresSchema(t *testing.T, db *sql.DB) []string {
 // same query progress, project versions and desk log, and usernames match whatever their case.
 func TestPostgresTriggersKeepWhatSQLitesKeep(t *testing.T) {
 	ctx := context.Background()
-	s := openTest(t)
+	s := openSQLiteTest(t) // SQLite against PostgreSQL, on either pass
 	db := migratedPostgres(t)
 	// Plain SQL both engines read alike, no parameters.
 	writes := []string{

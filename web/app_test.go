@@ -10,7 +10,6 @@ import (
 	"net/http/cookiejar"
 	"net/http/httptest"
 	"net/url"
-	"path/filepath"
 	"regexp"
 	"strconv"
 	"strings"
@@ -77,13 +76,19 @@ func withGuidelines(md string) fixtureOption {
 
 func newTestApp(tb testing.TB, opts ...fixtureOption) *testApp {
 	tb.Helper()
+	return newTestAppOn(tb, testDatabase(tb), opts...)
+}
+
+// newTestAppOn is newTestApp on the database at path (a file or a postgres:// string).
+func newTestAppOn(tb testing.TB, path string, opts ...fixtureOption) *testApp {
+	tb.Helper()
 	var f fixture
 	for _, o := range opts {
 		o(&f)
 	}
 	store.SetPasswordCost(bcrypt.MinCost)
 	ctx := context.Background()
-	st, err := store.Open(ctx, filepath.Join(tb.TempDir(), "test.db"))
+	st, err := store.Open(ctx, path)
 	if err != nil {
 		tb.Fatal(err)
 	}

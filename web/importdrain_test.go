@@ -13,19 +13,27 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"github.com/pertinent/pertinent/store"
 )
 
 // tableDump reads every row of every table of the database file, as text, in rowid order.
 // Sessions are left out: reading a page may touch the caller's session.
 func tableDump(t *testing.T, path string) map[string][]string {
 	t.Helper()
-	db, err := sql.Open("sqlite", "file:"+path+"?mode=ro")
+	driver, dsn := "sqlite", "file:"+path+"?mode=ro"
+	tablesSQL := `SELECT name FROM sqlite_schema WHERE type = 'table' AND name NOT LIKE 'sqlite_%' AND name != 'sessions'`
+	if store.IsPostgres(path) {
+		driver, dsn = "pgx", path
+		tablesSQL = `SELECT tablename FROM pg_tables WHERE schemaname = current_schema() AND tablename != 'sessions'`
+	}
+	db, err := sql.Open(driver, dsn)
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer db.Close()
 	ctx := context.Background()
-	rows, err := db.QueryContext(ctx, `SELECT name FROM sqlite_schema WHERE type = 'table' AND name NOT LIKE 'sqlite_%' AND name != 'sessions'`)
+	rows, err := db.QueryContext(ctx, tablesSQL)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -6,6 +6,8 @@ import (
 	"fmt"
 	"io"
 	"time"
+
+	"github.com/pertinent/pertinent/store"
 )
 
 // runMigrate applies pending migrations and prints the schema version reached.
@@ -21,7 +23,7 @@ func runMigrate(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	if err != nil {
 		return err
 	}
-	fmt.Fprintf(stdout, "%s is at schema version %d\n", *fs.db, v)
+	fmt.Fprintf(stdout, "%s is at schema version %d\n", store.DatabaseName(*fs.db), v)
 	return nil
 }
 
@@ -31,6 +33,10 @@ func runBackup(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	to := fs.String("to", "", "file to write the copy to; it must not exist")
 	if err := fs.Parse(args); err != nil {
 		return err
+	}
+	// Said before anything else: no --to makes a PostgreSQL database copyable here.
+	if store.IsPostgres(*fs.db) {
+		return store.ErrBackupPostgres
 	}
 	if *to == "" {
 		return errors.New("backup: --to FILE is required")

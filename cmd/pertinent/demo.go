@@ -24,7 +24,7 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return err
 	}
 	return serve(ctx, st, f, log, func(addr string) {
-		fmt.Fprintf(stdout, "pertinent demo: %s\nopen http://%s/ and sign in as one of:\n", *f.db, addr)
+		fmt.Fprintf(stdout, "pertinent demo: %s\nopen http://%s/ and sign in as one of:\n", store.DatabaseName(*f.db), addr)
 		for _, a := range accounts {
 			fmt.Fprintf(stdout, "%s %s %s\n", a.role, a.username, a.password)
 		}

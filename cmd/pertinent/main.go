@@ -99,7 +99,7 @@ func envBool(name string, def bool) bool {
 
 // dbFlag adds the --db flag shared by every command that opens the database.
 func dbFlag(fs *flag.FlagSet, def string) *string {
-	return fs.String("db", env("PERTINENT_DB", def), "SQLite database file (env PERTINENT_DB)")
+	return fs.String("db", env("PERTINENT_DB", def), "SQLite database file, or a postgres:// connection string (env PERTINENT_DB)")
 }
 
 // openProject opens the database and finds a project by name; the caller closes the store.
@@ -113,7 +113,7 @@ func openProject(ctx context.Context, db, name string) (*store.Store, store.Proj
 	if err != nil {
 		st.Close()
 		if errors.Is(err, store.ErrNotFound) {
-			err = fmt.Errorf("no project named %q in %s", name, db)
+			err = fmt.Errorf("no project named %q in %s", name, store.DatabaseName(db))
 		}
 		return nil, store.Project{}, err
 	}
@@ -126,8 +126,8 @@ func newFlags(name string, stderr io.Writer) *flag.FlagSet {
 	return fs
 }
 
-// dbFlags is the flag set of a command that works on one database file: --db (default
-// pertinent.db) plus the command's own flags.
+// dbFlags is the flag set of a command that works on one database: --db (default
+// pertinent.db, or a postgres:// connection string) plus the command's own flags.
 type dbFlags struct {
 	*flag.FlagSet
 	db *string

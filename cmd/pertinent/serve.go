@@ -67,7 +67,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	}
 	defer st.Close()
 	return serve(ctx, st, f, log, func(addr string) {
-		fmt.Fprintf(stdout, "pertinent is serving %s at http://%s/\n", *f.db, addr)
+		fmt.Fprintf(stdout, "pertinent is serving %s at http://%s/\n", store.DatabaseName(*f.db), addr)
 	})
 }
 

@@ -1,0 +1,174 @@
+package store
+
+import (
+	"context"
+	"errors"
+	"sync"
+	"testing"
+
+	"github.com/pertinent/pertinent/internal/pgtest"
+)
+
+// The placeholders are translated as SQLite numbers them, and nothing quoted is touched.
+func TestPlaceholdersBecomePostgres(t *testing.T) {
+	for _, c := range []struct{ in, want string }{
+		{`SELECT 1`, `SELECT 1`},
+		{`SELECT * FROM t WHERE a = ? AND b = ?`, `SELECT * FROM t WHERE a = $1 AND b = $2`},
+		{`WHERE a = ?2 AND b = ?1 OR c = ?2`, `WHERE a = $2 AND b = $1 OR c = $2`},
+		// A bare ? after ?N takes the next number after the highest so far, as in SQLite.
+		{`VALUES (?3, ?, ?)`, `VALUES ($3, $4, $5)`},
+		{`SELECT ?1, ?, ?10`, `SELECT $1, $2, $10`},
+		{`SELECT 'a?b', "c?", ? -- is it?` + "\n" + `, ?`, `SELECT 'a?b', "c?", $1 -- is it?` + "\n" + `, $2`},
+		{`SELECT /* ? */ ?`, `SELECT /* ? */ $1`},
+		{`SELECT 'it''s ?', ?`, `SELECT 'it''s ?', $1`},
+		{`DO $$ BEGIN PERFORM '?'; END $$; SELECT ?`, `DO $$ BEGIN PERFORM '?'; END $$; SELECT $1`},
+		{`SELECT $tag$ ? $tag$, ?`, `SELECT $tag$ ? $tag$, $1`},
+		{`SELECT $1 FROM t`, `SELECT $1 FROM t`},
+	} {
+		if got := translatePlaceholders(c.in); got != c.want {
+			t.Errorf("translatePlaceholders(%q)\n got %q\nwant %q", c.in, got, c.want)
+		}
+		if got := pgText(c.in); got != c.want {
+			t.Errorf("pgText(%q) = %q from the cache, want %q", c.in, got, c.want)
+		}
+	}
+}
+
+// Two instances on one PostgreSQL database (two Stores, each with its own pool and caches)
+// serve eight assessors at once, each assessor's requests alternating between them: every
+// pair ends with exactly the judgments it needs, never more, the counters the triggers keep
+// agree with a recount, and each instance's cached progress and desk show the other's writes.
+func TestTwoInstancesShareOneProjectOnPostgres(t *testing.T) {
+	dsn := pgtest.New(t)
+	a, b := openAt(t, dsn), openAt(t, dsn)
+	ctx := context.Background()
+	p, _, pairs, users := fixture(t, a, 6, 5, 8)
+	instances := []*Store{a, b}
+
+	// Both instances cache the project before any judging: what follows must move them on.
+	for _, s := range instances {
+		if judged, _, err := s.JudgingProgress(ctx, p.ID); err != nil || judged != 0 {
+			t.Fatalf("progress before judging: %d, %v", judged, err)
+		}
+		if _, err := s.Desk(ctx, p.ID); err != nil {
+			t.Fatal(err)
+		}
+	}
+
+	var wg sync.WaitGroup
+	errs := make([]error, len(users))
+	for i, u := range users {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			turn := i // which instance serves this assessor's next request
+			serve := func() *Store { turn++; return instances[turn%2] }
+			v, err := serve().NextPair(ctx, p.ID, u)
+			for err == nil {
+				g := int(v.PairID % 4)
+				var tr Turn
+				tr, err = serve().SubmitAndNext(ctx, p.ID, Submission{PairID: v.PairID, UserID: u, Grade: &g})
+				if err != nil || tr.NoWork {
+					break
+				}
+				v = tr.Next
+			}
+			if errors.Is(err, ErrNoWork) {
+				err = nil
+			}
+			errs[i] = err
+		}()
+	}
+	wg.Wait()
+	for i, err := range errs {
+		if err != nil {
+			t.Errorf("assessor %d: %v", i, err)
+		}
+	}
+
+	perPair := map[int64]int{}
+	err := eachRow(ctx, a.r, `SELECT pair_id, COUNT(*) FROM judgments WHERE current = 1 GROUP BY pair_id`, func(r rowScanner) error {
+		var id int64
+		var n int
+		err := r.Scan(&id, &n)
+		perPair[id] = n
+		return err
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, id := range pairs {
+		if perPair[id] != 2 {
+			t.Errorf("pair %d has %d current judgments, want exactly the 2 it needs", id, perPair[id])
+		}
+	}
+	checkProgress(t, a, "after two instances judged")
+	want := 2 * len(pairs)
+	for i, s := range instances {
+		judged, needed, err := s.JudgingProgress(ctx, p.ID)
+		if err != nil || judged != want || needed != want {
+			t.Errorf("instance %d: progress %d of %d (%v), want %d of %d", i, judged, needed, err, want, want)
+		}
+		d, err := s.Desk(ctx, p.ID)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if d.Progress.Judgments != want || d.Progress.Done != len(pairs) {
+			t.Errorf("instance %d: desk shows %d judgments, %d pairs done; want %d and %d", i, d.Progress.Judgments, d.Progress.Done, want, len(pairs))
+		}
+	}
+
+	// A change through one instance shows in the other's next read: a lead's new pair.
+	err = b.Load(ctx, p.ID, func(l *Loader) error {
+		q, err := l.Query(Query{ExternalID: "late", Text: "late query"})
+		if err != nil {
+			return err
+		}
+		d, err := l.Document(Document{ExternalID: "late-doc"})
+		if err != nil {
+			return err
+		}
+		_, err = l.Pair(PairSpec{QueryID: q, DocumentID: d})
+		return err
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, needed, err := a.JudgingProgress(ctx, p.ID); err != nil || needed != want+2 {
+		t.Errorf("instance a after b added a pair: needed %d (%v), want %d", needed, err, want+2)
+	}
+	if d, err := a.Desk(ctx, p.ID); err != nil || d.Progress.Untouched != 1 {
+		t.Errorf("instance a's desk after b added a pair: %+v (%v), want one untouched pair", d.Progress, err)
+	}
+}
+
+// Instances starting together on a new PostgreSQL database agree on the session keys, so a
+// cookie one of them signed is good at every other.
+func TestInstancesStartingTogetherShareSessionKeys(t *testing.T) {
+	dsn := pgtest.New(t)
+	const n = 4
+	stores := make([]*Store, n)
+	for i := range stores {
+		stores[i] = openAt(t, dsn)
+	}
+	keys := make([][]byte, n)
+	errs := make([]error, n)
+	var wg sync.WaitGroup
+	for i, s := range stores {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			h, b, err := s.SessionKeys(context.Background())
+			keys[i], errs[i] = append(h, b...), err
+		}()
+	}
+	wg.Wait()
+	for i := range stores {
+		if errs[i] != nil {
+			t.Fatalf("instance %d: %v", i, errs[i])
+		}
+		if string(keys[i]) != string(keys[0]) || len(keys[i]) != 96 {
+			t.Errorf("instance %d has other session keys than instance 0", i)
+		}
+	}
+}
