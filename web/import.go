@@ -270,11 +270,18 @@ func (s *Server) importSubmit(w http.ResponseWriter, r *http.Request) {
 		job.files = append(job.files, f.name)
 		job.total += f.size
 	}
-	if err := s.store.CreateImportJob(r.Context(), store.ImportJob{ID: job.id, ProjectID: p.ID, Kind: job.kind,
-		Files: job.files, Total: job.total}); err != nil {
-		removeAll(tmp)
-		s.storeError(w, r, err)
-		return
+	row := store.ImportJob{ID: job.id, ProjectID: p.ID, Kind: job.kind, Files: job.files, Total: job.total}
+	// On PostgreSQL the job's row is written before the answer, so that the poll finds it
+	// whichever instance it reaches. On SQLite, served by one instance, it is written in the
+	// background: a running import holds the one writer, and the answer to this upload need
+	// not wait for it, since this instance shows its own jobs from memory meanwhile.
+	pg := s.store.Postgres()
+	if pg {
+		if err := s.store.CreateImportJob(r.Context(), row); err != nil {
+			removeAll(tmp)
+			s.storeError(w, r, err)
+			return
+		}
 	}
 	s.jobs.add(job)
 	if !s.jobs.hold() { // the server began to stop during the upload
@@ -285,6 +292,11 @@ func (s *Server) importSubmit(w http.ResponseWriter, r *http.Request) {
 	}
 	go func() {
 		defer s.jobs.release()
+		if !pg {
+			if err := s.store.CreateImportJob(s.jobs.ctx, row); err != nil {
+				s.log.Error("import job: recording it failed; it is shown by this instance only", "err", err)
+			}
+		}
 		s.runImportJob(s.jobs.ctx, job, u.ID, spec, tmp)
 	}()
 	http.Redirect(w, r, fmt.Sprintf("/projects/%d/import/%s", p.ID, job.id), http.StatusSeeOther)
