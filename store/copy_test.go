@@ -248,4 +248,3 @@ func TestCopyTablesAreLiterals(t *testing.T) {
 		t.Fatalf("only %d fields read", n)
 	}
 }
-
