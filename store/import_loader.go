@@ -47,7 +47,7 @@ type Loader struct {
 
 // Load runs fn with a Loader for the project and commits when fn returns nil.
 func (s *Store) Load(ctx context.Context, projectID int64, fn func(*Loader) error) error {
-	return s.write(ctx, func(tx *sql.Tx) error {
+	err := s.write(ctx, func(tx *sql.Tx) error {
 		l := &Loader{ctx: ctx, s: s, tx: tx, project: projectID}
 		var stmts []*sql.Stmt
 		defer func() {
@@ -72,6 +72,10 @@ func (s *Store) Load(ctx context.Context, projectID int64, fn func(*Loader) erro
 		}
 		return fn(l)
 	})
+	if err != nil {
+		return err
+	}
+	return s.analyzeAfterLoad(ctx, true)
 }
 
 // Query adds or updates a query by its external id and returns its id.

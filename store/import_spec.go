@@ -167,12 +167,13 @@ func (s *Store) Import(ctx context.Context, projectID, by int64, spec ImportSpec
 		return s.audit(ctx, tx, by, projectID, "import."+string(spec.Kind), strings.Join(rep.Files, ", "), im.summary())
 	})
 	if errors.Is(err, errDryRun) {
-		err = nil
+		return rep, nil
 	}
 	if err != nil {
 		rep.Counts, rep.Notes = nil, nil
+		return rep, err
 	}
-	return rep, err
+	return rep, s.analyzeAfterLoad(ctx, rep.Changed())
 }
 
 // importTx is Store.write for imports. Every upsert keeps a statement journal (the pages it

@@ -50,8 +50,10 @@ func sqlReceiver(x ast.Expr) bool {
 	return false
 }
 
-// trustedSQL are the non-constant SQL texts allowed: the migration files embedded in the binary.
-var trustedSQL = map[string]bool{"m.SQL": true}
+// trustedSQL are the non-constant SQL texts allowed: the migration files embedded in the
+// binary, and the statements of copy_tables.go's table list, which holds string literals only
+// (TestCopyTablesAreLiterals).
+var trustedSQL = map[string]bool{"m.SQL": true, "t.read": true, "t.clear": true, "t.disable": true, "t.enable": true}
 
 func exprText(e ast.Expr) string {
 	if s, ok := e.(*ast.SelectorExpr); ok {
@@ -168,6 +170,9 @@ func TestSQLIsNeverBuiltFromValues(t *testing.T) {
 						continue
 					}
 					arg := call.Args[i]
+					if id, ok := arg.(*ast.Ident); ok && id.Name == "ctx" && len(call.Args) > i+1 {
+						arg = call.Args[i+1] // pgx's own methods take the context first
+					}
 					checked++
 					if !constant(arg) && !trustedSQL[exprText(arg)] {
 						t.Errorf("%s: SQL passed to %s is built at run time; use a constant and parameters", fset.Position(arg.Pos()), name)

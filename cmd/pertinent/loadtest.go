@@ -22,17 +22,21 @@ import (
 	"sync"
 	"time"
 
+	_ "github.com/jackc/pgx/v5/stdlib" // pgbench's probe table on PostgreSQL
 	"golang.org/x/crypto/bcrypt"
 
 	"github.com/pertinent/pertinent/store"
 )
 
-// runLoadtest drives virtual assessors through sign-in and submit-and-next against a real
-// server on loopback, then measures the raw commit rate of the same SQLite file for scale.
+// runLoadtest drives virtual assessors through sign-in and submit-and-next against real
+// servers on loopback, then measures the ceiling the database puts on writes for scale: the
+// raw commit rate of the same SQLite file, or pgbench's single-row insert transactions on
+// the same PostgreSQL cluster.
 func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("loadtest", stderr)
 	target := fs.String("target", "", "base URL of a running server on loopback (default: start one)")
-	db := fs.String("db", "", "database file of the target server, or of the started one (default: a new temporary file)")
+	db := fs.String("db", "", "database of the target server, or of the started ones: a file (default: a new temporary file) or postgres://...")
+	instances := fs.Int("instances", 1, "servers to start on the database and spread the assessors over (more than one needs postgres://)")
 	assessors := fs.Int("assessors", 200, "virtual assessors")
 	pairs := fs.Int("pairs", 20000, "pairs in the throwaway project")
 	needed := fs.Int("needed", 3, "judgments needed per pair")
@@ -41,8 +45,12 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
-	if *assessors < 1 || *pairs < 1 || *needed < 1 || *duration <= 0 {
-		return errors.New("loadtest: --assessors, --pairs, --needed and --duration must be positive")
+	if *assessors < 1 || *pairs < 1 || *needed < 1 || *duration <= 0 || *instances < 1 {
+		return errors.New("loadtest: --assessors, --pairs, --needed, --instances and --duration must be positive")
+	}
+	pg := store.IsPostgres(*db)
+	if *instances > 1 && (!pg || *target != "") {
+		return errors.New("loadtest: several instances share one PostgreSQL database: give --db postgres://... and no --target")
 	}
 	if *db == "" {
 		dir, err := os.MkdirTemp("", "pertinent-load-")
@@ -52,21 +60,26 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 		defer os.RemoveAll(dir)
 		*db = filepath.Join(dir, "load.db")
 	}
-	base := *target
-	var server *exec.Cmd
-	if base == "" {
-		var err error
-		server, base, err = startServer(ctx, *db, stderr)
-		if err != nil {
+	bases := []string{*target}
+	var servers []*exec.Cmd
+	if *target == "" {
+		bases = nil
+		for range *instances {
+			server, base, err := startServer(ctx, *db, stderr)
+			if err != nil {
+				return err
+			}
+			defer func() {
+				server.Process.Signal(os.Interrupt)
+				server.Wait()
+			}()
+			servers, bases = append(servers, server), append(bases, base)
+		}
+	}
+	for _, b := range bases {
+		if err := loopbackOnly(b); err != nil {
 			return err
 		}
-		defer func() {
-			server.Process.Signal(os.Interrupt)
-			server.Wait()
-		}()
-	}
-	if err := loopbackOnly(base); err != nil {
-		return err
 	}
 
 	fmt.Fprintf(stdout, "setting up a throwaway project: %d pairs, %d assessors, %d judgments each\n", *pairs, *assessors, *needed)
@@ -74,23 +87,45 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	if err != nil {
 		return err
 	}
-	fmt.Fprintf(stdout, "driving %s for %s\n", base, *duration)
-	var cpu0 time.Duration
-	if server != nil {
-		cpu0 = processCPU(server.Process.Pid)
+	fmt.Fprintf(stdout, "driving %s for %s\n", strings.Join(bases, " and "), *duration)
+	serversCPU := func() (cpu time.Duration) {
+		for _, s := range servers {
+			cpu += processCPU(s.Process.Pid)
+		}
+		return cpu
 	}
-	res := drive(ctx, base, project, users, *duration, *count)
+	cpu0 := serversCPU()
+	res := drive(ctx, bases, project, users, *duration, *count)
 	var rss, cpuPer string
-	if server != nil {
-		rss = peakRSS(server.Process.Pid)
+	if len(servers) > 0 {
+		var peaks []string
+		for _, s := range servers {
+			peaks = append(peaks, peakRSS(s.Process.Pid))
+		}
+		rss = strings.Join(peaks, " + ")
 		// CPU per judgment holds still when other work shares the machine; the rate does not.
-		if cpu := processCPU(server.Process.Pid) - cpu0; cpu > 0 && res.ok > 0 {
+		if cpu := serversCPU() - cpu0; cpu > 0 && res.ok > 0 {
 			cpuPer = (cpu / time.Duration(res.ok)).Round(time.Microsecond).String()
 		}
 	}
-	commits, err := commitRate(ctx, *db, 2*time.Second)
-	if err != nil {
-		return err
+	var ceiling float64
+	var ceilingText string
+	if pg {
+		one, err := pgbenchRate(ctx, *db, 1, 2*time.Second)
+		if err != nil {
+			return err
+		}
+		eight, err := pgbenchRate(ctx, *db, 8, 2*time.Second)
+		if err != nil {
+			return err
+		}
+		ceiling = one
+		ceilingText = fmt.Sprintf("pgbench single-row insert transactions on the same cluster: %.0f/s with 1 client (one writer, as the judging path of one project), %.0f/s with 8", one, eight)
+	} else {
+		if ceiling, err = commitRate(ctx, *db, 2*time.Second); err != nil {
+			return err
+		}
+		ceilingText = fmt.Sprintf("raw SQLite commits (single-row write transactions, same file and driver): %.0f/s", ceiling)
 	}
 	rate := float64(res.ok) / res.elapsed.Seconds()
 	p50, p95, p99 := res.percentile(50), res.percentile(95), res.percentile(99)
@@ -102,9 +137,9 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	if rss != "" {
 		fmt.Fprintf(stdout, "server peak RSS: %s; server CPU per judgment (sign-in excluded): %s\n", rss, cpuPer)
 	}
-	fmt.Fprintf(stdout, "raw SQLite commits (single-row write transactions, same file and driver): %.0f/s\n", commits)
-	fmt.Fprintf(stdout, "summary: %d assessors, %.0f judgments/s, p50 %s p95 %s p99 %s, %d errors, rss %s, cpu/judgment %s, %.2f of the raw commit rate\n",
-		len(users), rate, p50, p95, p99, res.errors, orDash(rss), orDash(cpuPer), rate/commits)
+	fmt.Fprintln(stdout, ceilingText)
+	fmt.Fprintf(stdout, "summary: %d assessors on %d instance(s), %.0f judgments/s, p50 %s p95 %s p99 %s, %d errors, rss %s, cpu/judgment %s, %.2f of the ceiling\n",
+		len(users), len(bases), rate, p50, p95, p99, res.errors, orDash(rss), orDash(cpuPer), rate/ceiling)
 	return nil
 }
 
@@ -252,7 +287,7 @@ func (r *loadResult) percentile(p int) time.Duration {
 
 // drive signs every virtual assessor in, then lets them all judge until the time or count
 // runs out or no work is left. Only the judging phase is timed.
-func drive(ctx context.Context, base string, project int64, users []loadUser, d time.Duration, count int) *loadResult {
+func drive(ctx context.Context, bases []string, project int64, users []loadUser, d time.Duration, count int) *loadResult {
 	res := &loadResult{}
 	tr := &http.Transport{MaxIdleConnsPerHost: len(users), IdleConnTimeout: time.Minute}
 	defer tr.CloseIdleConnections()
@@ -267,7 +302,7 @@ func drive(ctx context.Context, base string, project int64, users []loadUser, d 
 			defer wg.Done()
 			sem <- struct{}{}
 			defer func() { <-sem }()
-			if err := loadSignIn(ctx, c, base, u); err != nil {
+			if err := loadSignIn(ctx, c, bases[i%len(bases)], u); err != nil {
 				res.record(0, err)
 				return
 			}
@@ -283,7 +318,6 @@ func drive(ctx context.Context, base string, project int64, users []loadUser, d 
 			budget <- struct{}{}
 		}
 	}
-	judgeURL := fmt.Sprintf("%s/projects/%d/judge", base, project)
 	ctx, cancel := context.WithTimeout(ctx, d)
 	defer cancel()
 	start := time.Now()
@@ -292,6 +326,9 @@ func drive(ctx context.Context, base string, project int64, users []loadUser, d 
 			continue
 		}
 		wg.Add(1)
+		// Each assessor stays on one instance: sessions live in the database, so any would
+		// do, and spreading them evenly is what a load balancer does.
+		judgeURL := fmt.Sprintf("%s/projects/%d/judge", bases[i%len(bases)], project)
 		go func() {
 			defer wg.Done()
 			rng := rand.New(rand.NewPCG(uint64(i), 42))
@@ -398,6 +435,58 @@ func commitRate(ctx context.Context, db string, d time.Duration) (float64, error
 		n++
 	}
 	return float64(n) / time.Since(start).Seconds(), nil
+}
+
+// pgbenchRate runs pgbench on the same PostgreSQL database for d: single-row insert
+// transactions into a table of its own (made and dropped here) from the given number of
+// clients, and returns their rate. pgbench comes with Debian's postgresql package.
+func pgbenchRate(ctx context.Context, dsn string, clients int, d time.Duration) (float64, error) {
+	bin, err := postgresTool("pgbench")
+	if err != nil {
+		return 0, err
+	}
+	db, err := sql.Open("pgx", dsn)
+	if err != nil {
+		return 0, err
+	}
+	defer db.Close()
+	if _, err := db.ExecContext(ctx, `CREATE TABLE IF NOT EXISTS load_commit_probe (id bigint GENERATED BY DEFAULT AS IDENTITY PRIMARY KEY, v bigint NOT NULL)`); err != nil {
+		return 0, err
+	}
+	defer db.ExecContext(context.Background(), `DROP TABLE load_commit_probe`)
+	dir, err := os.MkdirTemp("", "pertinent-pgbench-")
+	if err != nil {
+		return 0, err
+	}
+	defer os.RemoveAll(dir)
+	script := filepath.Join(dir, "insert.sql")
+	if err := os.WriteFile(script, []byte("INSERT INTO load_commit_probe(v) VALUES (1);\n"), 0o600); err != nil {
+		return 0, err
+	}
+	out, err := exec.CommandContext(ctx, bin, "-n", "-c", strconv.Itoa(clients), "-j", strconv.Itoa(min(clients, 2)),
+		"-T", strconv.Itoa(int(d.Seconds())), "-f", script, dsn).CombinedOutput()
+	if err != nil {
+		return 0, fmt.Errorf("pgbench: %v\n%s", err, out)
+	}
+	m := regexp.MustCompile(`tps = ([0-9.]+)`).FindSubmatch(out)
+	if m == nil {
+		return 0, fmt.Errorf("pgbench printed no rate:\n%s", out)
+	}
+	return strconv.ParseFloat(string(m[1]), 64)
+}
+
+// postgresTool finds one of PostgreSQL's programs: on PATH, or where Debian keeps the newest
+// version's (/usr/lib/postgresql/<version>/bin).
+func postgresTool(name string) (string, error) {
+	if p, err := exec.LookPath(name); err == nil {
+		return p, nil
+	}
+	found, _ := filepath.Glob("/usr/lib/postgresql/*/bin/" + name)
+	if len(found) == 0 {
+		return "", fmt.Errorf("loadtest: %s not found (Debian package postgresql)", name)
+	}
+	slices.Sort(found)
+	return found[len(found)-1], nil
 }
 
 // processCPU reads a process's user and system CPU time from /proc (Linux; 0 elsewhere).

@@ -27,6 +27,7 @@ var commands = map[string]command{
 	"migrate":   {runMigrate, "apply pending database migrations"},
 	"user":      {runUser, "manage accounts: add, list, disable, enable, set-password"},
 	"backup":    {runBackup, "copy a live database to a new file, consistently"},
+	"copy":      {runCopy, "move an installation from its SQLite file into a PostgreSQL database, checked row for row"},
 	"loadtest":  {runLoadtest, "drive virtual assessors against a server on loopback and report throughput"},
 	"agreement": {runAgreement, "inter-assessor agreement of a CSV of judgments or of a project"},
 	"export":    {runExport, "write a project's final grades as a training set (SVMlight, qrels, CSV, JSONL) with a manifest"},
