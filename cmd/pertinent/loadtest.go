@@ -44,6 +44,10 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	if *assessors < 1 || *pairs < 1 || *needed < 1 || *duration <= 0 {
 		return errors.New("loadtest: --assessors, --pairs, --needed and --duration must be positive")
 	}
+	// The report compares the judging rate with the SQLite file's own commit rate.
+	if store.IsPostgres(*db) {
+		return errors.New("loadtest: --db must be a SQLite file; it measures that file's commit rate beside the judging rate")
+	}
 	if *db == "" {
 		dir, err := os.MkdirTemp("", "pertinent-load-")
 		if err != nil {

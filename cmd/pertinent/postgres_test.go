@@ -149,3 +149,12 @@ func TestBackupOnPostgresPointsToPgDump(t *testing.T) {
 		t.Fatalf("backup on PostgreSQL: %v, want a message naming pg_dump", err)
 	}
 }
+
+// loadtest compares with a SQLite file's commit rate, so it refuses a PostgreSQL database.
+func TestLoadtestRefusesPostgres(t *testing.T) {
+	var stdout, stderr bytes.Buffer
+	err := run(context.Background(), []string{"loadtest", "--db", "postgres://pertinent@localhost/nowhere"}, &stdout, &stderr)
+	if err == nil || !strings.Contains(err.Error(), "SQLite file") {
+		t.Fatalf("loadtest on PostgreSQL: %v, want a refusal naming the SQLite file", err)
+	}
+}
