@@ -48,6 +48,10 @@ type Loader struct {
 // Load runs fn with a Loader for the project and commits when fn returns nil.
 func (s *Store) Load(ctx context.Context, projectID int64, fn func(*Loader) error) error {
 	err := s.write(ctx, func(tx *sql.Tx) error {
+		// The Loader writes pairs and judgments: one project's writer at a time, as for imports.
+		if err := s.lockProject(ctx, tx, projectID); err != nil {
+			return err
+		}
 		l := &Loader{ctx: ctx, s: s, tx: tx, project: projectID}
 		var stmts []*sql.Stmt
 		defer func() {

@@ -18,7 +18,7 @@ import (
 func (s *Store) AddPooledPairs(ctx context.Context, projectID int64, pool []ingest.PoolPair, by int64) (added int, missing []string, err error) {
 	err = s.write(ctx, func(tx *sql.Tx) error {
 		added, missing = 0, nil
-		p, err := lockedProject(ctx, tx, projectID)
+		p, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
 		}

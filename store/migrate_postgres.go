@@ -16,6 +16,9 @@ const (
 	pgLockMigrations   = `LOCK TABLE schema_migrations IN SHARE ROW EXCLUSIVE MODE`
 	pgMigrationApplied = `SELECT EXISTS (SELECT 1 FROM schema_migrations WHERE version = $1)`
 	pgRecordMigration  = `INSERT INTO schema_migrations(version, name, applied_at) VALUES ($1, $2, $3)`
+	// The key is any constant of our own: advisory locks are per database.
+	pgLockMigrate   = `SELECT pg_advisory_lock(7250101)`
+	pgUnlockMigrate = `SELECT pg_advisory_unlock(7250101)`
 )
 
 // MigratePostgres applies to db every PostgreSQL migration not yet recorded in
@@ -25,7 +28,20 @@ const (
 // as github.com/jackc/pgx/v5/stdlib's; migrations with several statements run as one
 // statement without parameters, which pgx sends over the simple protocol.
 func MigratePostgres(ctx context.Context, db *sql.DB) error {
-	if _, err := db.ExecContext(ctx, pgCreateMigrations); err != nil {
+	// Instances starting together on a new database would race on creating
+	// schema_migrations itself (PostgreSQL's CREATE TABLE IF NOT EXISTS is not safe against
+	// a concurrent one), so the whole migration holds a session advisory lock on one
+	// connection; a second instance waits, then finds everything recorded.
+	conn, err := db.Conn(ctx)
+	if err != nil {
+		return fmt.Errorf("store: migrate: %w", err)
+	}
+	defer conn.Close()
+	if _, err := conn.ExecContext(ctx, pgLockMigrate); err != nil {
+		return fmt.Errorf("store: migrate: %w", err)
+	}
+	defer conn.ExecContext(context.WithoutCancel(ctx), pgUnlockMigrate)
+	if _, err := conn.ExecContext(ctx, pgCreateMigrations); err != nil {
 		return fmt.Errorf("store: migrate: %w", err)
 	}
 	all, err := PostgresMigrations()
@@ -33,7 +49,7 @@ func MigratePostgres(ctx context.Context, db *sql.DB) error {
 		return err
 	}
 	for _, m := range all {
-		if err := pgApply(ctx, db, m); err != nil {
+		if err := pgApply(ctx, conn, m); err != nil {
 			return fmt.Errorf("store: migration %s: %w", m.Name, err)
 		}
 	}
@@ -41,7 +57,7 @@ func MigratePostgres(ctx context.Context, db *sql.DB) error {
 }
 
 // pgApply runs one migration and records it, unless it is recorded already.
-func pgApply(ctx context.Context, db *sql.DB, m Migration) error {
+func pgApply(ctx context.Context, db *sql.Conn, m Migration) error {
 	tx, err := db.BeginTx(ctx, nil)
 	if err != nil {
 		return err

@@ -155,7 +155,7 @@ func (s *Store) PlanJudging(ctx context.Context, projectID, by int64, req PlanRe
 		return PlanOutcome{}, err
 	}
 	err = s.write(ctx, func(tx *sql.Tx) error {
-		p, err := lockedProject(ctx, tx, projectID)
+		p, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
 		}
@@ -429,7 +429,7 @@ func (s *Store) AdvanceDesign(ctx context.Context, projectID, by, designID int64
 		return 0, err
 	}
 	err = s.write(ctx, func(tx *sql.Tx) error {
-		if _, err := lockedProject(ctx, tx, projectID); err != nil {
+		if _, err := s.lockedProject(ctx, tx, projectID); err != nil {
 			return err
 		}
 		if err := s.insertChoices(ctx, tx, projectID, designID, plan.Choices); err != nil {

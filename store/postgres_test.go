@@ -172,3 +172,38 @@ func TestInstancesStartingTogetherShareSessionKeys(t *testing.T) {
 		}
 	}
 }
+
+// Instances started together on a new, empty database all open it: one migrates, the others
+// wait and find the schema in place.
+func TestInstancesStartingTogetherMigrateOnce(t *testing.T) {
+	dsn := pgtest.New(t)
+	const n = 4
+	errs := make([]error, n)
+	var wg sync.WaitGroup
+	for i := range n {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			s, err := Open(context.Background(), dsn)
+			if err == nil {
+				s.Close()
+			}
+			errs[i] = err
+		}()
+	}
+	wg.Wait()
+	for i, err := range errs {
+		if err != nil {
+			t.Errorf("instance %d: %v", i, err)
+		}
+	}
+	s := openAt(t, dsn)
+	var applied, want int
+	if err := s.r.QueryRow(`SELECT COUNT(*) FROM schema_migrations`).Scan(&applied); err != nil {
+		t.Fatal(err)
+	}
+	all, _ := PostgresMigrations()
+	if want = len(all); applied != want {
+		t.Errorf("%d migrations recorded, want %d, each once", applied, want)
+	}
+}

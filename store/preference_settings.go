@@ -29,7 +29,7 @@ func (s *Store) SetTaskKind(ctx context.Context, projectID int64, kind string, t
 		return errorf(CodeInvalid, "a project asks for grades or for preferences, not "+kind)
 	}
 	return s.write(ctx, func(tx *sql.Tx) error {
-		p, err := lockedProject(ctx, tx, projectID)
+		p, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
 		}

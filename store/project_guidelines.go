@@ -58,7 +58,7 @@ func (s *Store) ReviseGuidelines(ctx context.Context, projectID int64, body stri
 	}
 	var g Guidelines
 	err := s.write(ctx, func(tx *sql.Tx) error {
-		p, err := lockedProject(ctx, tx, projectID)
+		p, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
 		}

@@ -33,7 +33,7 @@ func (s *Store) Members(ctx context.Context, projectID int64) ([]Member, error) 
 // leased go back to the pool at once.
 func (s *Store) DeleteMember(ctx context.Context, projectID, userID int64, by int64) error {
 	return s.write(ctx, func(tx *sql.Tx) error {
-		p, err := lockedProject(ctx, tx, projectID)
+		p, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
 		}

@@ -232,7 +232,7 @@ func (s *Store) SetMember(ctx context.Context, projectID, userID int64, role Rol
 		return errorf(CodeInvalid, "a project member is a lead or an assessor")
 	}
 	return s.write(ctx, func(tx *sql.Tx) error {
-		p, err := lockedProject(ctx, tx, projectID)
+		p, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
 		}

@@ -43,8 +43,12 @@ func (ps *ProjectSettings) validate() error {
 }
 
 // lockedProject reads a project inside a write transaction and refuses changes to an
-// archived one: archived projects are read-only until restored.
-func lockedProject(ctx context.Context, tx *sql.Tx, projectID int64) (Project, error) {
+// archived one: archived projects are read-only until restored. On PostgreSQL it takes the
+// project's lock first (lockProject), so the change and the judging path never interleave.
+func (s *Store) lockedProject(ctx context.Context, tx *sql.Tx, projectID int64) (Project, error) {
+	if err := s.lockProject(ctx, tx, projectID); err != nil {
+		return Project{}, err
+	}
 	p, err := scanProject(tx.QueryRowContext(ctx, `SELECT `+projectColumns+` FROM projects WHERE id = ?`, projectID))
 	if err != nil {
 		return p, err
@@ -61,7 +65,7 @@ func (s *Store) UpdateProject(ctx context.Context, projectID int64, ps ProjectSe
 		return err
 	}
 	err := s.write(ctx, func(tx *sql.Tx) error {
-		old, err := lockedProject(ctx, tx, projectID)
+		old, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
 		}
@@ -168,7 +172,7 @@ func (s *Store) SetScale(ctx context.Context, projectID int64, levels []ScaleLev
 		return err
 	}
 	return s.write(ctx, func(tx *sql.Tx) error {
-		p, err := lockedProject(ctx, tx, projectID)
+		p, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
 		}

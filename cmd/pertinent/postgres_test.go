@@ -149,3 +149,30 @@ func TestBackupOnPostgresPointsToPgDump(t *testing.T) {
 		t.Fatalf("backup on PostgreSQL: %v, want a message naming pg_dump", err)
 	}
 }
+
+// loadtest on PostgreSQL starts two instances on the database, spreads the assessors over
+// them, and measures pgbench's insert rate on the same cluster as the ceiling.
+func TestLoadtestOnTwoPostgresInstances(t *testing.T) {
+	if testing.Short() {
+		t.Skip("process test; runs without -short")
+	}
+	dsn := pgtest.New(t)
+	bin := buildBinary(t)
+	loadServerBinary = func() (string, error) { return bin, nil }
+	t.Cleanup(func() { loadServerBinary = os.Executable })
+	var stdout, stderr bytes.Buffer
+	err := run(context.Background(), []string{"loadtest", "--db", dsn, "--instances", "2", "--assessors", "8", "--pairs", "200",
+		"--count", "60", "--duration", "20s"}, &stdout, &stderr)
+	if err != nil {
+		t.Fatalf("loadtest: %v\n%s\n%s", err, stdout.String(), stderr.String())
+	}
+	out := stdout.String()
+	for _, want := range []string{"on 2 instance(s)", ", 0 errors", "pgbench single-row insert transactions on the same cluster"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("loadtest printed no %q:\n%s", want, out)
+		}
+	}
+	if err := run(context.Background(), []string{"loadtest", "--instances", "2"}, &stdout, &stderr); err == nil {
+		t.Error("two instances on a SQLite file were accepted")
+	}
+}
