@@ -329,7 +329,7 @@ func (s *Store) UndoPreference(ctx context.Context, projectID, userID int64) (Pr
 // PreferenceProgress counts a project's open comparisons and the answers they still need.
 func (s *Store) PreferenceProgress(ctx context.Context, projectID int64) (open, answers, needed int, err error) {
 	err = s.r.QueryRowContext(ctx, `SELECT COUNT(*), COALESCE(SUM(c.judged), 0),
-			COALESCE(SUM(max(p.judgments_per_pair - c.judged, 0)), 0)
+			COALESCE(SUM(CASE WHEN p.judgments_per_pair > c.judged THEN p.judgments_per_pair - c.judged ELSE 0 END), 0)
 		FROM preference_comparisons c JOIN projects p ON p.id = c.project_id
 		WHERE c.project_id = ? AND c.open = 1`, projectID).Scan(&open, &answers, &needed)
 	return open, answers, needed, err
