@@ -212,6 +212,23 @@ func (s *Store) lockPairProject(ctx context.Context, tx *sql.Tx, pairID, project
 	return err
 }
 
+// postgresLockComparisonProjectSQL is postgresLockProjectSQL for the project of a comparison.
+const postgresLockComparisonProjectSQL = `SELECT pg_advisory_xact_lock(project_id) FROM preference_comparisons WHERE id = ?`
+
+// lockComparisonProject is lockPairProject for a preference comparison: preference judging
+// reads before it writes as graded judging does (answers and others' leases, then a lease or
+// an answer), under the same per-project lock.
+func (s *Store) lockComparisonProject(ctx context.Context, tx *sql.Tx, comparisonID, projectID int64) error {
+	if !s.pg {
+		return nil
+	}
+	if projectID != 0 {
+		return s.lockProject(ctx, tx, projectID)
+	}
+	_, err := s.txExec(ctx, tx, postgresLockComparisonProjectSQL, comparisonID)
+	return err
+}
+
 // SetClock makes the store read the time from now instead of time.Now, for every time it
 // stamps or compares with (judgments, leases, sessions, links, tokens, audit rows, ...):
 // tests step a clock instead of sleeping. Safe to call while the store is in use.

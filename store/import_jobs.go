@@ -31,9 +31,12 @@ const (
 		VALUES (?, ?, ?, ?, ?, 0, ?, ?)`
 	forgetImportJobs = `DELETE FROM import_jobs WHERE updated_at < ?`
 	// A finished job keeps its outcome: a stamp that queued behind the end changes nothing.
-	stampImportJob = `UPDATE import_jobs SET bytes_read = max(bytes_read, ?), updated_at = ?
-		WHERE id = ? AND finished_at IS NULL`
-	finishImportJob = `UPDATE import_jobs SET bytes_read = max(bytes_read, ?1), updated_at = ?2, finished_at = ?2, outcome = ?3
+	// The bytes read never go back (the larger of the two, written as CASE: SQLite's scalar
+	// max(a, b) is GREATEST on PostgreSQL).
+	stampImportJob = `UPDATE import_jobs SET bytes_read = CASE WHEN bytes_read > ?1 THEN bytes_read ELSE ?1 END, updated_at = ?2
+		WHERE id = ?3 AND finished_at IS NULL`
+	finishImportJob = `UPDATE import_jobs SET bytes_read = CASE WHEN bytes_read > ?1 THEN bytes_read ELSE ?1 END,
+		updated_at = ?2, finished_at = ?2, outcome = ?3
 		WHERE id = ?4 AND finished_at IS NULL`
 	selectImportJob = `SELECT id, project_id, kind, files, total_bytes, bytes_read, started_at, updated_at,
 		COALESCE(finished_at, ''), COALESCE(outcome, '')

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"sync"
 	"testing"
+	"time"
 
 	"github.com/pertinent/pertinent/internal/pgtest"
 )
@@ -206,4 +207,63 @@ func TestInstancesStartingTogetherMigrateOnce(t *testing.T) {
 	if want = len(all); applied != want {
 		t.Errorf("%d migrations recorded, want %d, each once", applied, want)
 	}
+}
+
+// Preference judging takes the project's advisory lock as graded judging does: while another
+// connection holds it, leasing a comparison, answering one (also when the request names no
+// project: the comparison's project is locked), undoing and changing the task all wait, and
+// each goes through once the lock is let go. pg_locks shows the waiter, so nothing is timed.
+func TestPreferenceJudgingWaitsForTheProjectLockOnPostgres(t *testing.T) {
+	s := openAt(t, pgtest.New(t))
+	ctx := context.Background()
+	p, lead, users := prefFixture(t, s, 1, 4, 2, func(q, d int) int { return 4 })
+	v, err := s.NextComparison(ctx, p.ID, users[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	holder, err := s.w.Conn(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer holder.Close()
+	waits := func(what string, fn func() error) {
+		t.Helper()
+		if _, err := holder.ExecContext(ctx, `SELECT pg_advisory_lock(?)`, p.ID); err != nil {
+			t.Fatal(err)
+		}
+		done := make(chan error, 1)
+		go func() { done <- fn() }()
+		for waiting := false; !waiting; {
+			select {
+			case err := <-done:
+				holder.ExecContext(ctx, `SELECT pg_advisory_unlock(?)`, p.ID)
+				t.Fatalf("%s went through while the project's lock was held (%v)", what, err)
+			case <-time.After(10 * time.Millisecond):
+			}
+			if err := holder.QueryRowContext(ctx, `SELECT EXISTS (SELECT 1 FROM pg_locks
+				WHERE locktype = 'advisory' AND objid = ? AND NOT granted)`, p.ID).Scan(&waiting); err != nil {
+				t.Fatal(err)
+			}
+		}
+		if _, err := holder.ExecContext(ctx, `SELECT pg_advisory_unlock(?)`, p.ID); err != nil {
+			t.Fatal(err)
+		}
+		if err := <-done; err != nil {
+			t.Fatalf("%s: %v", what, err)
+		}
+	}
+	waits("leasing a comparison", func() error {
+		_, err := s.NextComparison(ctx, p.ID, users[1])
+		return err
+	})
+	waits("answering without the project", func() error {
+		_, err := s.AnswerComparison(ctx, PreferenceSubmission{ComparisonID: v.ComparisonID, UserID: users[0],
+			LeftDoc: v.Left.ID, Outcome: better(v)})
+		return err
+	})
+	waits("undoing", func() error {
+		_, err := s.UndoPreference(ctx, p.ID, users[0])
+		return err
+	})
+	waits("changing the task", func() error { return s.SetTaskKind(ctx, p.ID, TaskPreference, nil, lead.ID) })
 }

@@ -107,8 +107,8 @@ func (s *Store) PreferenceFigures(ctx context.Context, projectID int64) (Prefere
 	if err != nil {
 		return out, err
 	}
-	err = s.r.QueryRowContext(ctx, `SELECT COALESCE(SUM(a.outcome IS NULL), 0),
-			COALESCE(SUM(a.flagged = 1 OR a.cannot_judge = 'disturbing'), 0)
+	err = s.r.QueryRowContext(ctx, `SELECT COALESCE(SUM(CASE WHEN a.outcome IS NULL THEN 1 ELSE 0 END), 0),
+			COALESCE(SUM(CASE WHEN a.flagged = 1 OR a.cannot_judge = 'disturbing' THEN 1 ELSE 0 END), 0)
 		FROM preference_answers a JOIN preference_comparisons c ON c.id = a.comparison_id
 		WHERE c.project_id = ? AND a.current = 1`, projectID).Scan(&out.CannotJudge, &out.Flagged)
 	if err != nil {
@@ -220,12 +220,15 @@ func (s *Store) PreferencePairs(ctx context.Context, projectID int64) ([]export.
 // flaggedComparisons reads the comparisons with flagged or unjudged current answers.
 func (s *Store) flaggedComparisons(ctx context.Context, projectID int64) ([]FlaggedComparison, error) {
 	out, err := queryAll(ctx, s.r, `SELECT q.external_id, da.external_id, db.external_id,
-			SUM(a.flagged = 1 OR a.cannot_judge = 'disturbing'), SUM(a.cannot_judge = 'disturbing'),
-			SUM(a.cannot_judge = 'broken'), SUM(a.cannot_judge = 'language'), SUM(a.cannot_judge = 'other')
+			SUM(CASE WHEN a.flagged = 1 OR a.cannot_judge = 'disturbing' THEN 1 ELSE 0 END),
+			SUM(CASE WHEN a.cannot_judge = 'disturbing' THEN 1 ELSE 0 END),
+			SUM(CASE WHEN a.cannot_judge = 'broken' THEN 1 ELSE 0 END),
+			SUM(CASE WHEN a.cannot_judge = 'language' THEN 1 ELSE 0 END),
+			SUM(CASE WHEN a.cannot_judge = 'other' THEN 1 ELSE 0 END)
 		FROM preference_answers a JOIN preference_comparisons c ON c.id = a.comparison_id
 		JOIN queries q ON q.id = c.query_id JOIN documents da ON da.id = c.doc_a JOIN documents db ON db.id = c.doc_b
 		WHERE c.project_id = ? AND a.current = 1 AND (a.flagged = 1 OR a.cannot_judge IS NOT NULL)
-		GROUP BY c.id ORDER BY 4 DESC, q.external_id, da.external_id, db.external_id`, func(r rowScanner) (FlaggedComparison, error) {
+		GROUP BY c.id, q.external_id, da.external_id, db.external_id ORDER BY 4 DESC, q.external_id, da.external_id, db.external_id`, func(r rowScanner) (FlaggedComparison, error) {
 		var f FlaggedComparison
 		err := r.Scan(&f.Query, &f.DocumentA, &f.DocumentB, &f.Flagged, &f.Disturbing, &f.Broken, &f.Language, &f.Other)
 		return f, err

@@ -73,7 +73,8 @@ const (
 // (the comparison on screen, or one they undid), else the first open comparison they may
 // answer, placed left and right at random. When none is open, the project's schedule is
 // worked out again (grades may have come in since) before ErrNoWork. Everything runs in one
-// write transaction, so a comparison is never leased past what it needs.
+// write transaction (on PostgreSQL under the project's lock, as graded judging), so a
+// comparison is never leased past what it needs.
 func (s *Store) NextComparison(ctx context.Context, projectID, userID int64) (ComparisonView, error) {
 	var id, left int64
 	var leasedAt string
@@ -83,6 +84,9 @@ func (s *Store) NextComparison(ctx context.Context, projectID, userID int64) (Co
 		var k, leaseSeconds int
 		var kind string
 		var archived, member bool
+		if err := s.lockProject(ctx, tx, projectID); err != nil {
+			return err
+		}
 		err := tx.QueryRowContext(ctx, `SELECT judgments_per_pair, lease_seconds, task_kind, archived_at IS NOT NULL,
 				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor')
 			FROM projects WHERE id = ?1`, projectID, userID).Scan(&k, &leaseSeconds, &kind, &archived, &member)
@@ -224,6 +228,9 @@ func (s *Store) AnswerComparison(ctx context.Context, sub PreferenceSubmission) 
 		var open, archived, member, answered bool
 		var judged, k int
 		var leasedAt sql.NullString
+		if err := s.lockComparisonProject(ctx, tx, sub.ComparisonID, sub.ProjectID); err != nil {
+			return err
+		}
 		err := tx.QueryRowContext(ctx, `SELECT c.project_id, c.query_id, c.doc_a, c.doc_b, c.open, c.judged,
 				p.judgments_per_pair, p.archived_at IS NOT NULL,
 				EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = p.id AND m.user_id = ?2 AND m.role = 'assessor'),
@@ -295,6 +302,9 @@ func (s *Store) UndoPreference(ctx context.Context, projectID, userID int64) (Pr
 		var outcome, reason sql.NullString
 		var at string
 		var leaseSeconds int
+		if err := s.lockProject(ctx, tx, projectID); err != nil {
+			return err
+		}
 		err := tx.QueryRowContext(ctx, `SELECT a.id, a.comparison_id, c.query_id, a.left_doc, a.right_doc, a.outcome, a.cannot_judge,
 				a.flagged, a.note, a.time_spent_ms, a.current, a.withdrawn_at IS NOT NULL, a.created_at, p.lease_seconds
 			FROM preference_answers a JOIN preference_comparisons c ON c.id = a.comparison_id JOIN projects p ON p.id = c.project_id
@@ -329,7 +339,7 @@ func (s *Store) UndoPreference(ctx context.Context, projectID, userID int64) (Pr
 // PreferenceProgress counts a project's open comparisons and the answers they still need.
 func (s *Store) PreferenceProgress(ctx context.Context, projectID int64) (open, answers, needed int, err error) {
 	err = s.r.QueryRowContext(ctx, `SELECT COUNT(*), COALESCE(SUM(c.judged), 0),
-			COALESCE(SUM(max(p.judgments_per_pair - c.judged, 0)), 0)
+			COALESCE(SUM(CASE WHEN p.judgments_per_pair > c.judged THEN p.judgments_per_pair - c.judged ELSE 0 END), 0)
 		FROM preference_comparisons c JOIN projects p ON p.id = c.project_id
 		WHERE c.project_id = ? AND c.open = 1`, projectID).Scan(&open, &answers, &needed)
 	return open, answers, needed, err

@@ -29,6 +29,8 @@ func (s *Store) SetTaskKind(ctx context.Context, projectID int64, kind string, t
 		return errorf(CodeInvalid, "a project asks for grades or for preferences, not "+kind)
 	}
 	return s.write(ctx, func(tx *sql.Tx) error {
+		// The replay below rewrites which comparisons are open: not while one is leased
+		// (lockedProject takes the project's lock on PostgreSQL).
 		p, err := s.lockedProject(ctx, tx, projectID)
 		if err != nil {
 			return err
