@@ -191,27 +191,6 @@ func TestKillingOneInstanceLosesNothingAndTheOtherServes(t *testing.T) {
 		t.Fatalf("only %d judgments acknowledged: too few to prove anything", len(acks))
 	}
 	st := openTestStore(t, rig.db)
-	ids := map[string]int64{}
-	for _, u := range rig.users {
-		uu, err := st.UserByUsername(ctx, u.name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		ids[u.name] = uu.ID
-	}
-	lost := 0
-	for _, a := range acks {
-		pid, _ := strconv.ParseInt(a.pair, 10, 64)
-		h, err := st.JudgmentHistory(ctx, pid, ids[a.user])
-		if err != nil {
-			t.Fatal(err)
-		}
-		if len(h) != 1 || !h[0].Current {
-			lost++
-			if lost <= 5 {
-				t.Errorf("acknowledged judgment of pair %s by %s: %d rows, want exactly 1", a.pair, a.user, len(h))
-			}
-		}
-	}
+	lost := unacknowledged(t, st, rig.users, acks)
 	t.Logf("%d acknowledged judgments across 10 kills of one instance; %d missing or duplicated", len(acks), lost)
 }
