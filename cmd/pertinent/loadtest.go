@@ -64,8 +64,10 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	var servers []*exec.Cmd
 	if *target == "" {
 		bases = nil
+		// The servers share the one stderr, each through its own copying goroutine.
+		serverErr := &lockedWriter{w: stderr}
 		for range *instances {
-			server, base, err := startServer(ctx, *db, stderr)
+			server, base, err := startServer(ctx, *db, serverErr)
 			if err != nil {
 				return err
 			}
@@ -141,6 +143,18 @@ func runLoadtest(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	fmt.Fprintf(stdout, "summary: %d assessors on %d instance(s), %.0f judgments/s, p50 %s p95 %s p99 %s, %d errors, rss %s, cpu/judgment %s, %.2f of the ceiling\n",
 		len(users), len(bases), rate, p50, p95, p99, res.errors, orDash(rss), orDash(cpuPer), rate/ceiling)
 	return nil
+}
+
+// lockedWriter lets several writers share one io.Writer, a write at a time.
+type lockedWriter struct {
+	mu sync.Mutex
+	w  io.Writer
+}
+
+func (l *lockedWriter) Write(p []byte) (int, error) {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	return l.w.Write(p)
 }
 
 func orDash(s string) string {
