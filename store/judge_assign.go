@@ -36,11 +36,14 @@ const (
 	// CROSS JOIN keeps leases (few per assessor) as the outer loop; unary + keeps the planner
 	// off indexes that would walk a whole project or all of its queries.
 	// PostgreSQL has neither hint; its planner sees the few leases from statistics.
-	resumeLeaseSQL = `SELECT l.pair_id, l.leased_at FROM leases l CROSS JOIN pairs p ON p.id = l.pair_id
+	// Both answer the project's version too, as the lease write does (leaseReturningVersionSQL).
+	resumeLeaseSQL = `SELECT l.pair_id, l.leased_at, COALESCE((SELECT version FROM project_versions WHERE project_id = ?1), 0)
+		FROM leases l CROSS JOIN pairs p ON p.id = l.pair_id
 		WHERE l.user_id = ?2 AND +p.project_id = ?1 AND l.expires_at > ?3
 		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2 AND j.current = 1)
 		ORDER BY l.leased_at DESC LIMIT 1`
-	postgresResumeLeaseSQL = `SELECT l.pair_id, l.leased_at FROM leases l JOIN pairs p ON p.id = l.pair_id
+	postgresResumeLeaseSQL = `SELECT l.pair_id, l.leased_at, COALESCE((SELECT version FROM project_versions WHERE project_id = ?1), 0)
+		FROM leases l JOIN pairs p ON p.id = l.pair_id
 		WHERE l.user_id = ?2 AND p.project_id = ?1 AND l.expires_at > ?3
 		AND NOT EXISTS (SELECT 1 FROM judgments j WHERE j.pair_id = p.id AND j.user_id = ?2 AND j.current = 1)
 		ORDER BY l.leased_at DESC LIMIT 1`
@@ -105,54 +108,86 @@ func (s *Store) NextPair(ctx context.Context, projectID, userID int64) (PairView
 
 // nextPairTx is NextPair inside the caller's write transaction.
 func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID int64) (pairID int64, leasedAt string, err error) {
-	var needed, leaseSeconds int
-	var goldRate float64
-	var archived, member bool
-	var batch sql.NullInt64
 	if err := s.lockProject(ctx, tx, projectID); err != nil {
 		return 0, "", err
 	}
-	err = s.txRow(ctx, tx, `SELECT judgments_per_pair, lease_seconds, gold_rate, archived_at IS NOT NULL,
-			EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor'),
-			(SELECT query_id FROM batches b WHERE b.project_id = ?1 AND b.user_id = ?2)
-		FROM projects WHERE id = ?1`, projectID, userID).Scan(&needed, &leaseSeconds, &goldRate, &archived, &member, &batch)
-	if errors.Is(err, sql.ErrNoRows) {
-		return 0, "", ErrNotFound
-	}
+	as, err := s.assignmentTx(ctx, tx, projectID, userID)
 	if err != nil {
 		return 0, "", err
 	}
-	if !member {
-		return 0, "", errorf(CodeDenied, "only the project's assessors are given pairs to judge")
+	pairID, leasedAt, _, err = s.assignTx(ctx, tx, as, false)
+	return pairID, leasedAt, err
+}
+
+// assignment is what the assignment engine reads of a project and an assessor before it
+// picks a pair, and the project's version at that moment (under the project's lock).
+type assignment struct {
+	project, user        int64
+	found                bool
+	needed, leaseSeconds int
+	goldRate             float64
+	archived, member     bool
+	batch                sql.NullInt64
+	version              int64
+}
+
+// assignmentTx reads the assignment's settings in one statement; the caller holds the
+// project's lock. A project that does not exist is reported by assignTx, so a caller that
+// submits first reports its own refusals first.
+func (s *Store) assignmentTx(ctx context.Context, tx *sql.Tx, projectID, userID int64) (assignment, error) {
+	as := assignment{project: projectID, user: userID, found: true}
+	err := s.txRow(ctx, tx, `SELECT judgments_per_pair, lease_seconds, gold_rate, archived_at IS NOT NULL,
+			EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = ?1 AND m.user_id = ?2 AND m.role = 'assessor'),
+			(SELECT query_id FROM batches b WHERE b.project_id = ?1 AND b.user_id = ?2),
+			COALESCE((SELECT version FROM project_versions WHERE project_id = ?1), 0)
+		FROM projects WHERE id = ?1`, projectID, userID).Scan(&as.needed, &as.leaseSeconds, &as.goldRate, &as.archived, &as.member, &as.batch, &as.version)
+	if errors.Is(err, sql.ErrNoRows) {
+		as.found, err = false, nil
 	}
-	if archived {
-		return 0, "", ErrNoWork
+	return as, err
+}
+
+// assignTx picks and leases the assessor's next pair (NextPair's order) and returns the
+// project's version once the lease is written. expiredGone says the transaction has already
+// dropped the assessor's expired leases.
+func (s *Store) assignTx(ctx context.Context, tx *sql.Tx, as assignment, expiredGone bool) (pairID int64, leasedAt string, version int64, err error) {
+	if !as.found {
+		return 0, "", 0, ErrNotFound
 	}
+	if !as.member {
+		return 0, "", 0, errorf(CodeDenied, "only the project's assessors are given pairs to judge")
+	}
+	if as.archived {
+		return 0, "", 0, ErrNoWork
+	}
+	projectID, userID, needed := as.project, as.user, as.needed
 	t := s.clock()
 	nowText := timeText(t)
-	err = s.txRow(ctx, tx, s.dialect(resumeLeaseSQL, postgresResumeLeaseSQL), projectID, userID, nowText).Scan(&pairID, &leasedAt)
+	err = s.txRow(ctx, tx, s.dialect(resumeLeaseSQL, postgresResumeLeaseSQL), projectID, userID, nowText).Scan(&pairID, &leasedAt, &version)
 	if err == nil {
-		return pairID, leasedAt, nil
+		return pairID, leasedAt, version, nil
 	}
 	if !errors.Is(err, sql.ErrNoRows) {
-		return 0, "", err
+		return 0, "", 0, err
 	}
 	// Expired leases of this assessor are of no further use; dropping them keeps the table small.
-	if _, err := s.txExec(ctx, tx, `DELETE FROM leases WHERE user_id = ? AND expires_at <= ?`, userID, nowText); err != nil {
-		return 0, "", err
+	if !expiredGone {
+		if _, err := s.txExec(ctx, tx, `DELETE FROM leases WHERE user_id = ? AND expires_at <= ?`, userID, nowText); err != nil {
+			return 0, "", 0, err
+		}
 	}
 	pairID = 0
-	if goldRate > 0 && rand.Float64() < goldRate {
-		err = s.txRow(ctx, tx, s.dialect(goldPairSQL, postgresGoldPairSQL), projectID, userID, batch.Int64).Scan(&pairID)
+	if as.goldRate > 0 && rand.Float64() < as.goldRate {
+		err = s.txRow(ctx, tx, s.dialect(goldPairSQL, postgresGoldPairSQL), projectID, userID, as.batch.Int64).Scan(&pairID)
 		if err != nil && !errors.Is(err, sql.ErrNoRows) {
-			return 0, "", err
+			return 0, "", 0, err
 		}
 	}
 	a, b := seeds(userID)
-	if pairID == 0 && batch.Valid {
-		err = s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, batch.Int64).Scan(&pairID)
+	if pairID == 0 && as.batch.Valid {
+		err = s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, as.batch.Int64).Scan(&pairID)
 		if err != nil && !errors.Is(err, sql.ErrNoRows) {
-			return 0, "", err
+			return 0, "", 0, err
 		}
 	}
 	if pairID == 0 {
@@ -160,25 +195,33 @@ func (s *Store) nextPairTx(ctx context.Context, tx *sql.Tx, projectID, userID in
 		var coverage float64
 		err = s.txRow(ctx, tx, nextQuerySQL, projectID, userID, nowText, needed).Scan(&queryID, &priority, &coverage)
 		if errors.Is(err, sql.ErrNoRows) {
-			return 0, "", ErrNoWork
+			return 0, "", 0, ErrNoWork
 		}
 		if err != nil {
-			return 0, "", err
+			return 0, "", 0, err
 		}
 		if queryID, err = s.spreadQuery(ctx, tx, projectID, userID, nowText, needed, queryID, priority, coverage); err != nil {
-			return 0, "", err
+			return 0, "", 0, err
 		}
 		if err := s.txRow(ctx, tx, batchPairSQL, projectID, userID, nowText, needed, a, b, queryID).Scan(&pairID); err != nil {
-			return 0, "", err
+			return 0, "", 0, err
 		}
 		if _, err := s.txExec(ctx, tx, `INSERT INTO batches(project_id, user_id, query_id, started_at) VALUES (?, ?, ?, ?)
 			ON CONFLICT (project_id, user_id) DO UPDATE SET query_id = excluded.query_id, started_at = excluded.started_at`,
 			projectID, userID, queryID, nowText); err != nil {
-			return 0, "", err
+			return 0, "", 0, err
 		}
 	}
-	return pairID, nowText, s.lease(ctx, tx, pairID, userID, t, leaseSeconds)
+	err = s.txRow(ctx, tx, leaseReturningVersionSQL, pairID, userID, nowText, timeText(t.Add(time.Duration(as.leaseSeconds)*time.Second)), projectID).Scan(&version)
+	return pairID, nowText, version, err
 }
+
+// leaseReturningVersionSQL is lease's statement that also answers the project's version:
+// the assignment's last write, so the judging path needs no statement of its own to learn
+// the version its transaction ends at (leases bump no version).
+const leaseReturningVersionSQL = `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?1, ?2, ?3, ?4)
+	ON CONFLICT (pair_id, user_id) DO UPDATE SET leased_at = excluded.leased_at, expires_at = excluded.expires_at
+	RETURNING COALESCE((SELECT version FROM project_versions WHERE project_id = ?5), 0)`
 
 // spreadQuery picks the query a new batch starts on, given the first open query of the best
 // rank (priority, then coverage). When others are already working that query, a query of

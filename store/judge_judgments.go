@@ -93,19 +93,22 @@ func (s *Store) submitTx(ctx context.Context, tx *sql.Tx, sub Submission, revisi
 	var needed, judged, levels int
 	var pairProject int64
 	var archived, member, allowChanges, adjudicated bool
-	var gold sql.NullInt64
+	var gold, current sql.NullInt64
 	var leasedAt sql.NullString
 	if err := s.lockPairProject(ctx, tx, sub.PairID, projectID); err != nil {
 		return j, false, err
 	}
+	// One statement reads all that decides the answer, the assessor's current judgment of
+	// the pair among it: under the project's lock on PostgreSQL, every round trip counts.
 	err = s.txRow(ctx, tx, `SELECT p.id, p.judgments_per_pair, x.judged, x.gold_grade, p.archived_at IS NOT NULL,
 			(SELECT COUNT(*) FROM scale_levels l WHERE l.project_id = p.id),
 			EXISTS (SELECT 1 FROM project_members m WHERE m.project_id = p.id AND m.user_id = ?2 AND m.role = 'assessor'),
 			(SELECT leased_at FROM leases WHERE pair_id = x.id AND user_id = ?2),
 			p.allow_changes,
-			EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = x.id AND a.current = 1)
+			EXISTS (SELECT 1 FROM adjudications a WHERE a.pair_id = x.id AND a.current = 1),
+			(SELECT j.id FROM judgments j WHERE j.pair_id = x.id AND j.user_id = ?2 AND j.current = 1)
 		FROM pairs x JOIN projects p ON p.id = x.project_id WHERE x.id = ?1`, sub.PairID, sub.UserID).
-		Scan(&pairProject, &needed, &judged, &gold, &archived, &levels, &member, &leasedAt, &allowChanges, &adjudicated)
+		Scan(&pairProject, &needed, &judged, &gold, &archived, &levels, &member, &leasedAt, &allowChanges, &adjudicated, &current)
 	if errors.Is(err, sql.ErrNoRows) || (err == nil && projectID != 0 && pairProject != projectID) {
 		return j, false, ErrNotFound
 	}
@@ -124,10 +127,7 @@ func (s *Store) submitTx(ctx context.Context, tx *sql.Tx, sub Submission, revisi
 	if sub.TimeSpentMs <= 0 && leasedAt.Valid {
 		sub.TimeSpentMs = int(time.Since(parseTime(leasedAt.String)).Milliseconds())
 	}
-	prev, err := s.currentJudgmentID(ctx, tx, sub.PairID, sub.UserID)
-	if err != nil {
-		return j, false, err
-	}
+	prev := current.Int64
 	switch {
 	case prev == 0 && revision:
 		return j, false, errorf(CodeNotFound, "you have no judgment of this pair to change")
@@ -138,12 +138,23 @@ func (s *Store) submitTx(ctx context.Context, tx *sql.Tx, sub Submission, revisi
 	case prev != 0 && !allowChanges:
 		return j, false, errorf(CodeConflict, "this project does not allow changing a judgment once made")
 	}
-	j, err = s.insertJudgmentOver(ctx, tx, sub, s.now(), prev)
+	at := s.clock()
+	j, err = s.insertJudgmentOver(ctx, tx, sub, timeText(at), prev)
 	if err != nil {
 		return j, false, err
 	}
-	_, err = s.txExec(ctx, tx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID)
+	err = s.dropLease(ctx, tx, sub.PairID, sub.UserID, at)
 	return j, prev == 0 && !gold.Valid, err
+}
+
+// dropLeaseSQL ends an assessor's lease of a pair and, in the same statement, drops their
+// expired leases, which are of no further use (assignTx need not then drop them itself).
+const dropLeaseSQL = `DELETE FROM leases WHERE user_id = ?2 AND (pair_id = ?1 OR expires_at <= ?3)`
+
+// dropLease is dropLeaseSQL at time t.
+func (s *Store) dropLease(ctx context.Context, tx *sql.Tx, pairID, userID int64, t time.Time) error {
+	_, err := s.txExec(ctx, tx, dropLeaseSQL, pairID, userID, timeText(t))
+	return err
 }
 
 // The assessor's latest judgment in a project, for Undo; CROSS JOIN and + as in judge_mywork.go.

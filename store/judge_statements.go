@@ -85,6 +85,7 @@ func (c *stmtCache) close() {
 // txRow runs a cached statement inside a write transaction; database/sql reuses the
 // statement already prepared on the writer connection.
 func (s *Store) txRow(ctx context.Context, tx *sql.Tx, q string, args ...any) *sql.Row {
+	s.txStatements.Add(1)
 	if st := s.wStmts.lookup(q); st != nil {
 		return tx.StmtContext(ctx, st).QueryRowContext(ctx, args...)
 	}
@@ -93,6 +94,7 @@ func (s *Store) txRow(ctx context.Context, tx *sql.Tx, q string, args ...any) *s
 
 // txExec is txRow for statements without results.
 func (s *Store) txExec(ctx context.Context, tx *sql.Tx, q string, args ...any) (sql.Result, error) {
+	s.txStatements.Add(1)
 	if st := s.wStmts.lookup(q); st != nil {
 		return tx.StmtContext(ctx, st).ExecContext(ctx, args...)
 	}

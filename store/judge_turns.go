@@ -37,33 +37,34 @@ func (s *Store) SubmitAndNext(ctx context.Context, projectID int64, sub Submissi
 	var counted bool
 	err := s.grouped(ctx, func(ctx context.Context, tx *sql.Tx) error {
 		t = Turn{}
-		if err := s.lockProject(ctx, tx, projectID); err != nil {
+		// The project's lock once for the whole turn, then its settings and version in one
+		// statement: the steps below take the lock again for nothing (lockedProjectContext).
+		ctx, err := s.lockedProjectContext(ctx, tx, projectID)
+		if err != nil {
 			return err
 		}
-		var err error
-		if before, err = s.projectVersion(ctx, tx, projectID); err != nil {
+		as, err := s.assignmentTx(ctx, tx, projectID, sub.UserID)
+		if err != nil {
 			return err
 		}
+		before, perPair = as.version, as.needed
 		t.Judgment, counted, err = s.submitTx(ctx, tx, sub, false, projectID)
 		if ErrorCode(err) == CodeConflict {
 			t.Refused, counted, err = err, false, nil
 			// The refused pair must not come back as the next one through its lease.
-			if _, err := s.txExec(ctx, tx, `DELETE FROM leases WHERE pair_id = ? AND user_id = ?`, sub.PairID, sub.UserID); err != nil {
+			if err := s.dropLease(ctx, tx, sub.PairID, sub.UserID, s.clock()); err != nil {
 				return err
 			}
 		}
 		if err != nil {
 			return err
 		}
-		pairID, leasedAt, err = s.nextPairTx(ctx, tx, projectID, sub.UserID)
+		pairID, leasedAt, after, err = s.assignTx(ctx, tx, as, true)
 		if errors.Is(err, ErrNoWork) {
-			t.NoWork, err = true, nil
+			t.NoWork = true
+			after, err = s.projectVersion(ctx, tx, projectID)
 		}
-		if err != nil {
-			return err
-		}
-		return s.txRow(ctx, tx, `SELECT judgments_per_pair, COALESCE((SELECT version FROM project_versions WHERE project_id = ?1), 0)
-			FROM projects WHERE id = ?1`, projectID).Scan(&perPair, &after)
+		return err
 	}, func() {
 		delta := 0
 		if counted {

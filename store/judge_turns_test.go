@@ -227,3 +227,61 @@ func TestGroupedPanicIsContained(t *testing.T) {
 		t.Errorf("probe holds %v, want only the second request's row [2]", ns)
 	}
 }
+
+// A turn that continues the assessor's batch runs a fixed number of statements in its
+// transaction: on PostgreSQL each is a round trip made while the project's lock is held, so
+// the budget is what bounds one project's judging rate there. The lock is taken once, and the
+// assessor's expired leases go with the lease of the judged pair.
+func TestSubmitAndNextRoundTrips(t *testing.T) {
+	s := openTest(t)
+	ctx := context.Background()
+	now := time.Date(2026, 5, 1, 9, 0, 0, 0, time.UTC)
+	s.SetClock(func() time.Time { return now })
+	p, _, pairs, users := fixture(t, s, 2, 4, 1)
+	first := nextPair(t, s, p.ID, users[0])
+	// An expired lease of the same assessor on a pair of the other query.
+	var stale int64
+	for _, id := range pairs {
+		if id != first.PairID && pairQuery(t, s, id) != first.Query.ID {
+			stale = id
+		}
+	}
+	if _, err := s.w.ExecContext(ctx, `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?, ?, ?, ?)`,
+		stale, users[0], timeText(now.Add(-2*time.Hour)), timeText(now.Add(-time.Hour))); err != nil {
+		t.Fatal(err)
+	}
+	before := s.txStatements.Load()
+	turn, err := s.SubmitAndNext(ctx, p.ID, Submission{PairID: first.PairID, UserID: users[0], Grade: grade(2)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if turn.NoWork || pairQuery(t, s, turn.Next.PairID) != first.Query.ID {
+		t.Fatalf("next pair %d, want one of query %d (the batch)", turn.Next.PairID, first.Query.ID)
+	}
+	// assignment settings, the submission's read, the judgment, the pair's count, the leases
+	// dropped, the live-lease check, the batch's next pair, the new lease: 8. PostgreSQL adds
+	// the lock; SQLite the group writer's SAVEPOINT and RELEASE, which never leave the process.
+	want := int64(8 + 2)
+	if s.Postgres() {
+		want = 8 + 1
+	}
+	if got := s.txStatements.Load() - before; got != want {
+		t.Errorf("the turn ran %d statements in its transaction, want %d", got, want)
+	}
+	var left int
+	if err := s.r.QueryRowContext(ctx, `SELECT COUNT(*) FROM leases WHERE user_id = ? AND pair_id = ?`, users[0], stale).Scan(&left); err != nil {
+		t.Fatal(err)
+	}
+	if left != 0 {
+		t.Errorf("the expired lease is still there after the turn")
+	}
+}
+
+func pairQuery(t *testing.T, s *Store, pairID int64) int64 {
+	t.Helper()
+	var q int64
+	if err := s.r.QueryRowContext(context.Background(), `SELECT query_id FROM pairs WHERE id = ?`, pairID).Scan(&q); err != nil {
+		t.Fatal(err)
+	}
+	return q
+}
