@@ -2,7 +2,9 @@ package store
 
 import (
 	"context"
+	"database/sql"
 	"errors"
+	"strings"
 	"sync"
 	"testing"
 	"time"
@@ -266,4 +268,55 @@ func TestPreferenceJudgingWaitsForTheProjectLockOnPostgres(t *testing.T) {
 		return err
 	})
 	waits("changing the task", func() error { return s.SetTaskKind(ctx, p.ID, TaskPreference, nil, lead.ID) })
+}
+
+// On a young PostgreSQL database, before judgments have statistics, the search for an open
+// pair of the batch must still probe each pair's judgments by (pair, assessor) rather than walk
+// every current judgment of the assessor once per pair: that walk grew with an assessor's
+// history and held the project's lock while it ran.
+func TestBatchSearchProbesJudgmentsWithoutStatistics(t *testing.T) {
+	s := openAt(t, pgtest.New(t))
+	ctx := context.Background()
+	p, _, _, users := fixture(t, s, 2, 30, 1)
+	// 30 judgments by the assessor, none analysed since the tables were created empty.
+	for {
+		v, err := s.NextPair(ctx, p.ID, users[0])
+		if errors.Is(err, ErrNoWork) {
+			break
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		if _, err := s.Submit(ctx, Submission{PairID: v.PairID, UserID: users[0], Grade: grade(1)}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	var analysed sql.NullString
+	if err := s.r.QueryRowContext(ctx, `SELECT COALESCE(last_analyze, last_autoanalyze)::text FROM pg_stat_user_tables WHERE relname = 'judgments'`).Scan(&analysed); err != nil {
+		t.Fatal(err)
+	}
+	if analysed.Valid {
+		t.Fatalf("judgments were analysed at %s: the test needs a table without statistics", analysed.String)
+	}
+	var query int64
+	if err := s.r.QueryRowContext(ctx, `SELECT MIN(query_id) FROM pairs WHERE project_id = ?`, p.ID).Scan(&query); err != nil {
+		t.Fatal(err)
+	}
+	rows, err := s.r.QueryContext(ctx, `EXPLAIN `+batchPairSQL, p.ID, users[0], "2026-01-01T00:00:00.000Z", 2, 5, 6, query)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rows.Close()
+	var plan []string
+	for rows.Next() {
+		var line string
+		if err := rows.Scan(&line); err != nil {
+			t.Fatal(err)
+		}
+		plan = append(plan, line)
+	}
+	text := strings.Join(plan, "\n")
+	if !strings.Contains(text, "Index Cond: ((pair_id = p.id) AND (user_id = ") || strings.Contains(text, "Anti Join") {
+		t.Errorf("the batch search does not probe judgments by pair and assessor:\n%s", text)
+	}
 }
