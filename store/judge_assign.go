@@ -44,7 +44,7 @@ const (
 	// off indexes that would walk a whole project or all of its queries.
 	// PostgreSQL has neither hint; its planner sees the few leases from statistics (OFFSET 0
 	// as in openPair).
-	// Both answer the project's version too, as the lease write does (leaseReturningVersionSQL).
+	// Both answer the project's version too, as the lease write does (leaseSQL).
 	resumeLeaseSQL = `SELECT l.pair_id, l.leased_at, COALESCE((SELECT version FROM project_versions WHERE project_id = ?1), 0)
 		FROM leases l CROSS JOIN pairs p ON p.id = l.pair_id
 		WHERE l.user_id = ?2 AND +p.project_id = ?1 AND l.expires_at > ?3
@@ -220,14 +220,14 @@ func (s *Store) assignTx(ctx context.Context, tx *sql.Tx, as assignment, expired
 			return 0, "", 0, err
 		}
 	}
-	err = s.txRow(ctx, tx, leaseReturningVersionSQL, pairID, userID, nowText, timeText(t.Add(time.Duration(as.leaseSeconds)*time.Second)), projectID).Scan(&version)
+	version, err = s.lease(ctx, tx, projectID, pairID, userID, t, as.leaseSeconds)
 	return pairID, nowText, version, err
 }
 
-// leaseReturningVersionSQL is lease's statement that also answers the project's version:
-// the assignment's last write, so the judging path needs no statement of its own to learn
-// the version its transaction ends at (leases bump no version).
-const leaseReturningVersionSQL = `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?1, ?2, ?3, ?4)
+// leaseSQL writes a lease and answers the project's version: it is the assignment's last
+// write, so the judging path needs no statement of its own to learn the version its
+// transaction ends at (leases bump no version).
+const leaseSQL = `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?1, ?2, ?3, ?4)
 	ON CONFLICT (pair_id, user_id) DO UPDATE SET leased_at = excluded.leased_at, expires_at = excluded.expires_at
 	RETURNING COALESCE((SELECT version FROM project_versions WHERE project_id = ?5), 0)`
 
@@ -256,12 +256,11 @@ func (s *Store) spreadQuery(ctx context.Context, tx *sql.Tx, projectID, userID i
 	return q, err
 }
 
-// lease gives (or renews) a pair to a user from t for the project's lease time.
-func (s *Store) lease(ctx context.Context, tx *sql.Tx, pairID, userID int64, t time.Time, seconds int) error {
-	_, err := s.txExec(ctx, tx, `INSERT INTO leases(pair_id, user_id, leased_at, expires_at) VALUES (?, ?, ?, ?)
-		ON CONFLICT (pair_id, user_id) DO UPDATE SET leased_at = excluded.leased_at, expires_at = excluded.expires_at`,
-		pairID, userID, timeText(t), timeText(t.Add(time.Duration(seconds)*time.Second)))
-	return err
+// lease gives (or renews) a pair to a user from t for the project's lease time and returns
+// the project's version (leaseSQL).
+func (s *Store) lease(ctx context.Context, tx *sql.Tx, projectID, pairID, userID int64, t time.Time, seconds int) (version int64, err error) {
+	err = s.txRow(ctx, tx, leaseSQL, pairID, userID, timeText(t), timeText(t.Add(time.Duration(seconds)*time.Second)), projectID).Scan(&version)
+	return version, err
 }
 
 // pairView loads the query and document of a pair.

@@ -209,7 +209,8 @@ func (s *Store) Undo(ctx context.Context, projectID, userID int64) (Judgment, er
 			return err
 		}
 		j.Current, j.Withdrawn = false, true
-		return s.lease(ctx, tx, j.PairID, userID, t, leaseSeconds)
+		_, err = s.lease(ctx, tx, projectID, j.PairID, userID, t, leaseSeconds)
+		return err
 	})
 	return j, err
 }
