@@ -17,7 +17,8 @@ type importer struct {
 	// statement itself in a bulk import. done is the caller's context, checked per batch.
 	ctx     context.Context
 	done    context.Context
-	pg      bool // PostgreSQL: no page cache to size
+	pg      bool      // PostgreSQL: no page cache to size, rows files by COPY
+	conn    *sql.Conn // tx's connection, for COPY
 	tx      *sql.Tx
 	project int64
 	by      int64
@@ -40,17 +41,18 @@ type importer struct {
 	docs, rowPairs          *bulk // the bulk path's buffers; nil until used
 	newDocs, newPairs       *bulk // the same for the fresh path (import_fresh.go)
 	fresh                   bool  // the project had no documents or pairs: see import_fresh.go
+	copyTable               bool  // import_rows exists in this transaction (import_copy.go)
 
 	order []string
 	count map[string]*ImportCount
 	notes []string
 }
 
-func (s *Store) newImporter(ctx context.Context, tx *sql.Tx, projectID, by int64, spec ImportSpec) (*importer, error) {
+func (s *Store) newImporter(ctx context.Context, conn *sql.Conn, tx *sql.Tx, projectID, by int64, spec ImportSpec) (*importer, error) {
 	if err := s.lockProject(ctx, tx, projectID); err != nil {
 		return nil, err
 	}
-	im := &importer{ctx: context.WithoutCancel(ctx), done: ctx, pg: s.pg, tx: tx, project: projectID, by: by, spec: spec, at: s.now(),
+	im := &importer{ctx: context.WithoutCancel(ctx), done: ctx, pg: s.pg, conn: conn, tx: tx, project: projectID, by: by, spec: spec, at: s.now(),
 		stmts: map[string]*sql.Stmt{}, queryIDs: map[string]int64{}, docIDs: map[string]int64{}, count: map[string]*ImportCount{}}
 	im.ps.max = spec.MaxProblems
 	if im.ps.max <= 0 {
@@ -254,56 +256,91 @@ func (im *importer) upsertID(c *ImportCount, maxBefore int64, seen map[string]in
 }
 
 // pipe reads records in one goroutine and writes them in this one, so parsing a large
-// file overlaps with SQLite's work on the previous records. Records travel in batches to
-// keep channel traffic low; a write error stops the reader.
+// file overlaps with the database's work on the previous records. A write error stops the
+// reader.
 func pipe[T any](ctx context.Context, read func(emit func(T) error) error, write func(T) error) error {
+	p := pull(ctx, read)
+	for {
+		x, ok, err := p.next()
+		if ok && err == nil {
+			err = write(x)
+		}
+		if err != nil {
+			p.close()
+			return err
+		}
+		if !ok {
+			return p.close()
+		}
+	}
+}
+
+// puller runs a reader in its own goroutine and hands its records to a writer that asks for
+// them one at a time (pipe's loop, or COPY pulling its rows). Records travel in batches to
+// keep channel traffic low.
+type puller[T any] struct {
+	ctx     context.Context
+	ch      chan []T
+	stop    chan struct{}
+	stopped bool
+	batch   []T
+	err     error // the reader's; read only once ch is closed
+}
+
+func pull[T any](ctx context.Context, read func(emit func(T) error) error) *puller[T] {
 	const batch = 512
-	ch := make(chan []T, 4)
-	stop := make(chan struct{})
-	var readErr error
+	p := &puller[T]{ctx: ctx, ch: make(chan []T, 4), stop: make(chan struct{})}
 	go func() {
-		defer close(ch)
+		defer close(p.ch)
 		buf := make([]T, 0, batch)
 		send := func() error {
 			select {
-			case ch <- buf:
+			case p.ch <- buf:
 				buf = make([]T, 0, batch)
 				return nil
-			case <-stop:
+			case <-p.stop:
 				return errStopped
 			}
 		}
-		readErr = read(func(x T) error {
+		p.err = read(func(x T) error {
 			buf = append(buf, x)
 			if len(buf) == batch {
 				return send()
 			}
 			return nil
 		})
-		if readErr == nil && len(buf) > 0 {
+		if p.err == nil && len(buf) > 0 {
 			send()
 		}
 	}()
-	var writeErr error
-	for b := range ch {
-		if writeErr != nil {
-			continue
+	return p
+}
+
+// next returns the next record, ok false once the reader has ended; err when ctx is done.
+func (p *puller[T]) next() (x T, ok bool, err error) {
+	for len(p.batch) == 0 {
+		if err := p.ctx.Err(); err != nil {
+			return x, false, err
 		}
-		if writeErr = ctx.Err(); writeErr != nil {
-			close(stop)
-			continue
+		b, more := <-p.ch
+		if !more {
+			return x, false, nil
 		}
-		for _, x := range b {
-			if writeErr = write(x); writeErr != nil {
-				close(stop)
-				break
-			}
-		}
+		p.batch = b
 	}
-	if writeErr != nil {
-		return writeErr
+	x, p.batch = p.batch[0], p.batch[1:]
+	return x, true, nil
+}
+
+// close stops the reader, waits for it to end and returns its error.
+func (p *puller[T]) close() error {
+	if !p.stopped {
+		close(p.stop)
+		p.stopped = true
 	}
-	return readErr
+	for range p.ch {
+	}
+	return p.err
 }
 
 var errStopped = errors.New("import stopped")

@@ -2,10 +2,14 @@ package store
 
 // An import holds a bulk_imports row for its project inside its transaction (migration
 // 0008): the per-pair triggers on pairs that keep query_progress and project_versions stand
-// aside, and settleProgress does their work once, set-based, before the import commits.
+// aside, and settleProgress does their work once, set-based, before the import commits. On
+// PostgreSQL the import also sets pertinent.bulk_import for its transaction, which the
+// triggers' WHEN reads, so their functions are not even called (migration 0016).
 const (
-	beginBulkImport = `INSERT INTO bulk_imports(project_id) VALUES (?)`
-	endBulkImport   = `DELETE FROM bulk_imports WHERE project_id = ?`
+	beginBulkImport         = `INSERT INTO bulk_imports(project_id) VALUES (?)`
+	endBulkImport           = `DELETE FROM bulk_imports WHERE project_id = ?`
+	postgresBeginBulkImport = `SELECT set_config('pertinent.bulk_import', CAST(CAST(?1 AS bigint) AS text), true)`
+	postgresEndBulkImport   = `SELECT set_config('pertinent.bulk_import', '', true)`
 	// Pairs above maxPair are the ones this import added. Their queries are recounted from
 	// scratch, exactly as the trigger that reshapes a query does, so pairs that the same
 	// import added and then updated are counted once.
@@ -25,6 +29,11 @@ const (
 
 // beginProgress makes the pair triggers stand aside for this import's project.
 func (im *importer) beginProgress() error {
+	if im.pg {
+		if _, err := im.tx.ExecContext(im.ctx, postgresBeginBulkImport, im.project); err != nil {
+			return err
+		}
+	}
 	_, err := im.tx.ExecContext(im.ctx, beginBulkImport, im.project)
 	return err
 }
@@ -37,6 +46,11 @@ func (im *importer) settleProgress() error {
 	}
 	if _, err := im.tx.ExecContext(im.ctx, bumpImportedVersion, im.maxPair, im.project); err != nil {
 		return err
+	}
+	if im.pg {
+		if _, err := im.tx.ExecContext(im.ctx, postgresEndBulkImport); err != nil {
+			return err
+		}
 	}
 	_, err := im.tx.ExecContext(im.ctx, endBulkImport, im.project)
 	return err

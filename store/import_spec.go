@@ -148,8 +148,8 @@ func (s *Store) Import(ctx context.Context, projectID, by int64, spec ImportSpec
 			return rep, err
 		}
 	}
-	err := s.importTx(ctx, func(tx *sql.Tx) error {
-		im, err := s.newImporter(ctx, tx, projectID, by, spec)
+	err := s.importTx(ctx, func(conn *sql.Conn, tx *sql.Tx) error {
+		im, err := s.newImporter(ctx, conn, tx, projectID, by, spec)
 		if err != nil {
 			return err
 		}
@@ -176,29 +176,31 @@ func (s *Store) Import(ctx context.Context, projectID, by int64, spec ImportSpec
 	return rep, s.analyzeAfterLoad(ctx, rep.Changed())
 }
 
-// importTx is Store.write for imports. Every upsert keeps a statement journal (the pages it
-// changes, as they were, so it can be undone alone); SQLite decides at BEGIN whether that
-// journal lives in memory, following temp_store. By default it spills to a temporary file:
-// two writes per changed page and statement, most of a bulk import's time. So the writer
-// connection switches to in-memory temporary storage for the import's transaction.
-func (s *Store) importTx(ctx context.Context, fn func(tx *sql.Tx) error) error {
-	if s.pg {
-		return s.write(ctx, fn) // PostgreSQL keeps its own journal; nothing to switch
-	}
+// importTx is Store.write for imports, on a connection of its own, which fn gets beside
+// the transaction: on PostgreSQL a rows file travels to the server as one COPY stream
+// (import_copy.go), which pgx runs on the connection itself, not through database/sql.
+// On SQLite every upsert keeps a statement journal (the pages it changes, as they were, so
+// it can be undone alone); SQLite decides at BEGIN whether that journal lives in memory,
+// following temp_store. By default it spills to a temporary file: two writes per changed
+// page and statement, most of a bulk import's time. So the writer connection switches to
+// in-memory temporary storage for the import's transaction.
+func (s *Store) importTx(ctx context.Context, fn func(conn *sql.Conn, tx *sql.Tx) error) error {
 	conn, err := s.w.Conn(ctx)
 	if err != nil {
 		return err
 	}
 	defer conn.Close()
-	if _, err := conn.ExecContext(ctx, `PRAGMA temp_store = MEMORY`); err != nil {
-		return err
+	if !s.pg {
+		if _, err := conn.ExecContext(ctx, `PRAGMA temp_store = MEMORY`); err != nil {
+			return err
+		}
+		defer conn.ExecContext(context.WithoutCancel(ctx), `PRAGMA temp_store = DEFAULT`)
 	}
-	defer conn.ExecContext(context.WithoutCancel(ctx), `PRAGMA temp_store = DEFAULT`)
 	tx, err := conn.BeginTx(ctx, nil)
 	if err != nil {
 		return err
 	}
-	if err := fn(tx); err != nil {
+	if err := fn(conn, tx); err != nil {
 		tx.Rollback()
 		return err
 	}

@@ -81,6 +81,9 @@ func (im *importer) documents(f ImportFile, format ingest.Format) error {
 // rows is the bulk path: each query and document is written on the first row naming it,
 // every row writes its pair.
 func (im *importer) rows(f ImportFile, format ingest.Format) error {
+	if im.pg {
+		return im.copyRows(f, format)
+	}
 	im.counter("queries")
 	im.counter("documents")
 	im.counter("pairs")

@@ -19,7 +19,8 @@ var sqlMethods = map[string]int{
 // storeHelpers are the store's own wrappers around the statement cache, with the position of
 // their SQL argument; their callers must pass constants like everyone else.
 var storeHelpers = map[string][]int{"txRow": {2}, "txExec": {2}, "readRow": {1}, "readRows": {1},
-	"stmt": {0}, "upsertID": {4, 5}, "find": {1}}
+	"stmt": {0}, "upsertID": {4, 5}, "find": {1},
+	"execRows": {0}, "layIn": {2, 3}}
 
 // storeFuncs are the store's plain functions that run SQL given to them (rows.go), with the
 // position of their SQL argument.
@@ -33,6 +34,7 @@ var passThrough = map[string]map[string]bool{
 	"import_importer.go":  {"stmt": true, "upsertID": true},
 	"import_bulk.go":      {"execCount": true},
 	"import_tables.go":    {"find": true},
+	"import_copy.go":      {"execRows": true, "layIn": true},
 	"rows.go":             {"eachRow": true, "queryAll": true},
 }
 
