@@ -17,9 +17,10 @@ import (
 // on the row first naming them, changed in place when they differ, pairs likewise, and the
 // counts of new, updated and unchanged are the same (TestLargeRowsImportsMatchTheirModel).
 const (
-	// ON COMMIT DROP: the table lives no longer than the import's transaction. Fields a row
-	// does not write (a known query's text, a known document's body) travel as NULL.
-	postgresImportRowsTable = `CREATE TEMP TABLE import_rows (n bigint, query_ext text, query_text text,
+	// ON COMMIT DROP: the table lives no longer than the import's transaction; a second file
+	// of the same import finds it there and empties it. Fields a row does not write (a known
+	// query's text, a known document's body) travel as NULL.
+	postgresImportRowsTable = `CREATE TEMP TABLE IF NOT EXISTS import_rows (n bigint, query_ext text, query_text text,
 		query_need text, new_query boolean, doc_ext text, title text, url text, body text, body_format text,
 		metadata text, new_doc boolean, priority bigint, gold bigint) ON COMMIT DROP`
 	postgresEmptyImportRows = `TRUNCATE import_rows`
@@ -73,15 +74,11 @@ func (im *importer) copyRows(f ImportFile, format ingest.Format) error {
 	qc, dc := im.counter("queries"), im.counter("documents")
 	im.counter("pairs")
 	origin := "rows:" + f.Name
-	if im.copyTable {
-		if _, err := im.tx.ExecContext(im.ctx, postgresEmptyImportRows); err != nil {
-			return err
-		}
-	} else {
-		if _, err := im.tx.ExecContext(im.ctx, postgresImportRowsTable); err != nil {
-			return err
-		}
-		im.copyTable = true
+	if _, err := im.execRows(postgresImportRowsTable); err != nil {
+		return err
+	}
+	if _, err := im.execRows(postgresEmptyImportRows); err != nil {
+		return err
 	}
 	// The reader's goroutine makes each row's values (a new document's metadata as JSON
 	// among them); the COPY pulls them as it sends.

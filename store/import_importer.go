@@ -41,7 +41,6 @@ type importer struct {
 	docs, rowPairs          *bulk // the bulk path's buffers; nil until used
 	newDocs, newPairs       *bulk // the same for the fresh path (import_fresh.go)
 	fresh                   bool  // the project had no documents or pairs: see import_fresh.go
-	copyTable               bool  // import_rows exists in this transaction (import_copy.go)
 
 	order []string
 	count map[string]*ImportCount
