@@ -308,7 +308,9 @@ func pull[T any](ctx context.Context, read func(emit func(T) error) error) *pull
 			}
 			return nil
 		})
-		if p.err == nil && len(buf) > 0 {
+		// The rows read before a problem go too, so the writer checks them (their ids)
+		// whatever the batch boundaries; once stopped, send returns at once.
+		if len(buf) > 0 {
 			send()
 		}
 	}()

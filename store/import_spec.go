@@ -280,7 +280,7 @@ func (p *problemList) endFile(err error) error {
 	more := p.fileMore
 	if ps != nil {
 		merged = append(merged, ps.List...)
-		more = ps.More
+		more += ps.More
 	}
 	slices.SortStableFunc(merged, func(a, b ingest.Problem) int { return cmp.Compare(a.Line, b.Line) })
 	for _, x := range merged {
