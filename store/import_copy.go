@@ -63,6 +63,16 @@ const (
 		WHERE NOT EXISTS (SELECT 1 FROM pairs p WHERE p.project_id = ?1 AND p.query_id = q.id AND p.document_id = d.id)
 		ORDER BY r.n`
 	projectHasPairs = `SELECT EXISTS (SELECT 1 FROM pairs WHERE project_id = ?1)`
+
+	// A pairs file's ids that the project lacks, in line order, at most ?2 rows, each with
+	// the number of missing ids in the whole file (a window sum, taken before the LIMIT).
+	postgresMissingImportedIDs = `SELECT r.n, r.query_ext, r.doc_ext, q.id IS NULL, d.id IS NULL,
+			SUM(CAST(q.id IS NULL AS int) + CAST(d.id IS NULL AS int)) OVER ()
+		FROM import_rows r
+		LEFT JOIN queries q ON q.project_id = ?1 AND q.external_id = r.query_ext
+		LEFT JOIN documents d ON d.project_id = ?1 AND d.external_id = r.doc_ext
+		WHERE q.id IS NULL OR d.id IS NULL
+		ORDER BY r.n LIMIT ?2`
 )
 
 // importRowsColumns are import_rows' columns in the order copyRows sends them.
@@ -73,17 +83,11 @@ var importRowsColumns = []string{"n", "query_ext", "query_text", "query_need", "
 func (im *importer) copyRows(f ImportFile, format ingest.Format) error {
 	qc, dc := im.counter("queries"), im.counter("documents")
 	im.counter("pairs")
-	origin := "rows:" + f.Name
-	if _, err := im.execRows(postgresImportRowsTable); err != nil {
-		return err
-	}
-	if _, err := im.execRows(postgresEmptyImportRows); err != nil {
-		return err
-	}
 	// The reader's goroutine makes each row's values (a new document's metadata as JSON
-	// among them); the COPY pulls them as it sends.
+	// among them) and counts the rows that write a query or a document; copyImportRows has
+	// waited for it to end before they are read.
 	var queries, docs int
-	p := pull(im.done, func(emit func([]any) error) error {
+	sent, readErr, err := im.copyImportRows(func(emit func([]any) error) error {
 		n := int64(0)
 		return ingest.ReadPairRows(f.R, format, im.options(f.Name), func(r ingest.PairRow) error {
 			n++
@@ -91,6 +95,7 @@ func (im *importer) copyRows(f ImportFile, format ingest.Format) error {
 			row[0], row[1], row[4], row[5], row[11] = n, r.Query.ID, r.NewQuery, r.Document.ID, r.NewDocument
 			if r.NewQuery {
 				row[2], row[3] = r.Query.Text, r.Query.Need
+				queries++
 			}
 			if r.NewDocument {
 				d := r.Document
@@ -99,16 +104,84 @@ func (im *importer) copyRows(f ImportFile, format ingest.Format) error {
 					return err
 				}
 				row[6], row[7], row[8], row[9], row[10] = a.title, a.url, a.body, a.format, a.meta
+				docs++
 			}
-			row[12] = int64(r.Pair.Priority)
-			if r.Pair.GoldGrade != ingest.NoGrade {
-				row[13] = int64(r.Pair.GoldGrade)
-			}
+			pairFields(row, r.Pair)
 			return emit(row)
 		})
 	})
-	var sent int64
-	err := im.conn.Raw(func(driverConn any) error {
+	if err != nil {
+		return err
+	}
+	// Problems in the file: nothing is laid in (the import will roll back), but the
+	// transaction stays usable, so the next file's problems are found too.
+	if readErr != nil || im.ps.failed() || sent == 0 {
+		return readErr
+	}
+	if err := im.layIn(qc, queries, postgresUpdateImportedQueries, postgresInsertImportedQueries); err != nil {
+		return err
+	}
+	if err := im.layIn(dc, docs, postgresUpdateImportedDocuments, postgresInsertImportedDocuments); err != nil {
+		return err
+	}
+	return im.layInPairs("rows:"+f.Name, sent)
+}
+
+// copyPairs is pairs on PostgreSQL: the file's pairs travel by COPY with the line each
+// starts on as n, the ids the project lacks are found in one statement and reported at
+// their lines as lookup reports them, and the rest is laid in as a rows file's pairs are.
+func (im *importer) copyPairs(f ImportFile, format ingest.Format) error {
+	im.counter("pairs")
+	sent, readErr, err := im.copyImportRows(func(emit func([]any) error) error {
+		return ingest.ReadPairs(f.R, format, im.options(f.Name), func(p ingest.Pair) error {
+			row := make([]any, len(importRowsColumns))
+			row[0], row[1], row[4], row[5], row[11] = int64(p.Line), p.QueryID, false, p.DocID, false
+			pairFields(row, p)
+			return emit(row)
+		})
+	})
+	if err != nil {
+		return err
+	}
+	var problems *ingest.Problems
+	if readErr != nil && !errors.As(readErr, &problems) {
+		return readErr
+	}
+	if sent == 0 {
+		return readErr
+	}
+	if err := im.reportMissingIDs(f.Name, tableIDs); err != nil {
+		return err
+	}
+	if readErr != nil || im.ps.failed() {
+		return readErr
+	}
+	return im.layInPairs("pairs:"+f.Name, sent)
+}
+
+// pairFields sets a row's priority and gold grade (NULL when the file gives none).
+func pairFields(row []any, p ingest.Pair) {
+	row[12] = int64(p.Priority)
+	if p.GoldGrade != ingest.NoGrade {
+		row[13] = int64(p.GoldGrade)
+	}
+}
+
+// copyImportRows empties import_rows (creating it the first time in this transaction) and
+// fills it with what read emits, by COPY on the transaction's own connection: rows are
+// made on a reader goroutine while the stream sends the earlier ones. sent is the number
+// of rows sent; readErr is the reader's error (its problems with the file, among others),
+// err one of the database, and the reader has ended when it returns. The table is analysed
+// once filled.
+func (im *importer) copyImportRows(read func(emit func([]any) error) error) (sent int64, readErr, err error) {
+	if _, err := im.execRows(postgresImportRowsTable); err != nil {
+		return 0, nil, err
+	}
+	if _, err := im.execRows(postgresEmptyImportRows); err != nil {
+		return 0, nil, err
+	}
+	p := pull(im.done, read)
+	err = im.conn.Raw(func(driverConn any) error {
 		c, ok := driverConn.(pgConn)
 		if !ok {
 			return errors.New("store: COPY needs a PostgreSQL connection")
@@ -118,41 +191,57 @@ func (im *importer) copyRows(f ImportFile, format ingest.Format) error {
 			if !ok || err != nil {
 				return nil, err
 			}
-			if row[4].(bool) {
-				queries++
-			}
-			if row[11].(bool) {
-				docs++
-			}
 			return row, nil
 		})
 		var err error
 		sent, err = pgxConn(c).CopyFrom(im.ctx, pgx.Identifier{"import_rows"}, importRowsColumns, src)
 		return err
 	})
-	readErr := p.close()
+	readErr = p.close()
+	if err != nil || sent == 0 {
+		return sent, readErr, err
+	}
+	_, err = im.execRows(postgresAnalyzeImportRows)
+	return sent, readErr, err
+}
+
+// reportMissingIDs adds a problem for each query and document id in import_rows that the
+// project lacks, at the row's line, in line order and up to the cap; the ones past the
+// cap are counted.
+func (im *importer) reportMissingIDs(file string, at idFields) error {
+	rows, err := im.tx.QueryContext(im.ctx, postgresMissingImportedIDs, im.project, im.ps.max)
 	if err != nil {
 		return err
 	}
-	// Problems in the file: nothing is laid in (the import will roll back), but the
-	// transaction stays usable, so the next file's problems are found too.
-	if readErr != nil || im.ps.failed() {
-		return readErr
+	defer rows.Close()
+	total, added := 0, 0
+	for rows.Next() {
+		var line int
+		var query, doc string
+		var noQuery, noDoc bool
+		if err := rows.Scan(&line, &query, &doc, &noQuery, &noDoc, &total); err != nil {
+			return err
+		}
+		if noQuery {
+			im.ps.add(file, line, at.query, missingQuery(query))
+			added++
+		}
+		if noDoc {
+			im.ps.add(file, line, at.doc, missingDocument(doc))
+			added++
+		}
 	}
-	if sent == 0 {
-		return nil
-	}
-	if _, err := im.tx.ExecContext(im.ctx, postgresAnalyzeImportRows); err != nil {
+	if err := rows.Err(); err != nil {
 		return err
 	}
-	if err := im.layIn(qc, queries, postgresUpdateImportedQueries, postgresInsertImportedQueries); err != nil {
-		return err
-	}
-	if err := im.layIn(dc, docs, postgresUpdateImportedDocuments, postgresInsertImportedDocuments); err != nil {
-		return err
-	}
-	// Pairs are counted as the bulk path counts them (finish): given, changed, and the
-	// number above maxPair. A project without pairs has none to update.
+	im.ps.fileMore += total - added
+	return nil
+}
+
+// layInPairs updates and inserts the pairs of import_rows, counting them as finish
+// expects: given, changed (updated or new), and the number above maxPair. A project
+// without pairs has none to update.
+func (im *importer) layInPairs(origin string, sent int64) error {
 	var had bool
 	if err := im.tx.QueryRowContext(im.ctx, projectHasPairs, im.project).Scan(&had); err != nil {
 		return err

@@ -9,6 +9,7 @@ import (
 	"math/rand/v2"
 	"reflect"
 	"strconv"
+	"strings"
 	"testing"
 
 	"github.com/pertinent/pertinent/ingest"
@@ -343,4 +344,178 @@ func clone[K comparable, V any](m map[K]V) map[K]V {
 		out[k] = v
 	}
 	return out
+}
+
+// pairsFile writes rows as a pairs CSV and applies them to the model by a pairs file's
+// rule: a new pair is made, a known one gets the priority and, when given, the gold grade.
+func (m *rowsModel) pairsFile(name string, rows []modelRow) ImportFile {
+	var buf bytes.Buffer
+	w := csv.NewWriter(&buf)
+	w.Write([]string{"query_id", "doc_id", "priority", "gold_grade"})
+	c := m.counts["pairs"]
+	for _, r := range rows {
+		gold := ""
+		if r.gold >= 0 {
+			gold = strconv.Itoa(r.gold)
+		}
+		w.Write([]string{r.q, r.d, strconv.Itoa(r.priority), gold})
+		k := [2]string{r.q, r.d}
+		old, ok := m.pairs[k]
+		switch {
+		case !ok:
+			c[0]++
+			m.pairs[k] = modelPair{r.priority, r.gold, "pairs:" + name}
+		case old.priority != r.priority || (r.gold >= 0 && r.gold != old.gold):
+			c[1]++
+			old.priority = r.priority
+			if r.gold >= 0 {
+				old.gold = r.gold
+			}
+			m.pairs[k] = old
+		default:
+			c[2]++
+		}
+	}
+	m.counts["pairs"] = c
+	w.Flush()
+	return ImportFile{Name: name, R: bytes.NewReader(buf.Bytes())}
+}
+
+// Pairs files, which on PostgreSQL travel by COPY and are checked and laid in by set-based
+// statements, must leave what upserting them one at a time would, with the same counts,
+// and report the ids the project lacks at their lines, in line order among the reader's own
+// problems, capped and then counted.
+func TestLargePairsImportsMatchTheirModel(t *testing.T) {
+	s := openTest(t)
+	p, lead := importProject(t, s)
+	other, err := s.CreateProject(context.Background(), NewProject{Name: "neighbour"}, lead.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var qs, ds strings.Builder
+	qs.WriteString("query_id,text\n")
+	ds.WriteString("doc_id,title\n")
+	const nq, nd = 30, 500
+	for i := range nq {
+		fmt.Fprintf(&qs, "q%d,query %d\n", i, i)
+	}
+	for i := range nd {
+		fmt.Fprintf(&ds, "d%d,document %d\n", i, i)
+	}
+	for _, pr := range []Project{p, other} {
+		mustImport(t, s, pr, lead.ID, ImportSpec{Kind: ImportQueries}, files("q.csv", qs.String())...)
+		mustImport(t, s, pr, lead.ID, ImportSpec{Kind: ImportDocuments}, files("d.csv", ds.String())...)
+	}
+	// The neighbour's pairs share every external id; none of them may be touched.
+	mustImport(t, s, other, lead.ID, ImportSpec{Kind: ImportPairs}, files("p.csv", "query_id,doc_id,priority,gold_grade\nq1,d1,3,2\nq2,d2,1,\n")...)
+	_, _, otherBefore := storedRows(t, s, other)
+
+	m := &rowsModel{pairs: map[[2]string]modelPair{}}
+	rng := rand.New(rand.NewPCG(3, 29))
+	rowsOf := func(n int) []modelRow {
+		seen := map[[2]string]bool{}
+		var out []modelRow
+		for len(out) < n {
+			r := modelRow{q: fmt.Sprintf("q%d", rng.IntN(nq)), d: fmt.Sprintf("d%d", rng.IntN(nd)), priority: rng.IntN(4), gold: -1}
+			if k := [2]string{r.q, r.d}; !seen[k] {
+				seen[k] = true
+				if rng.IntN(4) == 0 {
+					r.gold = rng.IntN(5)
+				}
+				out = append(out, r)
+			}
+		}
+		return out
+	}
+	var last []modelRow
+	for round := range 4 {
+		m.counts = map[string][3]int{}
+		rows := rowsOf(700)
+		for i := 0; i < len(rows)/2 && i < len(last); i++ {
+			r := last[i]
+			switch rng.IntN(4) {
+			case 0:
+				r.priority = rng.IntN(4)
+			case 1:
+				r.gold = rng.IntN(5)
+			case 2:
+				r.gold = -1
+			}
+			rows[i] = r
+		}
+		rows = dedupRows(rows)
+		last = rows
+		fs := []ImportFile{m.pairsFile(fmt.Sprintf("round%d.csv", round), rows)}
+		if round == 2 {
+			// A second file in the same import changes some of the first one's pairs.
+			again := append([]modelRow(nil), rows[:200]...)
+			for i := range again {
+				again[i].priority = (again[i].priority + i%2) % 4
+			}
+			fs = append(fs, m.pairsFile("again.csv", again))
+		}
+		rep := mustImport(t, s, p, lead.ID, ImportSpec{Kind: ImportPairs}, fs...)
+		c := m.counts["pairs"]
+		wantCount(t, rep, "pairs", c[0], c[1], c[2])
+		if _, _, got := storedRows(t, s, p); !reflect.DeepEqual(got, m.pairs) {
+			t.Errorf("round %d: %d pairs stored, %d in the model, or their fields differ", round, len(got), len(m.pairs))
+		}
+		checkProgress(t, s, fmt.Sprintf("round %d", round))
+	}
+	if _, _, got := storedRows(t, s, other); !reflect.DeepEqual(got, otherBefore) {
+		t.Error("importing into one project changed the neighbour's pairs")
+	}
+
+	// Unknown ids on many lines and a grade off the scale on one, in two files, with the
+	// problems capped at 2: the list is the first 2 by file and line, the rest counted. A
+	// file's rows stop reaching the store at the reader's first problem, so its ids are
+	// looked up only before that line.
+	before := dump(t, s)
+	bad := func(name string, offset int) (ImportFile, []string) {
+		var buf bytes.Buffer
+		var want []string
+		buf.WriteString("query_id,doc_id,priority,gold_grade\n")
+		for i := 1; i < 400; i++ {
+			line := i + 1
+			q, d, grade := fmt.Sprintf("q%d", i%nq), fmt.Sprintf("d%d", i), ""
+			checked := i < 100+offset
+			if (i+offset)%45 == 0 {
+				q = fmt.Sprintf("lost%d", i)
+				if checked {
+					want = append(want, fmt.Sprintf(`%s:%d: query_id: no query "%s" in this project: import queries first`, name, line, q))
+				}
+			}
+			if (i+offset)%60 == 0 {
+				d = fmt.Sprintf("gone%d", i)
+				if checked {
+					want = append(want, fmt.Sprintf(`%s:%d: doc_id: no document "%s" in this project: import documents first`, name, line, d))
+				}
+			}
+			if i == 100+offset {
+				grade = "9"
+				want = append(want, fmt.Sprintf("%s:%d: column 4 (gold_grade): grade 9 is outside the scale 0..4", name, line))
+			}
+			fmt.Fprintf(&buf, "%s,%s,1,%s\n", q, d, grade)
+		}
+		return ImportFile{Name: name, R: bytes.NewReader(buf.Bytes())}, want
+	}
+	a, wantA := bad("a.csv", 0)
+	b, wantB := bad("b.csv", 7)
+	want := append(wantA, wantB...)
+	_, err = s.Import(context.Background(), p.ID, lead.ID, ImportSpec{Kind: ImportPairs, MaxProblems: 2}, []ImportFile{a, b})
+	var ps *ingest.Problems
+	if !errors.As(err, &ps) {
+		t.Fatalf("import with unknown ids: %v, want problems", err)
+	}
+	var got []string
+	for _, x := range ps.List {
+		got = append(got, x.Error())
+	}
+	if len(want) != 8 || !reflect.DeepEqual(got, want[:2]) || ps.More != len(want)-2 {
+		t.Errorf("problems:\n%s\n... and %d more\nwant:\n%s\n... and %d more", strings.Join(got, "\n"), ps.More,
+			strings.Join(want[:2], "\n"), len(want)-2)
+	}
+	if after := dump(t, s); !reflect.DeepEqual(before, after) {
+		t.Error("a rejected import changed the database")
+	}
 }

@@ -144,6 +144,9 @@ func (im *importer) rows(f ImportFile, format ingest.Format) error {
 
 // pairs links queries and documents the project has already; an id it lacks is a problem.
 func (im *importer) pairs(f ImportFile, format ingest.Format) error {
+	if im.pg {
+		return im.copyPairs(f, format)
+	}
 	im.counter("pairs")
 	origin := "pairs:" + f.Name
 	return pipe(im.done, func(emit func(ingest.Pair) error) error {
@@ -174,16 +177,24 @@ func (im *importer) lookup(file string, line int, at idFields, query, doc string
 		return 0, 0, err
 	}
 	if qid == 0 {
-		im.ps.add(file, line, at.query, "no query "+quoteID(query)+" in this project: import queries first")
+		im.ps.add(file, line, at.query, missingQuery(query))
 	}
 	did, err := im.find(im.docIDs, findDocument, doc)
 	if err != nil {
 		return 0, 0, err
 	}
 	if did == 0 {
-		im.ps.add(file, line, at.doc, "no document "+quoteID(doc)+" in this project: import documents first")
+		im.ps.add(file, line, at.doc, missingDocument(doc))
 	}
 	return qid, did, nil
+}
+
+func missingQuery(id string) string {
+	return "no query " + quoteID(id) + " in this project: import queries first"
+}
+
+func missingDocument(id string) string {
+	return "no document " + quoteID(id) + " in this project: import documents first"
 }
 
 // find looks an external id up once per import; 0 means the project lacks it.
