@@ -3,7 +3,9 @@
 # defaults, a Unix socket, no port):
 #  1. import: `pertinent import rows` of 1,000,000 combined rows (bench/gen; 20,000 queries ×
 #     50 documents) into a fresh PostgreSQL database, beside psql loading the same file with
-#     \copy into the same schema (bench/import_schema_postgres.sql) in another; goal 1.5x.
+#     \copy into the same schema (bench/import_schema_postgres.sql) in another; then the same
+#     1,000,000 pairs as a pairs file (`pertinent import pairs`) into databases holding the
+#     queries and documents, beside psql's \copy (bench/import_pairs_postgres.sql); goal 1.5x.
 #  2. judging: `pertinent loadtest` against one instance on SQLite, one on PostgreSQL and two
 #     on one PostgreSQL database, each beside its ceiling measured in the same run (SQLite's
 #     raw commit rate; pgbench's single-row insert transactions on the cluster).
@@ -52,6 +54,28 @@ read -r ref_s _ < "$work/ref.time"
 echo "pertinent import rows into PostgreSQL: ${app_s} s, peak RSS $((app_kb / 1024)) MB"
 echo "psql \\copy and SQL into the same schema: ${ref_s} s"
 awk -v a="$app_s" -v r="$ref_s" 'BEGIN { printf "import ratio: %.2fx psql'"'"'s COPY into the same schema (goal: 1.5x)\n", a / r }'
+
+# The same pairs alone, as a pairs file, into databases holding the queries and documents.
+go run ./bench/gen -queries "$queries" -per "$per" -pairs > "$work/pairs.csv"
+chmod 644 "$work/pairs.csv"
+for db in papp pref; do
+  psql -d bench -c "CREATE DATABASE $db"
+  "$work/pertinent" migrate --db "$(dsn $db)" >/dev/null
+  psql -d "$db" -c "$project_sql"
+  psql -d "$db" -f bench/import_pairs_setup_postgres.sql < "$work/rows.csv"
+done
+psql -d bench -c CHECKPOINT
+/usr/bin/time -f "%e %M" -o "$work/papp.time" "$work/pertinent" import pairs --db "$(dsn papp)" --project bench "$work/pairs.csv" >/dev/null
+psql -d bench -c CHECKPOINT
+/usr/bin/time -f "%e %M" -o "$work/pref.time" "$PG_BIN/psql" -X -q -v ON_ERROR_STOP=1 -h "$work/pg" -U pertinent \
+  -d pref -f bench/import_pairs_postgres.sql < "$work/pairs.csv"
+[ "$(psql -d papp -Atc 'SELECT COUNT(*) FROM pairs')" = "$(psql -d pref -Atc 'SELECT COUNT(*) FROM pairs')" ] ||
+  { echo "the pairs reference loaded a different number of pairs" >&2; exit 1; }
+read -r app_s app_kb < "$work/papp.time"
+read -r ref_s _ < "$work/pref.time"
+echo "pertinent import pairs into PostgreSQL: ${app_s} s, peak RSS $((app_kb / 1024)) MB"
+echo "psql \\copy and SQL into the same schema: ${ref_s} s"
+awk -v a="$app_s" -v r="$ref_s" 'BEGIN { printf "pairs import ratio: %.2fx psql'"'"'s COPY into the same schema (goal: 1.5x)\n", a / r }'
 
 lt() { "$work/pertinent" loadtest --assessors "$assessors" --pairs 20000 --duration "$duration" "$@" | grep -E '^(summary|pgbench|raw)'; }
 psql -d bench -c "CREATE DATABASE judging"

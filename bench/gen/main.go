@@ -3,6 +3,9 @@
 // 2k+1 share their documents (same content), as candidates of related queries do, so the file
 // names queries × per pairs and queries × per / 2 documents.
 //
+// With -pairs it writes the same rows' pairs alone (query_id, doc_id, priority), a pairs
+// file for queries and documents already loaded.
+//
 // With -run N it writes run N of a set instead, for the planning benchmark (bench/plan.sh):
 // for each of the same queries, -depth documents ranked out of a pool of 4 × depth, the first
 // -per of them the query's documents in the rows file. Every run ranks by the same hidden relevance plus noise
@@ -24,12 +27,22 @@ func main() {
 	queries := flag.Int("queries", 20000, "number of queries")
 	per := flag.Int("per", 50, "documents per query")
 	run := flag.Int("run", -1, "write run N (0, 1, ...) of a set instead of pair rows")
+	pairs := flag.Bool("pairs", false, "write the rows' pairs alone, as a pairs file")
 	depth := flag.Int("depth", 100, "documents ranked per query (with -run)")
 	flag.Parse()
 	w := bufio.NewWriterSize(os.Stdout, 1<<20)
 	defer w.Flush()
 	if *run >= 0 {
 		writeRun(w, *run, *queries, *per, *depth)
+		return
+	}
+	if *pairs {
+		fmt.Fprintln(w, "query_id,doc_id,priority")
+		for q := 0; q < *queries; q++ {
+			for j := 0; j < *per; j++ {
+				fmt.Fprintf(w, "q%d,doc-%d,%d\n", q, (q/2)*(*per)+j, (q*31+j)%100)
+			}
+		}
 		return
 	}
 	fmt.Fprintln(w, "query_id,query_text,query_need,doc_id,title,url,body,body_format,priority,lang")
