@@ -40,20 +40,26 @@ for db in app ref; do
   "$work/pertinent" migrate --db "$(dsn $db)" >/dev/null
   psql -d "$db" -c "$project_sql"
 done
-cat "$work/rows.csv" > /dev/null
-# A checkpoint before each side, so neither pays for flushing the other's writes.
-psql -d bench -c CHECKPOINT
-/usr/bin/time -f "%e %M" -o "$work/app.time" "$work/pertinent" import rows --db "$(dsn app)" --project bench "$work/rows.csv" >/dev/null
-psql -d bench -c CHECKPOINT
-/usr/bin/time -f "%e %M" -o "$work/ref.time" "$PG_BIN/psql" -X -q -v ON_ERROR_STOP=1 -h "$work/pg" -U pertinent \
-  -d ref -f bench/import_schema_postgres.sql < "$work/rows.csv"
-[ "$(psql -d app -Atc 'SELECT COUNT(*) FROM pairs')" = "$(psql -d ref -Atc 'SELECT COUNT(*) FROM pairs')" ] ||
-  { echo "the reference loaded a different number of pairs" >&2; exit 1; }
-read -r app_s app_kb < "$work/app.time"
-read -r ref_s _ < "$work/ref.time"
-echo "pertinent import rows into PostgreSQL: ${app_s} s, peak RSS $((app_kb / 1024)) MB"
-echo "psql \\copy and SQL into the same schema: ${ref_s} s"
-awk -v a="$app_s" -v r="$ref_s" 'BEGIN { printf "import ratio: %.2fx psql'"'"'s COPY into the same schema (goal: 1.5x)\n", a / r }'
+# vs KIND APP REF FILE SQL: `pertinent import KIND FILE` into database APP beside psql running
+# SQL on FILE into database REF, a checkpoint before each side so neither pays for flushing
+# the other's writes; both must end with the same number of pairs.
+vs() {
+  local kind=$1 app=$2 ref=$3 file=$4 sql=$5 app_s app_kb ref_s
+  cat "$file" > /dev/null
+  psql -d bench -c CHECKPOINT
+  /usr/bin/time -f "%e %M" -o "$work/$app.time" "$work/pertinent" import "$kind" --db "$(dsn "$app")" --project bench "$file" >/dev/null
+  psql -d bench -c CHECKPOINT
+  /usr/bin/time -f "%e %M" -o "$work/$ref.time" "$PG_BIN/psql" -X -q -v ON_ERROR_STOP=1 -h "$work/pg" -U pertinent \
+    -d "$ref" -f "$sql" < "$file"
+  [ "$(psql -d "$app" -Atc 'SELECT COUNT(*) FROM pairs')" = "$(psql -d "$ref" -Atc 'SELECT COUNT(*) FROM pairs')" ] ||
+    { echo "the $kind reference loaded a different number of pairs" >&2; exit 1; }
+  read -r app_s app_kb < "$work/$app.time"
+  read -r ref_s _ < "$work/$ref.time"
+  echo "pertinent import $kind into PostgreSQL: ${app_s} s, peak RSS $((app_kb / 1024)) MB"
+  echo "psql \\copy and SQL into the same schema: ${ref_s} s"
+  awk -v k="$kind" -v a="$app_s" -v r="$ref_s" 'BEGIN { printf "%s import ratio: %.2fx psql'"'"'s COPY into the same schema (goal: 1.5x)\n", k, a / r }'
+}
+vs rows app ref "$work/rows.csv" bench/import_schema_postgres.sql
 
 # The same pairs alone, as a pairs file, into databases holding the queries and documents.
 go run ./bench/gen -queries "$queries" -per "$per" -pairs > "$work/pairs.csv"
@@ -64,18 +70,7 @@ for db in papp pref; do
   psql -d "$db" -c "$project_sql"
   psql -d "$db" -f bench/import_pairs_setup_postgres.sql < "$work/rows.csv"
 done
-psql -d bench -c CHECKPOINT
-/usr/bin/time -f "%e %M" -o "$work/papp.time" "$work/pertinent" import pairs --db "$(dsn papp)" --project bench "$work/pairs.csv" >/dev/null
-psql -d bench -c CHECKPOINT
-/usr/bin/time -f "%e %M" -o "$work/pref.time" "$PG_BIN/psql" -X -q -v ON_ERROR_STOP=1 -h "$work/pg" -U pertinent \
-  -d pref -f bench/import_pairs_postgres.sql < "$work/pairs.csv"
-[ "$(psql -d papp -Atc 'SELECT COUNT(*) FROM pairs')" = "$(psql -d pref -Atc 'SELECT COUNT(*) FROM pairs')" ] ||
-  { echo "the pairs reference loaded a different number of pairs" >&2; exit 1; }
-read -r app_s app_kb < "$work/papp.time"
-read -r ref_s _ < "$work/pref.time"
-echo "pertinent import pairs into PostgreSQL: ${app_s} s, peak RSS $((app_kb / 1024)) MB"
-echo "psql \\copy and SQL into the same schema: ${ref_s} s"
-awk -v a="$app_s" -v r="$ref_s" 'BEGIN { printf "pairs import ratio: %.2fx psql'"'"'s COPY into the same schema (goal: 1.5x)\n", a / r }'
+vs pairs papp pref "$work/pairs.csv" bench/import_pairs_postgres.sql
 
 lt() { "$work/pertinent" loadtest --assessors "$assessors" --pairs 20000 --duration "$duration" "$@" | grep -E '^(summary|pgbench|raw)'; }
 psql -d bench -c "CREATE DATABASE judging"

@@ -181,23 +181,7 @@ func TestLargeRowsImportsMatchTheirModel(t *testing.T) {
 	for i := range nd {
 		df[fmt.Sprintf("d%d", i)] = [5]string{pick(), pick(), fmt.Sprintf("body %d %s", i, pick()), formats[rng.IntN(3)], []string{"", "en", "de"}[rng.IntN(3)]}
 	}
-	// rowsOf makes one file's rows: each of n pairs drawn at random, none twice.
-	rowsOf := func(n int) []modelRow {
-		seen := map[[2]string]bool{}
-		var out []modelRow
-		for len(out) < n {
-			r := modelRow{q: fmt.Sprintf("q%d", rng.IntN(nq)), d: fmt.Sprintf("d%d", rng.IntN(nd)), priority: rng.IntN(4), gold: -1}
-			if seen[[2]string{r.q, r.d}] {
-				continue
-			}
-			seen[[2]string{r.q, r.d}] = true
-			if rng.IntN(5) == 0 {
-				r.gold = rng.IntN(5)
-			}
-			out = append(out, r)
-		}
-		return out
-	}
+	rowsOf := func(n int) []modelRow { return drawRows(rng, nq, nd, n, 5) }
 	check := func(round string, rep ImportReport) {
 		t.Helper()
 		for _, what := range []string{"queries", "documents", "pairs"} {
@@ -228,20 +212,7 @@ func TestLargeRowsImportsMatchTheirModel(t *testing.T) {
 		m.counts = map[string][3]int{}
 		rows := rowsOf(600)
 		if round > 0 {
-			// Half the file repeats the last one's pairs, some with a new priority or grade.
-			for i := 0; i < len(rows)/2 && i < len(lastRows); i++ {
-				r := lastRows[i]
-				switch rng.IntN(4) {
-				case 0:
-					r.priority = rng.IntN(4)
-				case 1:
-					r.gold = rng.IntN(5)
-				case 2:
-					r.gold = -1 // an empty grade keeps the stored one
-				}
-				rows[i] = r
-			}
-			rows = dedupRows(rows)
+			rows = repeatHalf(rng, rows, lastRows)
 			// And a few queries and documents change.
 			for i := range 3 {
 				k := fmt.Sprintf("q%d", rng.IntN(nq))
@@ -323,6 +294,42 @@ func TestLargeRowsImportsMatchTheirModel(t *testing.T) {
 	if after := dump(t, s); !reflect.DeepEqual(before, after) {
 		t.Error("a rejected import changed the database")
 	}
+}
+
+// drawRows makes one file's rows: n pairs of q0..q(nq-1) and d0..d(nd-1) drawn at random,
+// none twice, one in goldEvery with a gold grade.
+func drawRows(rng *rand.Rand, nq, nd, n, goldEvery int) []modelRow {
+	seen := map[[2]string]bool{}
+	var out []modelRow
+	for len(out) < n {
+		r := modelRow{q: fmt.Sprintf("q%d", rng.IntN(nq)), d: fmt.Sprintf("d%d", rng.IntN(nd)), priority: rng.IntN(4), gold: -1}
+		if k := [2]string{r.q, r.d}; !seen[k] {
+			seen[k] = true
+			if rng.IntN(goldEvery) == 0 {
+				r.gold = rng.IntN(5)
+			}
+			out = append(out, r)
+		}
+	}
+	return out
+}
+
+// repeatHalf makes the first half of rows repeat the last file's pairs, some with a new
+// priority or grade, or an empty grade, which keeps the stored one.
+func repeatHalf(rng *rand.Rand, rows, last []modelRow) []modelRow {
+	for i := 0; i < len(rows)/2 && i < len(last); i++ {
+		r := last[i]
+		switch rng.IntN(4) {
+		case 0:
+			r.priority = rng.IntN(4)
+		case 1:
+			r.gold = rng.IntN(5)
+		case 2:
+			r.gold = -1
+		}
+		rows[i] = r
+	}
+	return dedupRows(rows)
 }
 
 // dedupRows drops the later of two rows naming the same pair.
@@ -412,38 +419,10 @@ func TestLargePairsImportsMatchTheirModel(t *testing.T) {
 
 	m := &rowsModel{pairs: map[[2]string]modelPair{}}
 	rng := rand.New(rand.NewPCG(3, 29))
-	rowsOf := func(n int) []modelRow {
-		seen := map[[2]string]bool{}
-		var out []modelRow
-		for len(out) < n {
-			r := modelRow{q: fmt.Sprintf("q%d", rng.IntN(nq)), d: fmt.Sprintf("d%d", rng.IntN(nd)), priority: rng.IntN(4), gold: -1}
-			if k := [2]string{r.q, r.d}; !seen[k] {
-				seen[k] = true
-				if rng.IntN(4) == 0 {
-					r.gold = rng.IntN(5)
-				}
-				out = append(out, r)
-			}
-		}
-		return out
-	}
 	var last []modelRow
 	for round := range 4 {
 		m.counts = map[string][3]int{}
-		rows := rowsOf(700)
-		for i := 0; i < len(rows)/2 && i < len(last); i++ {
-			r := last[i]
-			switch rng.IntN(4) {
-			case 0:
-				r.priority = rng.IntN(4)
-			case 1:
-				r.gold = rng.IntN(5)
-			case 2:
-				r.gold = -1
-			}
-			rows[i] = r
-		}
-		rows = dedupRows(rows)
+		rows := repeatHalf(rng, drawRows(rng, nq, nd, 700, 4), last)
 		last = rows
 		fs := []ImportFile{m.pairsFile(fmt.Sprintf("round%d.csv", round), rows)}
 		if round == 2 {
