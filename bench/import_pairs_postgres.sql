@@ -14,10 +14,7 @@ INSERT INTO pairs(project_id, query_id, document_id, origin, priority, created_a
     JOIN documents d ON d.project_id = 1 AND d.external_id = g.doc_id
     ORDER BY g.n;
 ALTER TABLE pairs ENABLE TRIGGER USER;
-INSERT INTO query_progress(query_id, project_id, pairs, judged, top_priority)
-    SELECT query_id, 1, COUNT(*), 0, MAX(priority) FROM pairs WHERE project_id = 1 GROUP BY query_id
-    ON CONFLICT (query_id) DO UPDATE SET pairs = excluded.pairs, judged = excluded.judged,
-        top_priority = excluded.top_priority;
+\ir query_progress_postgres.sql
 DELETE FROM bulk_imports;
 COMMIT;
 ANALYZE pairs, query_progress;
