@@ -55,9 +55,12 @@ func (rig *instancesRig) judgeURL(i int) string {
 	return fmt.Sprintf("http://%s/projects/%d/judge", rig.addrs[i], rig.project)
 }
 
+// loadClient is one assessor's browser. Its timeout only catches a request that hangs: these
+// tests check what is stored, not how fast, and with 200 assessors on one project's lock a
+// turn can wait many seconds on a machine busy with other test binaries.
 func loadClient() *http.Client {
 	jar, _ := cookiejar.New(nil)
-	return &http.Client{Jar: jar, Timeout: 10 * time.Second,
+	return &http.Client{Jar: jar, Timeout: 60 * time.Second,
 		CheckRedirect: func(*http.Request, []*http.Request) error { return http.ErrUseLastResponse }}
 }
 
