@@ -35,11 +35,14 @@ go run ./bench/gen -queries "$queries" -per "$per" > "$work/rows.csv"
 chmod 644 "$work/rows.csv"
 echo "input: $(($(wc -l < "$work/rows.csv") - 1)) rows, $(du -h "$work/rows.csv" | cut -f1)"
 
-for db in app ref; do
-  psql -d bench -c "CREATE DATABASE $db"
-  "$work/pertinent" migrate --db "$(dsn $db)" >/dev/null
-  psql -d "$db" -c "$project_sql"
-done
+# newdb DB: a new database at pertinent's latest schema, holding the bench project.
+newdb() {
+  psql -d bench -c "CREATE DATABASE $1"
+  "$work/pertinent" migrate --db "$(dsn "$1")" >/dev/null
+  psql -d "$1" -c "$project_sql"
+}
+newdb app
+newdb ref
 # vs KIND APP REF FILE SQL: `pertinent import KIND FILE` into database APP beside psql running
 # SQL on FILE into database REF, a checkpoint before each side so neither pays for flushing
 # the other's writes; both must end with the same number of pairs.
@@ -65,9 +68,7 @@ vs rows app ref "$work/rows.csv" bench/import_schema_postgres.sql
 go run ./bench/gen -queries "$queries" -per "$per" -pairs > "$work/pairs.csv"
 chmod 644 "$work/pairs.csv"
 for db in papp pref; do
-  psql -d bench -c "CREATE DATABASE $db"
-  "$work/pertinent" migrate --db "$(dsn $db)" >/dev/null
-  psql -d "$db" -c "$project_sql"
+  newdb "$db"
   psql -d "$db" -f bench/import_pairs_setup_postgres.sql < "$work/rows.csv"
 done
 vs pairs papp pref "$work/pairs.csv" bench/import_pairs_postgres.sql
